@@ -1,0 +1,39 @@
+# Two commands set everything up on a fresh machine that has Python 3.11 and pip:
+#   make run    -> .venv with kinroots, then the main job on the embedded default case
+#   make test   -> .venv with kinroots[test], then the whole test suite (slow tests included)
+PYTHON ?= python3
+VENV   ?= .venv
+PY     := $(VENV)/bin/python
+OUT    ?= kinroots-out
+
+.PHONY: run test lint bench clean
+
+$(PY):
+	$(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install -q --upgrade pip
+
+$(VENV)/.installed: pyproject.toml | $(PY)
+	$(PY) -m pip install -q -e .
+	@touch $@
+
+$(VENV)/.installed-test: pyproject.toml | $(PY)
+	$(PY) -m pip install -q -e ".[test]"
+	@touch $@ $(VENV)/.installed
+
+run: $(VENV)/.installed
+	$(VENV)/bin/kinroots plasma --default
+
+# pytest exits 5 when it collects no test: that must not pass as green.
+test: $(VENV)/.installed-test
+	@$(PY) -m pytest -n 2 -p no:cacheprovider; rc=$$?; \
+	if [ $$rc -eq 5 ]; then echo "make test: pytest collected no tests" >&2; exit 1; fi; \
+	exit $$rc
+
+lint: $(VENV)/.installed-test
+	$(VENV)/bin/ruff check kinroots tests benchmarks
+
+bench: $(VENV)/.installed-test
+	@for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
+
+clean:
+	rm -rf $(OUT) build dist *.egg-info .pytest_cache .ruff_cache .hypothesis
