@@ -4,9 +4,9 @@ Frame: B along z, k = (k_perp, 0, k_par).  Unmagnetized models use the same fram
 the drift axis as z.  Time dependence exp(i k·x − i ω t).
 
 * Electrostatic builders return the scalar χ_s(ω) and dχ_s/dω, shaped like ``omega``.
-* Electromagnetic builders return the *scaled* tensor ω²·χ_s(ω) (entire in ω and finite
-  at ω = 0, where χ_s itself has a pole) and its ω-derivative, shaped
-  ``omega.shape + (3, 3)``.
+* Electromagnetic builders return the tensor χ_s(ω) and dχ_s/dω, shaped
+  ``omega.shape + (3, 3)`` (index order x, y, z).  χ_s has a pole at ω = 0; the
+  dispersion layer multiplies it out (see ``kinroots.dispersion``).
 """
 
 from __future__ import annotations
@@ -26,7 +26,7 @@ class Susceptibility:
     Attributes
     ----------
     value : ndarray
-        χ_s (electrostatic) or ω²χ_s (electromagnetic, [rad²/s²]).
+        χ_s: scalar (electrostatic) or 3×3 tensor (electromagnetic), dimensionless.
     derivative : ndarray
         d(value)/dω.
     harmonics : int
