@@ -1,10 +1,27 @@
-"""Command line: typer parses, rich displays; the library does the work."""
+"""Command line: typer parses, rich displays; the library does the work.
+
+Every command that reads a case goes through `load_case_or_exit`, which picks the
+embedded default case when no file is given, prints every validation error (one per line,
+on stderr) and exits with code 2 on bad input, and prints the case's warnings on stderr.
+Data go to stdout; messages to stderr.
+"""
 
 from __future__ import annotations
 
+import json
+from pathlib import Path
+from typing import Annotated, Any
+
 import typer
+from rich.console import Console
+from rich.table import Table
 
 from kinroots import __version__
+from kinroots.casefile import Case, CaseError, default_case_path, load_case
+from kinroots.plasma import PLASMA_QUANTITIES, SPECIES_QUANTITIES, derived_quantities
+
+#: Exit code for bad input (see DESIGN.md, "User-facing contract").
+EXIT_BAD_INPUT = 2
 
 app = typer.Typer(
     name="kinroots",
@@ -12,6 +29,64 @@ app = typer.Typer(
     no_args_is_help=True,
     add_completion=False,
 )
+
+CaseArg = Annotated[
+    Path | None,
+    typer.Argument(
+        help="Case file (TOML). Omit it to use the embedded default case.",
+        show_default=False,
+        dir_okay=True,
+        exists=False,
+    ),
+]
+DefaultOpt = Annotated[
+    bool,
+    typer.Option("--default", help="Use the embedded default case (instead of CASE)."),
+]
+
+
+def _err(message: str) -> None:
+    typer.echo(message, err=True)
+
+
+def load_case_or_exit(case: Path | None, use_default: bool = False) -> Case:
+    """Load ``case`` (or the embedded default), print its warnings; exit 2 on bad input.
+
+    Parameters
+    ----------
+    case : Path or None
+        Case file; ``None`` selects the embedded default case (said on stderr).
+    use_default : bool
+        ``--default`` given: must not be combined with a case file.
+    """
+    if use_default and case is not None:
+        _err(f"kinroots: give either a case file or --default, not both (got {case})")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    if case is None:
+        case = default_case_path()
+        _err(f"kinroots: no case file given; using the embedded default case ({case})")
+    try:
+        loaded = load_case(case)
+    except CaseError as exc:
+        for line in exc.errors:
+            _err(f"error: {line}")
+        n = len(exc.errors)
+        _err(f"kinroots: {n} problem{'s' if n != 1 else ''} in {case}; nothing done")
+        raise typer.Exit(EXIT_BAD_INPUT) from None
+    for line in loaded.warnings:
+        _err(f"warning: {case}: {line}")
+    return loaded
+
+
+def case_summary(case: Case) -> str:
+    """One line: title, species, model, B, angle and the k scan."""
+    ks = case.scan
+    n = len(case.plasma.species)
+    return (
+        f'"{case.title}": {n} species, {case.model}, B = {case.plasma.B:g} T, '
+        f"angle {case.angle_deg:g}°, k = {ks.start:g} to {ks.stop:g} "
+        f"/{case.units.length_label} ({ks.points} points, {ks.spacing})"
+    )
 
 
 @app.command()
@@ -21,3 +96,105 @@ def version() -> None:
     Example: kinroots version
     """
     typer.echo(__version__)
+
+
+@app.command()
+def check(case: CaseArg = None, default: DefaultOpt = False) -> None:
+    """Validate a case file; print "ok" and a one-line summary, or every problem found.
+
+    Exit code 0 when the case is usable (warnings go to stderr), 2 otherwise.
+
+    Example: kinroots check cases/argon_ion_acoustic.toml
+    """
+    loaded = load_case_or_exit(case, default)
+    typer.echo("ok")
+    typer.echo(case_summary(loaded))
+
+
+def _fmt(value: float | None) -> str:
+    return "—" if value is None else f"{value:.6g}"
+
+
+def _quantity_table(
+    title: str,
+    si: dict[str, float | None],
+    normalized: dict[str, float | None],
+    layout: dict[str, tuple[str, str, str]],
+    case: Case,
+) -> Table:
+    unit_of = {
+        "frequency": case.units.frequency_label,
+        "length": case.units.length_label,
+        "speed": case.units.speed_label,
+        "none": "",
+    }
+    table = Table(title=title, title_justify="left")
+    table.add_column("quantity")
+    table.add_column("SI", justify="right")
+    table.add_column("unit")
+    table.add_column("normalized", justify="right")
+    table.add_column("unit")
+    for key, (kind, symbol, si_unit) in layout.items():
+        value = si[key]
+        unit = si_unit
+        shown = _fmt(value)
+        if kind == "frequency" and value is not None:
+            shown += f" ({abs(value) / (2 * 3.141592653589793):.4g} Hz)"
+        table.add_row(symbol, shown, unit, _fmt(normalized[key]), unit_of[kind])
+    return table
+
+
+@app.command()
+def plasma(
+    case: CaseArg = None,
+    as_json: Annotated[
+        bool, typer.Option("--json", help="Print JSON with stable keys instead of tables.")
+    ] = False,
+    default: DefaultOpt = False,
+) -> None:
+    """Characteristic frequencies, lengths, speeds and betas of a case's plasma.
+
+    Quantities that need a magnetic field are shown as "—" (null in JSON) when B = 0.
+
+    Example: kinroots plasma cases/space_protons_alphas.toml --json
+    """
+    loaded = load_case_or_exit(case, default)
+    data = derived_quantities(loaded.plasma, loaded.units)
+    if as_json:
+        out: dict[str, Any] = {
+            "kinroots_version": __version__,
+            "title": loaded.title,
+            "source": None if loaded.source is None else str(loaded.source),
+            **data,
+        }
+        typer.echo(json.dumps(out, indent=2, ensure_ascii=False, allow_nan=False))
+        return
+    console = Console(highlight=False)
+    u = loaded.units
+    console.print(loaded.title, markup=False)
+    console.print(
+        f"B = {loaded.plasma.B:g} T; normalized units: frequency {u.frequency_label} = "
+        f"{u.omega_unit:.6g} rad/s, length {u.length_label} = {u.length_unit:.6g} m, "
+        f"speed {u.speed_label} = {u.speed_unit:.6g} m/s",
+        markup=False,
+    )
+    for entry in data["species"]:
+        title = (
+            f"species {entry['name']}: Z = {entry['charge_number']:g}, "
+            f"m = {entry['mass_kg']:.6g} kg, n = {entry['density_per_m3']:.6g} m^-3, "
+            f"T∥ = {entry['temperature_par_eV']:g} eV, T⊥ = {entry['temperature_perp_eV']:g} eV, "
+            f"drift = {entry['drift_m_per_s']:g} m/s"
+        )
+        console.print(
+            _quantity_table(
+                title.replace("[", "\\["),
+                entry["si"],
+                entry["normalized"],
+                SPECIES_QUANTITIES,
+                loaded,
+            )
+        )
+    p = data["plasma"]
+    console.print(
+        _quantity_table("whole plasma", p["si"], p["normalized"], PLASMA_QUANTITIES, loaded)
+    )
