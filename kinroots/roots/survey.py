@@ -1,0 +1,483 @@
+"""Every zero of an analytic function in a rectangle.
+
+Method
+------
+1. Argument principle on the rectangle, with adaptively refined, shared edge samples
+   (:mod:`kinroots.roots.contour`).  An edge that cannot be resolved (a zero or pole on
+   it or within about 1e-7 of the box diameter) is moved *outward* by
+   ``10^(k−4)`` × the box diameter on attempt k = 0, 1, 2, and the move is reported.
+2. Each *excluded* point inside the box gets a tiny circle of radius
+   ``exclusion_radius × diameter`` (shrunk to a tenth of the distance to the nearest
+   other excluded point); its winding number (−order for a pole, +multiplicity for a
+   known spurious zero) is subtracted from every count, its contribution ``c_e ζ_e^p``
+   from every moment, and no root is reported inside that disk.
+3. Recursive subdivision: a cell is split across its longer side (at the middle or,
+   if that line passes near an excluded point or cannot be resolved, at one of a few
+   off-centre positions) until it holds one zero, or at most ``cluster_size`` zeros.
+4. One zero: the first contour moment gives the starting point; Newton polishes it.
+   A cluster: Delves–Lyness moments and the Hankel eigenvalue problem of Kravanja & Van
+   Barel give the starting points, re-computed on a circle around the cluster when the
+   rectangle's moments are too crude; Newton polishes each; a small circle around each
+   root gives its multiplicity.  If the cell's count is not accounted for, it is split.
+
+References
+----------
+L. M. Delves and J. N. Lyness, Math. Comp. 21, 543 (1967).
+P. Kravanja and M. Van Barel, *Computing the Zeros of Analytic Functions*, Springer
+LNM 1727 (2000).
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+from collections.abc import Sequence
+from dataclasses import replace
+
+import numpy as np
+
+from kinroots.roots.contour import (
+    BoundarySampler,
+    Edge,
+    circle_contour,
+    contour_moments,
+    hankel_zeros,
+    rectangle_edges,
+)
+from kinroots.roots.newton import polish
+from kinroots.roots.result import (
+    AnalyticFunction,
+    Box,
+    CountedFunction,
+    RootResult,
+    Status,
+    SurveyResult,
+)
+
+__all__ = ["find_roots"]
+
+_N_INIT_OUTER = 8  # initial intervals per outer edge
+_N_INIT_LINE = 6  # initial intervals per subdivision line
+_SPLIT_FRACTIONS = (0.5, 0.42, 0.58, 0.34, 0.66, 0.27, 0.73)
+
+
+def _inside(z: complex, box: Box, margin: float = 0.0) -> bool:
+    x0, x1, y0, y1 = box
+    return (
+        x0 - margin <= z.real <= x1 + margin and y0 - margin <= z.imag <= y1 + margin
+    )
+
+
+def _diameter(box: Box) -> float:
+    return math.hypot(box[1] - box[0], box[3] - box[2])
+
+
+class _Survey:
+    def __init__(
+        self,
+        f: AnalyticFunction,
+        box: Box,
+        excluded: Sequence[complex],
+        *,
+        rtol: float,
+        atol: float,
+        max_depth: int,
+        max_evaluations: int,
+        cluster_size: int,
+        exclusion_radius: float,
+    ) -> None:
+        self.f_user = f
+        self.func = CountedFunction(f)
+        self.sampler = BoundarySampler(self.func, max_evaluations=max_evaluations)
+        self.box = box
+        self.diam0 = _diameter(box)
+        self.excluded = np.asarray(list(excluded), dtype=complex)
+        self.rtol, self.atol = rtol, atol
+        self.max_depth = max_depth
+        self.max_evaluations = max_evaluations
+        self.cluster_size = cluster_size
+        self.exclusion_radius = exclusion_radius
+        self.notes: list[str] = []
+        self.cells = 0
+        self._ex_winding: dict[int, int | None] = {}
+
+    # -- excluded points -----------------------------------------------------------
+    def _ex_radius(self, i: int) -> float:
+        r = self.exclusion_radius * self.diam0
+        others = np.delete(self.excluded, i)
+        if others.size:
+            r = min(r, 0.1 * float(np.min(np.abs(others - self.excluded[i]))))
+        return r
+
+    def _ex_in(self, box: Box) -> list[int]:
+        return [i for i, e in enumerate(self.excluded) if _inside(complex(e), box)]
+
+    def _ex_contribution(self, i: int) -> int | None:
+        if i not in self._ex_winding:
+            c = circle_contour(self.func, complex(self.excluded[i]), self._ex_radius(i))
+            self._ex_winding[i] = c.winding
+            if c.winding is None:
+                self.notes.append(
+                    f"could not resolve the winding around excluded point {self.excluded[i]!r}"
+                )
+        return self._ex_winding[i]
+
+    def _zero_count(self, box: Box, winding: int) -> int | None:
+        total = winding
+        for i in self._ex_in(box):
+            c = self._ex_contribution(i)
+            if c is None:
+                return None
+            total -= c
+        return total
+
+    def _in_exclusion_disk(self, z: complex) -> bool:
+        return any(abs(z - complex(e)) <= self._ex_radius(i) for i, e in enumerate(self.excluded))
+
+    # -- contours ------------------------------------------------------------------
+    def _cell_winding(self, box: Box) -> int | None:
+        self.cells += 1
+        w = self.sampler.winding(box)
+        if abs(w - round(w)) > 0.1:
+            self.notes.append(f"phase sum {w:.3f}·2π around {box} is not an integer")
+            return None
+        return round(w)
+
+    def _outer(self) -> int | None:
+        box = self.box
+        for attempt in range(4):
+            edges = rectangle_edges(box)
+            status = self.sampler.resolve(edges, n_init=_N_INIT_OUTER, min_len=1e-7 * self.diam0)
+            bad = [i for i, s in enumerate(status) if not s.resolved]
+            if not bad:
+                self.box = box
+                return self._cell_winding(box)
+            if self.sampler.budget_exhausted:
+                self.notes.append("evaluation budget exhausted on the outer boundary")
+                return None
+            if attempt == 3:
+                break
+            delta = 10.0 ** (attempt - 4) * self.diam0
+            x0, x1, y0, y1 = box
+            names = ("bottom", "right", "top", "left")
+            for i in bad:
+                where = ", ".join(f"{z:.6g}" for z in status[i].trouble[:3])
+                self.notes.append(
+                    f"{names[i]} edge unresolved near {where} (zero or pole on or next to "
+                    f"it): moved outward by {delta:.3g}"
+                )
+                if i == 0:
+                    y0 -= delta
+                elif i == 1:
+                    x1 += delta
+                elif i == 2:
+                    y1 += delta
+                else:
+                    x0 -= delta
+            box = (x0, x1, y0, y1)
+        self.box = box
+        self.notes.append("outer boundary could not be resolved after three outward shifts")
+        return None
+
+    def _split(self, box: Box) -> list[tuple[Box, int]] | None:
+        x0, x1, y0, y1 = box
+        vertical = (x1 - x0) >= (y1 - y0)  # split line Re z = const across the width
+        lo, hi = (x0, x1) if vertical else (y0, y1)
+        side = hi - lo
+        ex = [complex(self.excluded[i]) for i in self._ex_in(box)]
+        ex_pos = [e.real if vertical else e.imag for e in ex]
+
+        def clearance(frac: float) -> float:
+            c = lo + frac * side
+            return min((abs(c - p) for p in ex_pos), default=math.inf) / side
+
+        fracs = sorted(_SPLIT_FRACTIONS, key=lambda fr: clearance(fr) < 0.05)
+        for frac in fracs:
+            c = lo + frac * side
+            if vertical:
+                line = Edge(("v", c), y0, y1)
+                kids = [(x0, c, y0, y1), (c, x1, y0, y1)]
+            else:
+                line = Edge(("h", c), x0, x1)
+                kids = [(x0, x1, y0, c), (x0, x1, c, y1)]
+            length = (y1 - y0) if vertical else (x1 - x0)
+            (st,) = self.sampler.resolve(
+                [line], n_init=_N_INIT_LINE, min_len=max(1e-4 * length, 1e-7 * self.diam0)
+            )
+            if not st.resolved:
+                if self.sampler.budget_exhausted:
+                    return None
+                continue
+            edges = [e for k in kids for e in rectangle_edges(k)]
+            sts = self.sampler.resolve(edges, n_init=1, min_len=1e-7 * self.diam0)
+            if not all(s.resolved for s in sts):
+                continue
+            out = []
+            for k in kids:
+                w = self._cell_winding(k)
+                if w is None:
+                    break
+                out.append((k, w))
+            else:
+                return out
+        return None
+
+    # -- solving cells -------------------------------------------------------------
+    def _tol(self, z: complex) -> float:
+        return self.atol + self.rtol * abs(z)
+
+    def _moments(self, box: Box, nmom: int) -> tuple[complex, float, np.ndarray]:
+        z, fv, dv = self.sampler.loop(box)
+        center = complex(0.5 * (box[0] + box[1]), 0.5 * (box[2] + box[3]))
+        rho = 0.5 * _diameter(box)
+        s = contour_moments(z, fv, dv, center, rho, nmom)
+        return center, rho, self._remove_excluded(s, box, center, rho)
+
+    def _remove_excluded(self, s: np.ndarray, box: Box, center: complex, rho: float,
+                         circle: tuple[complex, float] | None = None) -> np.ndarray:
+        p = np.arange(s.size)
+        for i, e in enumerate(self.excluded):
+            e = complex(e)
+            inside = _inside(e, box) if circle is None else abs(e - circle[0]) < circle[1]
+            if inside:
+                c = self._ex_contribution(i) or 0
+                s = s - c * ((e - center) / rho) ** p
+        return s
+
+    def _polish(self, z0: complex, box: Box, multiplicity: int = 1) -> RootResult:
+        w, h = box[1] - box[0], box[3] - box[2]
+        region = (box[0] - 0.25 * w, box[1] + 0.25 * w, box[2] - 0.25 * h, box[3] + 0.25 * h)
+        return polish(self.func, z0, rtol=self.rtol, atol=self.atol, maxiter=40,
+                      multiplicity=multiplicity, region=region, method="survey")
+
+    def _acceptable(self, r: RootResult, box: Box) -> bool:
+        return (
+            r.converged
+            and _inside(r.value, box, margin=self._tol(r.value))
+            and not self._in_exclusion_disk(r.value)
+        )
+
+    def _single(self, box: Box) -> RootResult | None:
+        center, rho, s = self._moments(box, 2)
+        z0 = center + rho * s[1]
+        if not (np.isfinite(z0) and _inside(z0, box)):
+            z0 = complex(min(max(z0.real, box[0]), box[1]), min(max(z0.imag, box[2]), box[3]))
+            if not np.isfinite(z0):
+                z0 = center
+        r = self._polish(z0, box)
+        if self._acceptable(r, box):
+            # the cell's own boundary winds once around it: that is the verification
+            return replace(r, verified=True, multiplicity=1, method="moments+newton")
+        return None
+
+    def _from_estimates(self, estimates: np.ndarray, box: Box, n: int) -> list[RootResult] | None:
+        found: list[RootResult] = []
+        for z0 in estimates:
+            r = self._polish(complex(z0), box)
+            if not self._acceptable(r, box):
+                continue
+            if any(abs(r.value - q.value) <= 1e3 * self._tol(r.value) + 1e-12 * self.diam0
+                   for q in found):
+                continue
+            found.append(r)
+        if not found:
+            return None
+        out = []
+        diam = _diameter(box)
+        for r in found:
+            others = [abs(r.value - q.value) for q in found if q is not r]
+            others += [abs(r.value - complex(e)) for e in self.excluded]
+            rad = max(1e-6 * diam, 1e4 * self._tol(r.value))
+            if others:
+                rad = min(rad, 0.3 * min(others))
+            c = circle_contour(self.func, r.value, rad)
+            m = c.winding
+            if m is None or m < 1:
+                return None
+            if m != r.multiplicity:
+                r2 = self._polish(r.value, box, multiplicity=m)
+                if not self._acceptable(r2, box):
+                    return None
+                r = replace(r2, evaluations=r.evaluations + r2.evaluations)
+            out.append(replace(r, multiplicity=m, verified=True, method="moments+newton",
+                               evaluations=r.evaluations + c.z.size))
+        if sum(r.multiplicity for r in out) != n:
+            return None
+        return out
+
+    def _cluster(self, box: Box, n: int) -> list[RootResult] | None:
+        center, rho, s = self._moments(box, 2 * n)
+        zeta = hankel_zeros(s, n)
+        est = center + rho * zeta
+        got = self._from_estimates(est, box, n)
+        if got is not None:
+            return got
+        # second try: moments on a circle around the cluster's centroid, whose radius
+        # is adjusted until the circle winds exactly n times (well conditioned even for
+        # a tight cluster; roots must still come out inside the cell to be accepted)
+        mid = center + rho * s[1] / n
+        if not np.isfinite(mid):
+            return None
+        near = [abs(z - mid) for z in est if _inside(complex(z), box)]
+        radius = min(max(2.0 * max(near, default=0.0), 1e-3 * rho), rho)
+        for _ in range(8):
+            c = circle_contour(self.func, mid, radius, n0=16, n_max=512)
+            expected = n + sum((self._ex_contribution(i) or 0)
+                               for i, e in enumerate(self.excluded)
+                               if abs(complex(e) - mid) < radius)
+            if c.winding is None:
+                radius *= 1.7
+            elif c.winding < expected:
+                radius *= 4.0
+            elif c.winding > expected:
+                radius /= 4.0
+            else:
+                sc = self._remove_excluded(c.moments(2 * n), box, mid, radius,
+                                           circle=(mid, radius))
+                est2 = mid + radius * hankel_zeros(sc, n)
+                got = self._from_estimates(est2, box, n)
+                if got is not None:
+                    return got
+                # too coarse for the cluster: shrink around the estimates
+                near = [abs(z - mid) for z in est2 if abs(z - mid) < radius]
+                radius = min(2.0 * max(near, default=0.0), 0.25 * radius)
+                if radius < 1e-9 * rho:
+                    return None
+            if radius > 2.0 * rho:
+                return None
+        return None
+
+    # -- driver --------------------------------------------------------------------
+    def run(self) -> SurveyResult:
+        w = self._outer()
+        if w is None:
+            return self._result([], None)
+        count = self._zero_count(self.box, w)
+        if count is None:
+            return self._result([], None)
+        if count < 0:
+            self.notes.append(
+                f"negative zero count {count}: f has poles in the box not listed in excluded"
+            )
+        roots: list[RootResult] = []
+        queue: deque[tuple[Box, int, int]] = deque([(self.box, w, 0)])
+        while queue:
+            box, wc, depth = queue.popleft()
+            n = self._zero_count(box, wc)
+            if n is None or n == 0:
+                continue
+            if n < 0:
+                self.notes.append(f"negative count {n} in cell {box}: unlisted poles")
+                continue
+            if self.func.evaluations > self.max_evaluations:
+                self.notes.append(f"evaluation budget exhausted; cell {box} with {n} zero(s) "
+                                  "left unsolved")
+                roots.append(self._unsolved(box, n, "evaluation budget exhausted"))
+                continue
+            if n == 1:
+                r = self._single(box)
+                if r is not None:
+                    roots.append(r)
+                    continue
+            elif n <= self.cluster_size:
+                got = self._cluster(box, n)
+                if got is not None:
+                    roots.extend(got)
+                    continue
+            if depth >= self.max_depth:
+                self.notes.append(f"maximum depth reached in cell {box} with {n} zero(s)")
+                roots.append(self._unsolved(box, n, "maximum subdivision depth reached"))
+                continue
+            kids = self._split(box)
+            if kids is None:
+                self.notes.append(f"cell {box} with {n} zero(s) could not be subdivided")
+                roots.append(self._unsolved(box, n, "cell could not be subdivided"))
+                continue
+            if sum(k[1] for k in kids) != wc:
+                self.notes.append(f"windings of the halves of {box} do not add up")
+            queue.extend((k, wk, depth + 1) for k, wk in kids)
+        return self._result(roots, count)
+
+    def _unsolved(self, box: Box, n: int, why: str) -> RootResult:
+        center = complex(0.5 * (box[0] + box[1]), 0.5 * (box[2] + box[3]))
+        return RootResult(value=center, converged=False, status=Status.NOT_ATTEMPTED,
+                          reason=f"{n} zero(s) in cell {box} not isolated: {why}",
+                          multiplicity=n, method="survey")
+
+    def _result(self, roots: list[RootResult], count: int | None) -> SurveyResult:
+        good = sorted((r for r in roots if r.converged),
+                      key=lambda r: (round(r.value.real, 12), r.value.imag))
+        bad = [r for r in roots if not r.converged]
+        found = sum(r.multiplicity for r in good)
+        return SurveyResult(
+            roots=good + bad,
+            count=count,
+            evaluations=self.func.evaluations,
+            cells=self.cells,
+            box=self.box,
+            notes=self.notes,
+            complete=count is not None and found == count and not bad,
+        )
+
+
+def find_roots(
+    f: AnalyticFunction,
+    box: Box,
+    /,
+    *,
+    excluded: Sequence[complex] = (),
+    rtol: float = 1e-12,
+    atol: float = 0.0,
+    max_depth: int = 50,
+    max_evaluations: int = 50_000,
+    cluster_size: int = 4,
+    exclusion_radius: float = 1e-8,
+) -> SurveyResult:
+    """All zeros of an analytic function in a rectangle of the complex plane.
+
+    Parameters
+    ----------
+    f : callable
+        ``f(z) -> (f(z), f'(z))`` for a 1-D complex array ``z`` (one call evaluates
+        many points).  f must be analytic in the box except at ``excluded`` points.
+    box : tuple of float
+        ``(re_min, re_max, im_min, im_max)``.
+    excluded : sequence of complex
+        Known poles of f, or zeros brought in by a scaling of f, that are not wanted:
+        their winding (measured on a circle of radius ``exclusion_radius`` × box
+        diameter) is subtracted from the counts and no root is reported within it.
+    rtol, atol : float
+        Newton stopping test ``|Δz| ≤ atol + rtol·|z|``.
+    max_depth : int
+        Largest number of successive subdivisions of a cell.
+    max_evaluations : int
+        Budget of evaluated points (checked between cells and during refinement).
+    cluster_size : int
+        Cells with at most this many zeros are solved by the moment method first.
+    exclusion_radius : float
+        Radius of the disks around excluded points, relative to the box diameter.
+
+    Returns
+    -------
+    SurveyResult
+        ``count`` from the argument principle; ``complete`` when the converged roots'
+        multiplicities add up to it.  See the module docstring for the method.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> res = find_roots(lambda z: (np.sin(z), np.cos(z)), (-4.0, 4.0, -1.0, 1.0))
+    >>> res.count, res.complete
+    (3, True)
+    """
+    x0, x1, y0, y1 = (float(v) for v in box)
+    if not (x0 < x1 and y0 < y1):
+        raise ValueError(f"box must satisfy re_min < re_max and im_min < im_max, got {box}")
+    if cluster_size < 1:
+        raise ValueError("cluster_size must be at least 1")
+    survey = _Survey(
+        f, (x0, x1, y0, y1), excluded, rtol=rtol, atol=atol, max_depth=max_depth,
+        max_evaluations=max_evaluations, cluster_size=cluster_size,
+        exclusion_radius=exclusion_radius,
+    )
+    return survey.run()

@@ -1,0 +1,129 @@
+"""Survey of all zeros in a rectangle (kinroots.roots.find_roots).
+
+Reference zeros: by construction (factored polynomials), closed forms (kπ, (k+½)π),
+scipy.special.jn_zeros (Bessel), with numpy.roots and mpmath.polyroots as independent
+cross-checks of the polynomial cases.
+"""
+
+from __future__ import annotations
+
+import mpmath
+import numpy as np
+import pytest
+from _problems import PROBLEMS, Problem, product_of_linear
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from kinroots.roots import Status, find_roots, verify
+
+
+def _match(found: np.ndarray, expected: np.ndarray) -> np.ndarray:
+    """Distance from each expected zero to the nearest found one."""
+    return np.array([np.min(np.abs(found - z)) for z in expected])
+
+
+@pytest.mark.parametrize("pid", sorted(PROBLEMS))
+def test_every_known_zero_found_once(pid: str) -> None:
+    p: Problem = PROBLEMS[pid]
+    res = find_roots(p.f, p.box, excluded=p.excluded)
+    assert res.count == p.count, res.notes
+    assert res.complete, res.notes
+    vals = res.values
+    exp = np.array(p.zeros, dtype=complex)
+    assert vals.size == exp.size  # none extra, none missing (distinct zeros)
+    # source: p.source (by construction / closed form / scipy.special.jn_zeros)
+    tol = 1e-12 * np.maximum(1.0, np.abs(exp))
+    assert np.all(_match(vals, exp) <= tol)
+    for r in res.roots:
+        k = int(np.argmin(np.abs(exp - r.value)))
+        assert r.multiplicity == p.multiplicities[k]
+        assert r.verified and r.status is Status.CONVERGED
+    # excluded points are never reported as roots
+    for e in p.excluded:
+        assert np.all(np.abs(vals - e) > 1e-6)
+    assert 0 < res.evaluations < 1500
+
+
+def test_cluster_cross_checked_with_mpmath_polyroots() -> None:
+    p = PROBLEMS["poly-cluster"]
+    res = find_roots(p.f, p.box)
+    with mpmath.workdps(60):
+        # expand Π(z − r_k) in 60-digit arithmetic, then mpmath.polyroots (independent
+        # Durand–Kerner iteration) on those coefficients, ascending order
+        coeffs = [mpmath.mpc(1)]
+        for r in p.zeros:
+            r = mpmath.mpc(complex(r))
+            coeffs = [-r * coeffs[0]] + [coeffs[i - 1] - r * coeffs[i]
+                                         for i in range(1, len(coeffs))] + [coeffs[-1]]
+        ref = np.array([complex(z) for z in mpmath.polyroots(
+            coeffs, maxsteps=400, extraprec=400, asc=True)])
+    assert np.all(_match(res.values, ref) <= 1e-12)
+
+
+def test_polynomial_cross_checked_with_numpy_roots() -> None:
+    p = PROBLEMS["poly-simple"]
+    res = find_roots(p.f, p.box)
+    ref = np.roots(np.poly(np.array(p.zeros)))  # numpy.roots (companion matrix)
+    assert np.all(_match(res.values, ref) < 1e-10)
+
+
+def test_double_root_multiplicity_and_verify() -> None:
+    # (z − 1)²(z + 2): root 1 double, −2 simple (by construction)
+    f = product_of_linear([1, 1, -2])
+    res = find_roots(f, (-3.0, 3.0, -1.0, 1.2))
+    by_value = {round(r.value.real, 6): r for r in res.roots}
+    assert by_value[1.0].multiplicity == 2 and by_value[1.0].verified
+    assert abs(by_value[1.0].value - 1) < 1e-12
+    assert by_value[-2.0].multiplicity == 1
+    assert verify(f, 1.0, radius=0.1) == 2
+    assert verify(f, 0.0, radius=0.5) == 0
+
+
+def test_zero_on_edge_found_after_reported_shift() -> None:
+    # zeros 0.5j (on the top edge), 1 (on the right edge), −0.3: by construction
+    f = product_of_linear([1.0, 0.5j, -0.3])
+    res = find_roots(f, (-1.0, 1.0, -1.0, 0.5))
+    assert res.count == 3 and res.complete
+    assert any("moved outward" in n for n in res.notes)
+    assert res.box[1] > 1.0 and res.box[3] > 0.5
+    assert np.all(_match(res.values, np.array([1.0, 0.5j, -0.3])) < 1e-12)
+
+
+def test_excluded_double_zero_counts_and_is_not_reported() -> None:
+    p = PROBLEMS["scaled-double-zero"]
+    without = find_roots(p.f, p.box)
+    assert without.count == 4  # z² contributes 2 when not excluded (by construction)
+    res = find_roots(p.f, p.box, excluded=(0.0,))
+    assert res.count == 2 and res.complete
+    assert np.all(np.abs(res.values) > 1e-3)
+
+
+def test_budget_exhaustion_is_reported_not_hidden() -> None:
+    p = PROBLEMS["sin"]
+    res = find_roots(p.f, p.box, max_evaluations=60)
+    assert not res.complete
+    assert res.notes
+    assert all(r.converged or r.reason for r in res.roots)
+
+
+def test_bad_box_raises() -> None:
+    with pytest.raises(ValueError):
+        find_roots(PROBLEMS["sin"].f, (1.0, 0.0, 0.0, 1.0))
+
+
+_coord = st.floats(min_value=-1.9, max_value=1.9, allow_nan=False)
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.filter_too_much])
+@given(st.lists(st.tuples(_coord, _coord), min_size=1, max_size=6))
+def test_random_polynomials(pairs: list[tuple[float, float]]) -> None:
+    # roots by construction, kept ≥ 1e-3 from each other (box edges are at ±2, ≥ 0.1 away)
+    roots = np.array([complex(a, b) for a, b in pairs])
+    d = np.abs(roots[:, None] - roots[None, :]) + np.eye(roots.size)
+    if np.any(d < 1e-3):
+        return
+    res = find_roots(product_of_linear(roots), (-2.0, 2.0, -2.0, 2.0))
+    assert res.count == roots.size
+    assert res.complete, res.notes
+    assert res.values.size == roots.size
+    assert np.all(_match(res.values, roots) <= 1e-10)
