@@ -1,0 +1,145 @@
+r"""Electrostatic susceptibility of a magnetized drifting bi-Maxwellian species.
+
+Frame: B along z, k = (k_perp, 0, k_par), perturbations ∝ exp(i k·x − i ω t).
+SI throughout (ω in rad/s, k in 1/m, B in T, temperatures of
+:class:`~kinroots.plasma.Species` in eV). Ω_s = q_s B/m_s is signed.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from kinroots.models._harmonics import bessel_weights, landau_sign
+from kinroots.models.base import Susceptibility
+from kinroots.plasma import Species
+from kinroots.zfunc import plasma_z_and_prime
+
+__all__ = ["susceptibility"]
+
+
+def _nan_result(shape: tuple[int, ...], harmonics: int) -> Susceptibility:
+    nan = np.full(shape, np.nan + 0j)
+    return Susceptibility(value=nan, derivative=nan.copy(), harmonics=harmonics)
+
+
+def susceptibility(
+    omega: np.ndarray,
+    species: Species,
+    /,
+    *,
+    k_par: complex,
+    k_perp: complex,
+    B: float,
+    tol: float = 1e-14,
+) -> Susceptibility:
+    r"""Electrostatic susceptibility χ_s(ω, k) of a magnetized drifting bi-Maxwellian.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        Angular frequency ω [rad/s], any shape.
+    species : Species
+        Drifting bi-Maxwellian (drift V along B, T∥, T⊥ > 0 in eV).
+    k_par, k_perp : complex
+        Scalar wave-vector components along and across B [1/m]; may be complex.
+    B : float
+        Magnetic field [T], non-zero; its sign enters through the signed Ω = qB/m.
+    tol : float
+        Relative truncation tolerance of the cyclotron-harmonic sum (see
+        :func:`kinroots.models._harmonics.bessel_weights` for the rule).
+
+    Returns
+    -------
+    Susceptibility
+        ``value`` = χ_s, ``derivative`` = dχ_s/dω (shape of ``omega``), ``harmonics`` = N.
+
+    Raises
+    ------
+    ValueError
+        If ``B == 0`` (use the unmagnetized model).
+
+    Notes
+    -----
+    With w∥,⊥ = sqrt(2T∥,⊥/m), λ = k⊥²w⊥²/(2Ω²), Γ_n = e^{−λ}I_n(λ),
+    ζ_n = (ω − k∥V − nΩ)/(k∥w∥) and k² = k⊥² + k∥² (not |k|²: analytic in k)::
+
+        χ_s = 2ω_p²/(k²w∥²) Σ_n Γ_n [1 + ζ_n Z(ζ_n) + (T∥/T⊥)(nΩ/(k∥w∥)) Z(ζ_n)]
+            = 2ω_p²/(k²w∥²) [1 + Σ_n Γ_n (ω − k∥V − nΩ(1 − T∥/T⊥))/(k∥w∥) Z(ζ_n)],
+
+    derived from χ = (ω_p²/k²) Σ_n ∫d³v J_n²(k⊥v⊥/Ω)[(nΩ/v⊥)∂f/∂v⊥ + k∥∂f/∂v∥]
+    /(ω − k∥v∥ − nΩ) (Stix 1992, eq. 11-? for the electrostatic limit, from memory;
+    Gary 1993, eq. 2.? for the drifting bi-Maxwellian, from memory). The first form is
+    the one coded (1 + ζZ = −Z'/2 comes accurate from :mod:`kinroots.zfunc`);
+    dχ/dω uses d(1 + ζZ)/dζ = Z + ζZ' and dZ/dζ = Z'.
+
+    For Re k∥ < 0, Z is replaced by ``s Z(s ζ)`` with s = −1 (Landau continuation for
+    either sign of k∥; see :func:`kinroots.models._harmonics.landau_sign`).
+
+    Exact k∥ = 0 (perpendicular, Bernstein) uses the ζ → ∞ limit taken analytically,
+    ``(nΩ/(k∥w∥)) Z(ζ_n) → −nΩ/(ω − nΩ)`` and ``1 + ζZ → 0``::
+
+        χ_s = −(ω_p²/Ω) Σ_n g_n/(ω − nΩ),   g_n = nΓ_n/λ,
+            = −(ω_p²/λ) Σ_{n≥1} 2n²Γ_n/(ω² − n²Ω²)   (Bernstein),
+
+    rational in ω with poles at ω = nΩ; it depends on T⊥ only. At k = 0 exactly this is
+    the perpendicular k → 0 limit −ω_p²/(ω² − Ω²).
+
+    Non-finite ω, k or B and non-positive temperatures give NaN; overflow gives inf/NaN.
+    The relative accuracy of dχ/dω degrades like ε|ζ_n|² for |ζ_n| ≫ 1 (cancellation
+    in Z + ζZ').
+
+    References
+    ----------
+    T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 11 (electrostatic limit, Bernstein
+    waves), from memory.
+    S. P. Gary, *Theory of Space Plasma Microinstabilities* (Cambridge, 1993), ch. 2, 7
+    (drifting bi-Maxwellian), from memory.
+    I. B. Bernstein, Phys. Rev. 109, 10 (1958).
+    """
+    om = np.asarray(omega, dtype=complex)
+    if B == 0:
+        raise ValueError("es_magnetized needs B != 0; use the unmagnetized model for B = 0")
+    kpar = complex(k_par)
+    kperp = complex(k_perp)
+    wpar = species.thermal_speed_par if species.temperature_par > 0 else np.nan
+    wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
+    with np.errstate(all="ignore"):
+        omega_c = species.cyclotron_frequency(B)
+        lam = kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
+    finite_in = all(np.isfinite(x) for x in (kpar, kperp, B, wpar, wperp, omega_c))
+    if not finite_in:
+        return _nan_result(om.shape, 0)
+    w = bessel_weights(lam, tol)
+    if not w.converged:
+        return _nan_result(om.shape, w.harmonics)
+    wp2 = species.plasma_frequency**2
+    n_om = w.n * omega_c
+    with np.errstate(all="ignore"):
+        if kpar == 0:
+            r = 1.0 / (om[..., None] - n_om)
+            value = -(wp2 / omega_c) * (r @ w.g)
+            derivative = (wp2 / omega_c) * ((r * r) @ w.g)
+        else:
+            s = landau_sign(kpar)
+            a = kpar * wpar
+            zt = (om[..., None] - kpar * species.drift - n_om) / (s * a)
+            zf, zp = plasma_z_and_prime(zt)
+            # effective functions: Z_eff = sZ(sζ), F = 1 + ζ Z_eff = −Z'(sζ)/2
+            zf = s * zf
+            f = -0.5 * zp
+            q = zf + (s * zt) * zp  # dF/dζ = Z + ζZ'
+            ratio = species.temperature_par / species.temperature_perp
+            c = 2.0 * wp2 / ((kperp * kperp + kpar * kpar) * wpar * wpar)
+            term = f + (ratio / a) * (n_om * zf)
+            dterm = q / a + (ratio / (a * a)) * (n_om * zp)
+            value = c * (term @ w.gamma)
+            derivative = c * (dterm @ w.gamma)
+        bad = ~np.isfinite(om)
+        if bad.any():
+            value = np.where(bad, np.nan + 0j, value)
+            derivative = np.where(bad, np.nan + 0j, derivative)
+    return Susceptibility(
+        value=np.asarray(value, dtype=complex),
+        derivative=np.asarray(derivative, dtype=complex),
+        harmonics=w.harmonics,
+    )
