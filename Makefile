@@ -21,7 +21,7 @@ $(VENV)/.installed-test: pyproject.toml | $(PY)
 	@touch $@ $(VENV)/.installed
 
 run: $(VENV)/.installed
-	$(VENV)/bin/kinroots plasma --default
+	$(VENV)/bin/kinroots solve --default -o $(OUT)
 
 # pytest exits 5 when it collects no test: that must not pass as green.
 test: $(VENV)/.installed-test

@@ -198,3 +198,157 @@ def plasma(
     console.print(
         _quantity_table("whole plasma", p["si"], p["normalized"], PLASMA_QUANTITIES, loaded)
     )
+
+
+# ----------------------------------------------------------------- solve and roots
+
+OutOpt = Annotated[
+    Path,
+    typer.Option("--output", "-o", help="Folder for the tables and the figure (created).",
+                 file_okay=False),
+]
+
+
+def _check_output_dir(out: Path) -> None:
+    """Refuse an output path that exists and is not a folder (before any work)."""
+    if out.exists() and not out.is_dir():
+        _err(f"error: output {out}: exists and is not a folder; expected a folder path")
+        raise typer.Exit(EXIT_BAD_INPUT)
+
+
+def _describe_root(row: dict[str, Any] | None, case: Case) -> str:
+    if row is None:
+        return "none"
+    lbl = case.units.frequency_label
+    return (
+        f"branch {row['branch']} at k = {row['k']:.4g}: ω = {row['omega_real']:.6g} "
+        f"{'+' if row['omega_imag'] >= 0 else '−'} {abs(row['omega_imag']):.4g}i {lbl} "
+        f"(f = {row['freq_hz']:.4g} Hz, γ = {row['gamma_per_s']:.4g} 1/s)"
+    )
+
+
+@app.command()
+def solve(
+    case: CaseArg = None,
+    output: OutOpt = Path("kinroots-out"),
+    default: DefaultOpt = False,
+) -> None:
+    """Find every root in the search window at the first k and trace each branch across
+    the scan; write branches.csv, summary.json and branches.png to the output folder.
+
+    Exit code 0 when every point converged, 1 when some points failed (they are flagged
+    in the table: converged = false, value cells empty), 2 on bad input.
+
+    Example: kinroots solve cases/hydrogen_cold_ions.toml -o out/hydrogen
+    """
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    from kinroots import scan
+    from kinroots.plot import BranchCurve, plot_branches
+    from kinroots.tables import write_csv, write_json
+
+    loaded = load_case_or_exit(case, default)
+    _check_output_dir(output)
+    console = Console(stderr=True)
+    with Progress(
+        TextColumn("[bold]tracing[/bold] {task.description}"), BarColumn(),
+        TextColumn("{task.completed}/{task.total} k"), TimeElapsedColumn(),
+        console=console, transient=True,
+    ) as bar:
+        task = bar.add_task(loaded.title, total=len(loaded.k_values))
+        sol = scan.solve(loaded, progress=lambda done, total: bar.update(task, completed=done))
+    rows = scan.branch_rows(sol)
+    summary = scan.solution_summary(sol, rows)
+    write_csv(output / "branches.csv", rows)
+    write_json(output / "summary.json", summary)
+    curves = []
+    for b in sol.branches:
+        pts = b.sorted_points()
+        curves.append(BranchCurve(
+            label=f"branch {b.id}",
+            k=[k for k, _ in pts],
+            omega=[r.value if r.converged else complex("nan") for _, r in pts],
+        ))
+    units = loaded.units
+    plot_branches(output / "branches.png", curves, k_label=units.length_label,
+                  omega_label=units.frequency_label, title=loaded.title)
+    console.print(f"{len(sol.branches)} branch(es) traced over {len(loaded.k_values)} k "
+                  f"points; {sol.evaluations} dispersion evaluations")
+    console.print(f"fastest growing: {_describe_root(summary['fastest_growing'], loaded)}")
+    console.print(f"least damped:    {_describe_root(summary['least_damped'], loaded)}")
+    for note in sol.notes:
+        console.print(f"note: {note}")
+    console.print(f"wrote {output / 'branches.csv'}, {output / 'summary.json'}, "
+                  f"{output / 'branches.png'}")
+    if sol.failed_points:
+        console.print(f"[red]{sol.failed_points} point(s) failed[/red]: flagged in the table "
+                      "(converged = false) and in summary.json")
+        raise typer.Exit(1)
+
+
+@app.command()
+def roots(
+    case: CaseArg = None,
+    at: Annotated[float, typer.Option("--at", help="Normalized wavenumber k (units of the "
+                                      "case's [units] length).")] = float("nan"),
+    output: OutOpt = Path("kinroots-out"),
+    default: DefaultOpt = False,
+) -> None:
+    """Every root in the search window at one wavenumber; write roots.csv, summary.json
+    and map.png (log|D| over the window, roots marked).
+
+    Exit code 0 when the survey is complete, 1 when some root could not be isolated or
+    polished (flagged in the table), 2 on bad input.
+
+    Example: kinroots roots cases/argon_ion_acoustic.toml --at 0.5 -o out/argon
+    """
+    import math
+
+    from kinroots import scan
+    from kinroots.plot import plot_root_map
+    from kinroots.tables import write_csv, write_json
+
+    loaded = load_case_or_exit(case, default)
+    if math.isnan(at):
+        at = float(loaded.k_values[0])
+        _err(f"kinroots: no --at given; using the first scan point k = {at:g}")
+    if not (math.isfinite(at) and at > 0):
+        _err(f"error: option --at: {at!r}: expected a finite wavenumber > 0")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    _check_output_dir(output)
+    console = Console(stderr=True)
+    with console.status(f"surveying the window at k = {at:g}"):
+        s = scan.survey(loaded, at)
+    rows = [scan.root_row(loaded, i, at, r) for i, r in enumerate(s.roots)]
+    if not s.complete:
+        rows.append({"branch": "", "k": at, "converged": False, "verified": False,
+                     "k_per_m": float(loaded.units.k_to_si(at)), "status": "incomplete",
+                     "reason": f"counted {s.count} zeros, found {len(s.values)}: "
+                               + "; ".join(s.notes)})
+    f = scan.function_at(loaded, at)
+    summary = scan.metadata(loaded, rows=rows, extra={
+        "model": loaded.model,
+        "k": at,
+        "dispersion_scaling": f.dispersion.scaling,
+        "window": list(scan.window(loaded)),
+        "window_used": list(s.box),
+        "count": s.count,
+        "complete": s.complete,
+        "evaluations": s.evaluations,
+        "notes": list(s.notes),
+        "harmonics": f.dispersion.harmonics,
+    })
+    write_csv(output / "roots.csv", rows)
+    write_json(output / "summary.json", summary)
+    plot_root_map(output / "map.png", f.value, scan.window(loaded), list(s.values),
+                  omega_label=loaded.units.frequency_label,
+                  title=f"{loaded.title}: k = {at:g} /{loaded.units.length_label}")
+    for r in rows:
+        if r.get("converged"):
+            console.print(_describe_root(r, loaded))
+    console.print(f"{len(s.values)} root(s) in the window (argument principle: {s.count}); "
+                  f"{s.evaluations} evaluations; wrote {output / 'roots.csv'}, "
+                  f"{output / 'summary.json'}, {output / 'map.png'}")
+    if not s.complete:
+        console.print("[red]survey incomplete[/red]: " + "; ".join(s.notes))
+        raise typer.Exit(1)

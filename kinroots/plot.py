@@ -76,7 +76,7 @@ def plot_branches(
     ax_i.axhline(0.0, color="0.5", lw=0.8, ls="--")
     ax_r.set_ylabel(f"ω_r / {omega_label}")
     ax_i.set_ylabel(f"γ / {omega_label}")
-    ax_i.set_xlabel(f"k / ({k_label})")
+    ax_i.set_xlabel(f"k · {k_label}")
     if title:
         ax_r.set_title(title)
     if curves:

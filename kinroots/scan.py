@@ -1,0 +1,473 @@
+"""Bind a case to the root layer: survey the window, trace every branch across k.
+
+Everything here works in the case's normalized units: ω̂ = ω / ω_u and k̂ = k L_u
+(see :class:`kinroots.plasma.Normalization`).  The dispersion function handed to the
+root layer is ``f(ω̂) = D(ω̂ ω_u)`` with ``f'(ω̂) = ω_u D'(ω̂ ω_u)``; D is the scaled,
+entire dispersion function of :class:`kinroots.dispersion.Dispersion`.
+
+Re-survey rule (documented in DEVELOPERS.md and in every summary.json): the window is
+surveyed at the first scan point, then again every ``solver.resurvey_every`` scan points
+and at the last point.  A surveyed root that no traced branch accounts for (farther than
+``match_tol`` from every active branch) starts a new branch; that branch is traced
+*backwards* from the survey point to the previous survey point (or until it leaves the
+window), so a root that entered the window between surveys is tabulated from where it
+entered.  At every survey point each active branch is checked against the survey:
+branches matched to a surveyed root are marked ``verified``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from kinroots import __version__
+from kinroots.casefile import Case
+from kinroots.dispersion import Dispersion, dispersion_in_k
+from kinroots.plasma import CONVENTIONS, derived_quantities
+from kinroots.roots import (
+    Branch,
+    BranchEnd,
+    RootResult,
+    Status,
+    SurveyResult,
+    Tracer,
+    find_roots,
+    match_new_roots,
+)
+
+AnalyticFunction = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
+
+#: Relative distance (to the window diameter) under which a surveyed root is taken to be
+#: a root already being traced.
+MATCH_FRACTION = 1e-6
+
+
+def window(case: Case) -> tuple[float, float, float, float]:
+    """The search window ``(re_min, re_max, im_min, im_max)`` in normalized ω."""
+    return (*case.search_real, *case.search_imag)
+
+
+def dispersion_at(case: Case, k: float | complex) -> Dispersion:
+    """The SI dispersion function of ``case`` at normalized wavenumber ``k``."""
+    units = case.units
+    return Dispersion(
+        case.plasma,
+        k=complex(k) / units.length_unit if isinstance(k, complex) else k / units.length_unit,
+        angle_deg=case.angle_deg,
+        model=case.model,
+        omega_ref=units.omega_unit,
+        harmonic_tol=case.solver.harmonic_tolerance,
+    )
+
+
+@dataclass
+class NormalizedDispersion:
+    """``f(ω̂) -> (D, dD/dω̂)`` at one normalized k, with its excluded points.
+
+    Attributes
+    ----------
+    k : float
+        Normalized wavenumber.
+    dispersion : Dispersion
+        The SI function it wraps.
+    """
+
+    k: float
+    dispersion: Dispersion
+
+    def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        w_u = self.dispersion.omega_ref
+        d, dd = self.dispersion(np.asarray(omega, dtype=complex) * w_u)
+        return d, dd * w_u
+
+    def value(self, omega: np.ndarray) -> np.ndarray:
+        """D only (for maps)."""
+        return self(omega)[0]
+
+    def excluded(self, box: tuple[float, float, float, float]) -> list[complex]:
+        """Points the survey must exclude (poles, scaling zeros), normalized."""
+        w_u = self.dispersion.omega_ref
+        pts = self.dispersion.singular_points(*(v * w_u for v in box))
+        return [p / w_u for p in pts]
+
+
+def function_at(case: Case, k: float) -> NormalizedDispersion:
+    """The normalized dispersion function of ``case`` at normalized ``k``."""
+    return NormalizedDispersion(float(k), dispersion_at(case, float(k)))
+
+
+def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | None = None
+           ) -> SurveyResult:
+    """Every root of D in the window (or ``box``) at normalized ``k``."""
+    f = function_at(case, k)
+    b = window(case) if box is None else box
+    return find_roots(f, b, excluded=f.excluded(b), rtol=case.solver.tolerance)
+
+
+@dataclass
+class TracedBranch:
+    """A branch across the scan: one entry per requested k it covers.
+
+    ``points`` maps a normalized k to its RootResult; a failed point is a RootResult
+    with ``converged`` false.  ``end_reason`` is one of ``"end of scan"``,
+    ``"left the window"``, ``"failed"``, ``"merged with branch N"``.
+    """
+
+    id: int
+    points: dict[float, RootResult] = field(default_factory=dict)
+    verified_at: set[float] = field(default_factory=set)
+    end_reason: str = "end of scan"
+    end_k: float | None = None
+    note: str = ""
+    found_at: float = 0.0
+
+    def sorted_points(self) -> list[tuple[float, RootResult]]:
+        return sorted(self.points.items())
+
+
+@dataclass
+class Solution:
+    """Result of :func:`solve`."""
+
+    case: Case
+    branches: list[TracedBranch]
+    surveys: list[tuple[float, SurveyResult]]
+    evaluations: int
+    notes: list[str]
+
+    @property
+    def failed_points(self) -> int:
+        """Points recorded as failed (the CLI's exit code 1), incomplete surveys included."""
+        n = sum(1 for b in self.branches for r in b.points.values() if not r.converged)
+        n += sum(1 for _, s in self.surveys if not s.complete)
+        return n
+
+
+def _failed(value: complex, reason: str) -> RootResult:
+    return RootResult(
+        value=complex(value), converged=False, status=Status.NOT_ATTEMPTED, reason=reason,
+        residual=float("nan"), step=float("nan"), iterations=0, evaluations=0,
+        verified=False, multiplicity=1, method="trace",
+    )
+
+
+def _end_text(b: Branch) -> str:
+    if b.end_reason is BranchEnd.LEFT_REGION:
+        return "left the window"
+    if b.end_reason is BranchEnd.MERGED:
+        return f"merged with branch {b.merged_with}"
+    if b.end_reason is BranchEnd.FAILED:
+        return "failed"
+    return "end of scan"
+
+
+def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> Solution:
+    """Survey the window at the first k, trace every branch across the scan.
+
+    Parameters
+    ----------
+    case : Case
+        Validated case.
+    progress : callable, optional
+        ``progress(done, total)`` after each scan point.
+
+    Returns
+    -------
+    Solution
+        Branches (with failed points recorded, never raised), the surveys made, total
+        dispersion evaluations and notes.
+    """
+    ks = [float(k) for k in case.k_values]
+    box = window(case)
+    diameter = math.hypot(box[1] - box[0], box[3] - box[2])
+    match_tol = MATCH_FRACTION * diameter
+    rtol = case.solver.tolerance
+    every = case.solver.resurvey_every
+    notes: list[str] = []
+    evaluations = 0
+
+    def family(k: float) -> AnalyticFunction:
+        return function_at(case, k)
+
+    def family_back(q: float) -> AnalyticFunction:
+        return function_at(case, -q)
+
+    tracer = Tracer(family, box=box, param=ks[0], rtol=rtol)
+    out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
+    results: list[TracedBranch] = []
+    surveys: list[tuple[float, SurveyResult]] = []
+    last_survey_index = 0
+
+    def do_survey(i: int) -> SurveyResult:
+        nonlocal evaluations
+        s = survey(case, ks[i])
+        evaluations += s.evaluations
+        surveys.append((ks[i], s))
+        if not s.complete:
+            notes.append(
+                f"survey at k = {ks[i]!r} incomplete: counted {s.count} zeros, "
+                f"found {len(s.values)} ({'; '.join(s.notes) or 'no detail'})"
+            )
+        return s
+
+    def start_branch(root: RootResult, i: int) -> TracedBranch:
+        tb_ = tracer.add_branch(root, param=ks[i])
+        tb = TracedBranch(id=len(results), found_at=ks[i])
+        results.append(tb)
+        out[tb_.id] = tb
+        tb.points[ks[i]] = root
+        tb.verified_at.add(ks[i])
+        return tb
+
+    def backfill(tb: TracedBranch, root: RootResult, i: int, i_stop: int) -> None:
+        """Trace a newly found branch backwards from scan point i to i_stop."""
+        nonlocal evaluations
+        if i <= i_stop:
+            return
+        back = Tracer(family_back, box=box, param=-ks[i], rtol=rtol)
+        bb = back.add_branch(root, param=-ks[i])
+        for j in range(i - 1, i_stop - 1, -1):
+            back.advance_to(-ks[j])
+            if not bb.active:
+                break
+        evaluations += back.evaluations
+        for q, r in bb.points[1:]:
+            tb.points[-q] = r
+        if not bb.active and bb.end_reason is not BranchEnd.LEFT_REGION:
+            tb.note = f"backward trace from k = {ks[i]!r} ended: {bb.note}"
+
+    def reconcile(s: SurveyResult, i: int) -> None:
+        """Mark traced roots confirmed by survey ``s``; start branches for new roots."""
+        active = [(tid, b) for tid, b in enumerate(tracer.branches) if b.active]
+        current = [b.points[-1][1].value for _, b in active]
+        for tid, b in active:
+            z = b.points[-1][1].value
+            if any(abs(z - r) <= match_tol for r in s.values):
+                out[tid].verified_at.add(ks[i])
+        for root in match_new_roots(current, [r for r in s.roots if r.converged], match_tol):
+            tb = start_branch(root, i)
+            backfill(tb, root, i, last_survey_index)
+
+    s0 = do_survey(0)
+    for root in s0.roots:
+        if root.converged:
+            start_branch(root, 0)
+        else:
+            notes.append(f"unsolved root near {root.value!r} at k = {ks[0]!r}: {root.reason}")
+    if progress:
+        progress(1, len(ks))
+
+    for i in range(1, len(ks)):
+        if tracer.active:
+            tracer.advance_to(ks[i])
+        else:
+            tracer.param = ks[i]  # nothing to trace: keep the tracer's clock with the scan
+        for tid, b in enumerate(tracer.branches):
+            tb = out[tid]
+            if b.points and b.points[-1][0] == ks[i] and b.active:
+                tb.points[ks[i]] = b.points[-1][1]
+        resurvey = (every > 0 and i % every == 0) or i == len(ks) - 1
+        if resurvey:
+            s = do_survey(i)
+            reconcile(s, i)
+            last_survey_index = i
+        if progress:
+            progress(i + 1, len(ks))
+
+    for tid, b in enumerate(tracer.branches):
+        tb = out[tid]
+        evaluations += b.evaluations
+        if not b.active:
+            tb.end_reason = _end_text(b)
+            tb.end_k = b.end_param
+            tb.note = b.note or tb.note
+            if b.end_reason is BranchEnd.FAILED:
+                # the first requested k the branch could not reach is a failed point
+                last = max(tb.points) if tb.points else ks[0]
+                nxt = [k for k in ks if k > last]
+                if nxt:
+                    prev = tb.points[last].value if tb.points else complex("nan")
+                    tb.points[nxt[0]] = _failed(prev, b.note or "tracing failed")
+    return Solution(case=case, branches=results, surveys=surveys, evaluations=evaluations,
+                    notes=notes)
+
+
+# ----------------------------------------------------------------------------- tables
+
+
+def root_row(case: Case, branch: int | str, k: float, r: RootResult,
+             verified: bool | None = None) -> dict[str, Any]:
+    """One table row (columns of :data:`kinroots.tables.ROOT_COLUMNS`)."""
+    units = case.units
+    w_si = complex(units.omega_to_si(r.value))
+    return {
+        "branch": branch,
+        "k": float(k),
+        "omega_real": float(r.value.real),
+        "omega_imag": float(r.value.imag),
+        "k_per_m": float(units.k_to_si(k)),
+        "freq_hz": w_si.real / (2.0 * math.pi),
+        "gamma_per_s": w_si.imag,
+        "residual": float(r.residual),
+        "converged": bool(r.converged),
+        "verified": bool(r.verified if verified is None else verified),
+        "multiplicity": int(r.multiplicity),
+        "iterations": int(r.iterations),
+        "evaluations": int(r.evaluations),
+        "status": r.status.name.lower(),
+        "reason": r.reason,
+    }
+
+
+def branch_rows(sol: Solution) -> list[dict[str, Any]]:
+    """Rows of branches.csv, branch by branch, k increasing."""
+    rows = []
+    for b in sol.branches:
+        for k, r in b.sorted_points():
+            rows.append(root_row(sol.case, b.id, k, r, verified=k in b.verified_at))
+    return rows
+
+
+def extreme_roots(rows: list[dict[str, Any]]) -> dict[str, Any]:
+    """The fastest-growing (largest γ) and least-damped roots among converged rows."""
+    good = [r for r in rows if r["converged"]]
+    if not good:
+        return {"fastest_growing": None, "least_damped": None}
+    top = max(good, key=lambda r: r["omega_imag"])
+    growing = top if top["omega_imag"] > 0 else None
+    damped = [r for r in good if r["omega_imag"] <= 0]
+    least = max(damped, key=lambda r: r["omega_imag"]) if damped else None
+    keep = ("branch", "k", "omega_real", "omega_imag", "k_per_m", "freq_hz", "gamma_per_s")
+    return {
+        "fastest_growing": {k: growing[k] for k in keep} if growing else None,
+        "least_damped": {k: least[k] for k in keep} if least else None,
+    }
+
+
+def metadata(case: Case, *, rows: list[dict[str, Any]], extra: dict[str, Any]) -> dict[str, Any]:
+    """summary.json content shared by ``solve`` and ``roots``."""
+    units = case.units
+    return {
+        "kinroots_version": __version__,
+        "title": case.title,
+        "source": str(case.source) if case.source else None,
+        "case": case.raw,
+        "conventions": CONVENTIONS,
+        "units": {
+            "omega": units.frequency_label_ascii,
+            "omega_unit_rad_per_s": units.omega_unit,
+            "k": f"1/{units.length_label_ascii}",
+            "length_unit_m": units.length_unit,
+            "table_columns": {
+                "k": f"k * {units.length_label_ascii}",
+                "omega_real": f"Re(omega) / {units.frequency_label_ascii}",
+                "omega_imag": f"Im(omega) / {units.frequency_label_ascii}",
+                "k_per_m": "k [1/m]",
+                "freq_hz": "Re(omega) / (2 pi) [Hz]",
+                "gamma_per_s": "Im(omega) [1/s]; > 0 grows",
+                "residual": "|D| at the root (D as scaled in 'dispersion_scaling')",
+            },
+        },
+        "derived": derived_quantities(case.plasma, units),
+        "tolerances": {
+            "root_rtol": case.solver.tolerance,
+            "harmonic_tolerance": case.solver.harmonic_tolerance,
+            "resurvey_every": case.solver.resurvey_every,
+            "match_fraction_of_window": MATCH_FRACTION,
+        },
+        "warnings": list(case.warnings),
+        **extreme_roots(rows),
+        **extra,
+    }
+
+
+def solution_summary(sol: Solution, rows: list[dict[str, Any]]) -> dict[str, Any]:
+    """summary.json for ``kinroots solve``."""
+    case = sol.case
+    d0 = dispersion_at(case, float(case.k_values[0]))
+    return metadata(case, rows=rows, extra={
+        "model": case.model,
+        "dispersion_scaling": d0.scaling,
+        "resurvey_rule": (
+            "window surveyed at the first k, every resurvey_every points and at the last k; "
+            "new roots start branches traced backwards to the previous survey"
+        ),
+        "branches": [
+            {
+                "branch": b.id,
+                "found_at_k": b.found_at,
+                "k_range": [min(b.points), max(b.points)] if b.points else None,
+                "points": len(b.points),
+                "failed_points": sum(1 for r in b.points.values() if not r.converged),
+                "end_reason": b.end_reason,
+                "end_k": b.end_k,
+                "note": b.note,
+            }
+            for b in sol.branches
+        ],
+        "surveys": [
+            {"k": k, "count": s.count, "found": len(s.values), "complete": s.complete,
+             "evaluations": s.evaluations, "notes": list(s.notes)}
+            for k, s in sol.surveys
+        ],
+        "evaluations": sol.evaluations,
+        "failed_points": sol.failed_points,
+        "notes": sol.notes,
+    })
+
+
+# ----------------------------------------------------------------------- spatial problem
+
+
+@dataclass
+class SpatialFunction:
+    """``g(k̂) -> (D, dD/dk̂)`` at one real normalized frequency (spatial problem)."""
+
+    case: Case
+    omega: float
+
+    def __call__(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        units = self.case.units
+        L = units.length_unit
+        d, dd = dispersion_in_k(
+            self.case.plasma,
+            omega=self.omega * units.omega_unit,
+            k=np.asarray(k, dtype=complex) / L,
+            angle_deg=self.case.angle_deg,
+            model=self.case.model,
+            omega_ref=units.omega_unit,
+            harmonic_tol=self.case.solver.harmonic_tolerance,
+        )
+        return d, dd / L
+
+
+def spatial_roots(case: Case, omega: float, box: tuple[float, float, float, float]
+                  ) -> SurveyResult:
+    """Every complex wavenumber (normalized) in ``box`` at real normalized ``omega``.
+
+    The box must lie in Re k > 0, away from k = 0 (the continuation is built there).
+    """
+    if box[0] <= 0:
+        raise ValueError("the spatial search box must lie in Re k > 0")
+    return find_roots(SpatialFunction(case, float(omega)), box, rtol=case.solver.tolerance)
+
+
+def trace_spatial(case: Case, omegas: np.ndarray, box: tuple[float, float, float, float]
+                  ) -> list[Branch]:
+    """Survey complex k at the first frequency and trace each root across ``omegas``."""
+    om = [float(w) for w in omegas]
+    s = spatial_roots(case, om[0], box)
+    tracer = Tracer(lambda w: SpatialFunction(case, w), box=box, param=om[0],
+                    rtol=case.solver.tolerance)
+    for r in s.roots:
+        if r.converged:
+            tracer.add_branch(r, param=om[0])
+    for w in om[1:]:
+        if not tracer.active:
+            break
+        tracer.advance_to(w)
+    return tracer.branches
