@@ -271,7 +271,8 @@ def solve(
         ))
     units = loaded.units
     plot_branches(output / "branches.png", curves, k_label=units.length_label,
-                  omega_label=units.frequency_label, title=loaded.title)
+                  omega_label=units.frequency_label, title=loaded.title,
+                  growth_floor=scan.GROWTH_RESOLUTION * loaded.solver.tolerance)
     console.print(f"{len(sol.branches)} branch(es) traced over {len(loaded.k_values)} k "
                   f"points; {sol.evaluations} dispersion evaluations")
     console.print(f"fastest growing: {_describe_root(summary['fastest_growing'], loaded)}")

@@ -47,6 +47,7 @@ def plot_branches(
     k_label: str,
     omega_label: str,
     title: str = "",
+    growth_floor: float = 0.0,
 ) -> None:
     """ω_r and γ against k, one colour per branch; growing parts (γ > 0) marked.
 
@@ -57,7 +58,10 @@ def plot_branches(
     curves : sequence of BranchCurve
         Normalized k and complex ω per branch.
     k_label, omega_label : str
-        Axis unit labels, e.g. ``"k λ_De"`` and ``"ω_pe"``.
+        Axis unit labels, e.g. ``"λ_De"`` and ``"ω_pe"``.
+    growth_floor : float
+        A point is marked growing when γ > growth_floor·|ω| (the root finder's
+        resolution of the sign of γ).
     """
     fig = _figure(figsize=(8.0, 6.5), layout="constrained")
     ax_r, ax_i = fig.subplots(2, 1, sharex=True)
@@ -68,7 +72,7 @@ def plot_branches(
         w = np.asarray(c.omega, dtype=complex)
         ax_r.plot(k, w.real, "-", color=colour, lw=1.5, label=c.label)
         ax_i.plot(k, w.imag, "-", color=colour, lw=1.5, label=c.label)
-        grow = w.imag > 0
+        grow = w.imag > growth_floor * np.abs(w)
         if np.any(grow):
             any_growth = True
             ax_r.plot(k[grow], w.real[grow], "o", color=colour, ms=3.5, mfc="none")

@@ -332,14 +332,32 @@ def branch_rows(sol: Solution) -> list[dict[str, Any]]:
     return rows
 
 
-def extreme_roots(rows: list[dict[str, Any]]) -> dict[str, Any]:
-    """The fastest-growing (largest γ) and least-damped roots among converged rows."""
+#: A root counts as growing only when γ exceeds this multiple of the root tolerance
+#: times |ω|: below that, the sign of γ is not resolved by the root finder.
+GROWTH_RESOLUTION = 10.0
+
+
+def is_growing(omega: complex, rtol: float) -> bool:
+    """True when Im ω > 0 by more than the root finder's resolution."""
+    return omega.imag > GROWTH_RESOLUTION * rtol * abs(omega)
+
+
+def extreme_roots(rows: list[dict[str, Any]], rtol: float = 1e-10) -> dict[str, Any]:
+    """The fastest-growing (largest γ) and least-damped roots among converged rows.
+
+    A root is growing only if ``γ > GROWTH_RESOLUTION · rtol · |ω|``; a root with
+    |γ| below that is neutral to the accuracy of the tables and counts as least damped.
+    """
     good = [r for r in rows if r["converged"]]
     if not good:
         return {"fastest_growing": None, "least_damped": None}
+
+    def grows(r: dict[str, Any]) -> bool:
+        return is_growing(complex(r["omega_real"], r["omega_imag"]), rtol)
+
     top = max(good, key=lambda r: r["omega_imag"])
-    growing = top if top["omega_imag"] > 0 else None
-    damped = [r for r in good if r["omega_imag"] <= 0]
+    growing = top if grows(top) else None
+    damped = [r for r in good if not grows(r)]
     least = max(damped, key=lambda r: r["omega_imag"]) if damped else None
     keep = ("branch", "k", "omega_real", "omega_imag", "k_per_m", "freq_hz", "gamma_per_s")
     return {
@@ -380,7 +398,10 @@ def metadata(case: Case, *, rows: list[dict[str, Any]], extra: dict[str, Any]) -
             "match_fraction_of_window": MATCH_FRACTION,
         },
         "warnings": list(case.warnings),
-        **extreme_roots(rows),
+        "growth_resolution": (
+            f"a root counts as growing when gamma > {GROWTH_RESOLUTION:g} * root_rtol * |omega|"
+        ),
+        **extreme_roots(rows, case.solver.tolerance),
         **extra,
     }
 
