@@ -1,0 +1,133 @@
+"""``kinroots solve`` and ``kinroots roots`` through typer's CliRunner."""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from kinroots import scan
+from kinroots.cli import app
+from kinroots.roots import RootResult, Status
+
+runner = CliRunner()
+CASES = sorted(Path(__file__).resolve().parent.parent.joinpath("cases").glob("*.toml"))
+
+
+def _read_csv(path: Path) -> list[dict[str, str]]:
+    with open(path, newline="") as fh:
+        return list(csv.DictReader(fh))
+
+
+def test_solve_default_case_writes_three_files(tmp_path):
+    out = tmp_path / "run"
+    res = runner.invoke(app, ["solve", "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    rows = _read_csv(out / "branches.csv")
+    assert rows and list(rows[0])[:9] == [
+        "branch", "k", "omega_real", "omega_imag", "k_per_m", "freq_hz", "gamma_per_s",
+        "residual", "converged",
+    ]
+    assert all(r["converged"] == "true" for r in rows)
+    # full double precision: the text round-trips to the same float
+    for r in rows[:5]:
+        assert repr(float(r["omega_real"])) == r["omega_real"]
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["units"]["omega"] == "omega_pe"
+    assert summary["least_damped"]["branch"] == 0
+    assert summary["branches"][0]["end_reason"] in {"end of scan", "left the window"}
+    assert "exp(i k.x - i omega t)" in json.dumps(summary["conventions"]) or summary[
+        "conventions"]
+    png = (out / "branches.png").read_bytes()
+    assert png[:8] == b"\x89PNG\r\n\x1a\n"
+    assert not list(out.glob(".*.tmp"))  # atomic writes leave no temporaries
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("path", CASES, ids=[p.stem for p in CASES])
+def test_solve_every_example_case(tmp_path, path):
+    res = runner.invoke(app, ["solve", str(path), "-o", str(tmp_path)])
+    assert res.exit_code == 0, res.output
+    rows = _read_csv(tmp_path / "branches.csv")
+    assert rows
+    assert (tmp_path / "branches.png").stat().st_size > 1000
+
+
+def test_roots_at_one_k(tmp_path):
+    res = runner.invoke(app, ["roots", "--at", "0.5", "-o", str(tmp_path)])
+    assert res.exit_code == 0, res.output
+    rows = _read_csv(tmp_path / "roots.csv")
+    assert len(rows) == 1
+    w = complex(float(rows[0]["omega_real"]), float(rows[0]["omega_imag"]))
+    # default case has mobile hydrogen ions: close to, not equal to, the fixed-ion value
+    assert abs(w - (1.4157 - 0.1533j)) < 2e-3
+    assert rows[0]["verified"] == "true"
+    assert (tmp_path / "map.png").read_bytes()[:4] == b"\x89PNG"
+    summary = json.loads((tmp_path / "summary.json").read_text())
+    assert summary["complete"] is True and summary["count"] == 1
+
+
+@pytest.mark.parametrize(
+    "args, needle",
+    [
+        (["solve", "no/such/case.toml"], "no/such/case.toml"),
+        (["roots", "--at", "-1"], "--at"),
+        (["roots", "--at", "inf"], "--at"),
+    ],
+)
+def test_bad_input_exit_2_one_message_no_traceback(tmp_path, args, needle):
+    res = runner.invoke(app, [*args, "-o", str(tmp_path / "o")])
+    assert res.exit_code == 2
+    assert "Traceback" not in res.output
+    assert needle in res.output
+    assert not (tmp_path / "o").exists()  # nothing half-written
+
+
+def test_output_path_that_is_a_file_is_bad_input(tmp_path):
+    target = tmp_path / "afile"
+    target.write_text("x")
+    res = runner.invoke(app, ["solve", "-o", str(target)])
+    assert res.exit_code == 2
+    assert "Traceback" not in res.output and "file" in res.output.lower()
+    assert target.read_text() == "x"
+
+
+def test_failed_point_exit_1_and_flagged_with_empty_values(tmp_path, monkeypatch):
+    real_solve = scan.solve
+
+    def solve_with_a_failure(case, *, progress=None):
+        sol = real_solve(case, progress=progress)
+        b = sol.branches[0]
+        k_fail = sorted(b.points)[3]
+        b.points[k_fail] = RootResult(
+            value=complex(1.2, -0.01), converged=False, status=Status.MAX_ITER,
+            reason="injected: Newton did not converge", residual=0.5, step=0.1,
+            iterations=12, evaluations=12, verified=False, multiplicity=1, method="trace",
+        )
+        return sol
+
+    monkeypatch.setattr(scan, "solve", solve_with_a_failure)
+    res = runner.invoke(app, ["solve", "-o", str(tmp_path)])
+    assert res.exit_code == 1, res.output
+    assert "failed" in res.output
+    rows = _read_csv(tmp_path / "branches.csv")
+    bad = [r for r in rows if r["converged"] == "false"]
+    assert len(bad) == 1
+    for col in ("omega_real", "omega_imag", "freq_hz", "gamma_per_s", "residual"):
+        assert bad[0][col] == ""
+    assert bad[0]["reason"].startswith("injected")
+    summary = json.loads((tmp_path / "summary.json").read_text())
+    assert summary["failed_points"] == 1
+
+
+def test_help_lists_commands_with_examples():
+    res = runner.invoke(app, ["--help"])
+    assert res.exit_code == 0
+    for cmd in ("solve", "roots", "plasma", "check"):
+        assert cmd in res.output
+    for cmd in ("solve", "roots"):
+        sub = runner.invoke(app, [cmd, "--help"])
+        assert sub.exit_code == 0 and "Example" in sub.output
