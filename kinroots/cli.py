@@ -353,3 +353,20 @@ def roots(
     if not s.complete:
         console.print("[red]survey incomplete[/red]: " + "; ".join(s.notes))
         raise typer.Exit(1)
+
+
+def _register_extensions() -> None:
+    """Commands defined in sibling modules (each has ``register(app)``)."""
+    import importlib
+
+    for name in ("kinroots.cli_sweep", "kinroots.cli_lab"):
+        try:
+            mod = importlib.import_module(name)
+        except ModuleNotFoundError as exc:
+            if exc.name == name:
+                continue
+            raise
+        mod.register(app)
+
+
+_register_extensions()
