@@ -1,0 +1,6 @@
+"""Validation tests import their shared record module from this folder."""
+
+import sys
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
