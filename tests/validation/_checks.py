@@ -12,7 +12,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 #: family name -> list of check functions
-REGISTRY: dict[str, list[Callable[[], list["Check"]]]] = {}
+REGISTRY: dict[str, list[Callable[[], list[Check]]]] = {}
 
 
 @dataclass(frozen=True)
