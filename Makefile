@@ -6,7 +6,7 @@ VENV   ?= .venv
 PY     := $(VENV)/bin/python
 OUT    ?= kinroots-out
 
-.PHONY: run test lint bench clean
+.PHONY: run test lint bench validation clean
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
@@ -34,6 +34,10 @@ lint: $(VENV)/.installed-test
 
 bench: $(VENV)/.installed-test
 	@for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
+
+# docs/validation.md and its figures, from the same checks the tests run
+validation: $(VENV)/.installed-test
+	$(PY) docs/make_validation.py
 
 clean:
 	rm -rf $(OUT) build dist *.egg-info .pytest_cache .ruff_cache .hypothesis
