@@ -24,9 +24,10 @@ from typing import Any
 
 import numpy as np
 
-from kinroots import __version__
+from kinroots import __version__, modes
 from kinroots.casefile import Case
 from kinroots.dispersion import Dispersion, dispersion_in_k
+from kinroots.models import krook
 from kinroots.plasma import CONVENTIONS, derived_quantities
 from kinroots.roots import (
     Branch,
@@ -81,7 +82,16 @@ class NormalizedDispersion:
 
     def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         w_u = self.dispersion.omega_ref
-        d, dd = self.dispersion(np.asarray(omega, dtype=complex) * w_u)
+        disp = self.dispersion
+        if krook.collisional(disp.plasma) and not disp.electromagnetic and not disp.magnetized:
+            # Krook χ_s has poles: hand the root layer F = (Π_s Q_s) D, entire, same zeros
+            cos, sin = disp._cos, disp._sin
+            f, fw, _ = krook.scaled_dispersion(
+                np.asarray(omega, dtype=complex) * w_u, disp.plasma.species,
+                k=disp.k, cos_theta=cos, sin_theta=sin,
+            )
+            return f, fw * w_u
+        d, dd = disp(np.asarray(omega, dtype=complex) * w_u)
         return d, dd * w_u
 
     def value(self, omega: np.ndarray) -> np.ndarray:
@@ -196,7 +206,7 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> 
     def family_back(q: float) -> AnalyticFunction:
         return function_at(case, -q)
 
-    tracer = Tracer(family, box=box, param=ks[0], rtol=rtol)
+    tracer = Tracer(family, box=box, param=ks[0], rtol=rtol, order=3)
     out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
     results: list[TracedBranch] = []
     surveys: list[tuple[float, SurveyResult]] = []
@@ -301,9 +311,21 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> 
 
 def root_row(case: Case, branch: int | str, k: float, r: RootResult,
              verified: bool | None = None) -> dict[str, Any]:
-    """One table row (columns of :data:`kinroots.tables.ROOT_COLUMNS`)."""
+    """One table row (columns of :data:`kinroots.tables.ROOT_COLUMNS`).
+
+    Converged roots also carry their mode identity (polarization, handedness, δB/δE,
+    electrostatic fraction, per-species δn_s/n_s): see :mod:`kinroots.modes`.
+    """
     units = case.units
     w_si = complex(units.omega_to_si(r.value))
+    if r.converged:
+        identity = modes.mode_columns(
+            case.plasma, omega=w_si, k=float(units.k_to_si(k)), angle_deg=case.angle_deg,
+            model=case.model, omega_ref=units.omega_unit,
+            harmonic_tol=case.solver.harmonic_tolerance,
+        )
+    else:
+        identity = dict.fromkeys(modes.MODE_COLUMNS + modes.density_columns(case.plasma))
     return {
         "branch": branch,
         "k": float(k),
@@ -320,6 +342,7 @@ def root_row(case: Case, branch: int | str, k: float, r: RootResult,
         "evaluations": int(r.evaluations),
         "status": r.status.name.lower(),
         "reason": r.reason,
+        **identity,
     }
 
 
@@ -454,6 +477,15 @@ class SpatialFunction:
     def __call__(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         units = self.case.units
         L = units.length_unit
+        plasma = self.case.plasma
+        if krook.collisional(plasma) and self.case.model == "electrostatic" and not plasma.B:
+            theta = math.radians(self.case.angle_deg)
+            f, _, fk = krook.scaled_dispersion(
+                self.omega * units.omega_unit, plasma.species,
+                k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
+                sin_theta=math.sin(theta),
+            )
+            return f, fk / L
         d, dd = dispersion_in_k(
             self.case.plasma,
             omega=self.omega * units.omega_unit,
