@@ -382,7 +382,10 @@ def plasma_z_prime(zeta: ArrayLike) -> Any:
     NIST DLMF §7.2, §7.12.
     """
     arr = _as_complex(zeta)
-    return _finish(-2.0 * _z_and_f(arr)[1], arr.ndim == 0)
+    f = _z_and_f(arr)[1]
+    with np.errstate(over="ignore", invalid="ignore"):
+        zp = -2.0 * f  # may overflow to inf near the overflow boundary: non-finite, not wrong
+    return _finish(zp, arr.ndim == 0)
 
 
 def plasma_z_and_prime(zeta: ArrayLike) -> tuple[Any, Any]:
@@ -416,4 +419,6 @@ def plasma_z_and_prime(zeta: ArrayLike) -> tuple[Any, Any]:
     arr = _as_complex(zeta)
     z, f = _z_and_f(arr)
     scalar = arr.ndim == 0
-    return _finish(z, scalar), _finish(-2.0 * f, scalar)
+    with np.errstate(over="ignore", invalid="ignore"):
+        zp = -2.0 * f  # may overflow to inf near the overflow boundary: non-finite, not wrong
+    return _finish(z, scalar), _finish(zp, scalar)
