@@ -1,0 +1,510 @@
+"""The dispersion function D(ω; k, plasma) and its derivatives, vectorized over ω.
+
+Conventions: perturbations ∝ exp(i k·x − i ω t); B (or the drift axis) along z;
+k = k (sin θ, 0, cos θ), so k_par = k cos θ, k_perp = k sin θ; SI units (ω in rad/s,
+k in 1/m).  The susceptibility builders live in :mod:`kinroots.models`; this module
+sums them, assembles D, scales it to be entire in ω and supplies dD/dω (and dD/dk for
+the spatial problem, complex k at real ω).
+"""
+
+from __future__ import annotations
+
+import importlib
+import math
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from kinroots.models.base import Builder, Susceptibility
+from kinroots.plasma import C_LIGHT, EV, Plasma
+
+__all__ = ["Dispersion", "MODELS", "builder_for", "dispersion_in_k"]
+
+#: Canonical model names and the spellings accepted for them.
+MODELS: dict[str, str] = {
+    "electrostatic": "electrostatic",
+    "es": "electrostatic",
+    "electromagnetic": "electromagnetic",
+    "em": "electromagnetic",
+}
+
+#: (model, magnetized) -> module holding the builder ``susceptibility`` (imported lazily).
+_REGISTRY: dict[tuple[str, bool], str] = {
+    ("electrostatic", False): "kinroots.models.es_unmagnetized",
+    ("electromagnetic", False): "kinroots.models.em_unmagnetized",
+    ("electrostatic", True): "kinroots.models.es_magnetized",
+    ("electromagnetic", True): "kinroots.models.em_magnetized",
+}
+
+#: Points on the Cauchy circles used near ω = 0 and for dD/dk of magnetized models.
+_N_CIRCLE = 32
+#: Radius of the neighbourhood of ω = 0 that is evaluated through a Cauchy circle, and
+#: radius of that circle, as fractions of the slowest frequency scale F of the
+#: susceptibilities.  Large, because the error of the direct evaluation near 0 grows
+#: like ε·(fastest scale)/|ω|, while the circle's error, ~ (r/F)^32 / 16! for the
+#: order-2 entire Z, stays negligible for r ≤ F/2.
+_ZERO_FRACTION = 0.2
+_CIRCLE_FRACTION = 0.5
+#: Radius of the Cauchy circle for dD/dk (magnetized models), as a fraction of |k|.
+_K_FRACTION = 1e-3
+
+
+def _canonical_model(model: str) -> str:
+    try:
+        return MODELS[model.strip().lower()]
+    except (KeyError, AttributeError):
+        raise ValueError(
+            f"unknown model {model!r}: expected one of {sorted(set(MODELS))}"
+        ) from None
+
+
+def builder_for(model: str, magnetized: bool) -> Builder:
+    """The susceptibility builder registered for ``(model, magnetized)``.
+
+    Parameters
+    ----------
+    model : str
+        ``"electrostatic"`` / ``"es"`` or ``"electromagnetic"`` / ``"em"``.
+    magnetized : bool
+        Whether B ≠ 0.
+
+    Returns
+    -------
+    Builder
+        The module's ``susceptibility`` function (imported on first use, so that a
+        model module that is absent only matters when it is asked for).
+    """
+    key = (_canonical_model(model), bool(magnetized))
+    module = importlib.import_module(_REGISTRY[key])
+    builder: Builder = module.susceptibility
+    return builder
+
+
+def _cos_sin_deg(angle_deg: float) -> tuple[float, float]:
+    """cos θ, sin θ with exact zeros at multiples of 90° (so that k∥ = 0 is exact)."""
+    a = float(angle_deg)
+    if not math.isfinite(a):
+        raise ValueError(f"angle_deg must be finite, got {angle_deg!r}")
+    r = a % 360.0
+    exact = {0.0: (1.0, 0.0), 90.0: (0.0, 1.0), 180.0: (-1.0, 0.0), 270.0: (0.0, -1.0)}
+    if r in exact:
+        return exact[r]
+    t = math.radians(a)
+    return math.cos(t), math.sin(t)
+
+
+def _det_and_cofactors(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """det M and the cofactor matrix C (C_ij = ∂ det M / ∂M_ij) of stacked 3×3 M."""
+    c = np.empty_like(m)
+    for i in range(3):
+        i1, i2 = (i + 1) % 3, (i + 2) % 3
+        for j in range(3):
+            j1, j2 = (j + 1) % 3, (j + 2) % 3
+            c[..., i, j] = m[..., i1, j1] * m[..., i2, j2] - m[..., i1, j2] * m[..., i2, j1]
+    det = np.sum(m[..., 0, :] * c[..., 0, :], axis=-1)
+    return det, c
+
+
+class Dispersion:
+    """D(ω) and dD/dω at fixed k for one plasma and one model.
+
+    Parameters
+    ----------
+    plasma : Plasma
+        Species and magnetic field B [T] (B = 0 selects the unmagnetized builders).
+    k : complex
+        Wavenumber |k| [1/m]; non-zero and finite.  A complex k (spatial problem) is
+        accepted: the builders continue analytically from Re k > 0.
+    angle_deg : float
+        Angle θ between k and z [degrees]; multiples of 90° are exact (k∥ = 0 at 90°).
+    model : str
+        ``"electrostatic"`` (``"es"``) or ``"electromagnetic"`` (``"em"``).
+    omega_ref : float
+        Frequency [rad/s] that makes the scale factors of D dimensionless (e.g. ω_pe).
+    harmonic_tol : float
+        Truncation tolerance passed to magnetized builders as ``tol``.
+
+    Attributes
+    ----------
+    harmonics : dict[str, int]
+        Species name → cyclotron harmonics kept at the last evaluation (0 unmagnetized).
+    scaling : str
+        Plain-text description of the normalization of D.
+    electromagnetic : bool
+        Model kind.
+
+    Notes
+    -----
+    Electrostatic: D = ε_L = 1 + Σ_s χ_s (no scaling).  Entire in ω for unmagnetized
+    plasmas and for magnetized ones with k∥ ≠ 0; with k∥ = 0 it has poles at the
+    cyclotron harmonics n Ω_s, reported by :meth:`singular_points`.
+
+    Electromagnetic: Λ = ε − n²(I − k̂k̂), ε = I + Σ_s χ_s, n² = k²c²/ω².  In the frame
+    e₁ = (cos θ, 0, −sin θ), e₂ = ŷ, e₃ = k̂ (R with these rows, det R = 1)::
+
+        M = diag((ω/ω_ref)², (ω/ω_ref)², 1) · R Λ Rᵀ,
+        D = det M = (ω/ω_ref)⁴ det Λ.
+
+    Why this is entire.  The poles of χ at ω = 0: (i) χ_ij = (iσ_ij/ε0ω) with the force
+    of δB = k×E/ω in σ, so every entry has order ≤ 2 and ω²(Λ_TT) is entire (T: e₁, e₂);
+    (ii) a longitudinal E makes no δB, so the column χ_{·L} has order ≤ 1 and the
+    entries ω²Λ_{TL} = O(ω); (iii) by charge continuity k̂·χ = iρ/(ε0 k E), whose 1/ω
+    pole comes only from the charge moved by the magnetic force on a drifting or
+    anisotropic species: Λ_{LT} = O(1/ω), Λ_LL = ε_L entire.  Expanding det M along the
+    longitudinal row, Λ_{LT} multiplies cofactors that contain a factor ω²Λ_{TL} = O(ω),
+    so D has no pole: the 1/ω of the longitudinal row needs no factor of its own.
+    Multiplying that row by ω/ω_ref too (as first planned for drifting or anisotropic
+    plasmas) would put a spurious simple zero at ω = 0 in every such case (D(0) ≠ 0
+    otherwise; both verified in tests/test_dispersion.py by the argument principle).
+    The power 4 is minimal since D(0) ≠ 0 in general.  ω = 0 is still listed by
+    :meth:`singular_points` so that the root finder checks it itself.
+
+    Near ω = 0 (|ω| < r₀ = 0.2 F, F the slowest frequency scale of the builders: |k| w_k,
+    and |Ω_s|, |k∥| w∥ when magnetized) the entries of M overflow or cancel, so D and
+    dD/dω there are the means of D and of D e^{−iφ}/r over 32 points of the circle of
+    radius r = 0.5 F around ω (Cauchy's formula for an entire function; aliasing error
+    of the order of the 32nd Taylor term, negligible), so D is finite and correct at
+    exactly ω = 0 (tested to 1e-10 for D, 1e-8 for dD/dω).  With this scaling
+    D(−ω*) = D(ω)* for non-drifting plasmas (reality condition).
+
+    dD/dω: electrostatic from the builders' analytic ∂χ/∂ω; electromagnetic from the
+    cofactor form dD/dω = Σ_ij C_ij dM_ij/dω (C the cofactor matrix of M), which
+    stays exact where M is singular.  Non-finite ω gives NaN.
+
+    References
+    ----------
+    T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 1 and 10 (wave equation, Λ);
+    N. A. Krall and A. W. Trivelpiece, *Principles of Plasma Physics* (1973), ch. 9.
+    """
+
+    def __init__(
+        self,
+        plasma: Plasma,
+        *,
+        k: complex,
+        angle_deg: float,
+        model: str,
+        omega_ref: float,
+        harmonic_tol: float = 1e-14,
+    ) -> None:
+        kc = complex(k)
+        if kc == 0 or not (math.isfinite(kc.real) and math.isfinite(kc.imag)):
+            raise ValueError(f"k must be finite and non-zero, got {k!r}")
+        if not (math.isfinite(omega_ref) and omega_ref > 0):
+            raise ValueError(f"omega_ref must be a finite positive frequency, got {omega_ref!r}")
+        if len(plasma.species) == 0:
+            raise ValueError("the plasma has no species")
+        self.plasma = plasma
+        self.k = kc
+        self.angle_deg = float(angle_deg)
+        self.model = _canonical_model(model)
+        self.omega_ref = float(omega_ref)
+        self.harmonic_tol = float(harmonic_tol)
+        self.electromagnetic = self.model == "electromagnetic"
+        self.magnetized = plasma.magnetized
+        self._builder = builder_for(self.model, self.magnetized)
+        cos, sin = _cos_sin_deg(angle_deg)
+        self._cos, self._sin = cos, sin
+        self.k_par = kc * cos
+        self.k_perp = kc * sin
+        self._rot = np.array([[cos, 0.0, -sin], [0.0, 1.0, 0.0], [sin, 0.0, cos]])
+        self.harmonics: dict[str, int] = {s.name: 0 for s in plasma.species}
+        self._zero_radius = _ZERO_FRACTION * self._slowest_scale()
+        if self.electromagnetic:
+            self.scaling = (
+                f"D = (omega/omega_ref)^4 det(Lambda), omega_ref = {self.omega_ref!r} rad/s: "
+                "the two rows of Lambda transverse to k times (omega/omega_ref)^2; "
+                "entire in omega, finite at omega = 0"
+            )
+        else:
+            self.scaling = "D = 1 + sum_s chi_s (longitudinal dielectric), unscaled"
+
+    # ------------------------------------------------------------------ helpers
+    def _slowest_scale(self) -> float:
+        scales = []
+        for s in self.plasma.species:
+            wpar2 = 2.0 * s.temperature_par * EV / s.mass
+            wperp2 = 2.0 * s.temperature_perp * EV / s.mass
+            scales.append(abs(np.sqrt(self.k_perp**2 * wperp2 + self.k_par**2 * wpar2)))
+            if self.magnetized:
+                scales.append(abs(s.cyclotron_frequency(self.plasma.B)))
+                if self.k_par != 0:
+                    scales.append(abs(self.k_par) * math.sqrt(wpar2))
+        good = [x for x in scales if math.isfinite(x) and x > 0]
+        return min(good) if good else self.omega_ref
+
+    def _chi(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Σ_s χ_s and Σ_s ∂χ_s/∂ω at the given ω (builders' frame)."""
+        total = dtotal = None
+        for s in self.plasma.species:
+            res: Susceptibility = self._builder(
+                omega,
+                s,
+                k_par=self.k_par,
+                k_perp=self.k_perp,
+                B=self.plasma.B,
+                tol=self.harmonic_tol,
+            )
+            self.harmonics[s.name] = int(res.harmonics)
+            v, d = np.asarray(res.value), np.asarray(res.derivative)
+            total = v if total is None else total + v
+            dtotal = d if dtotal is None else dtotal + d
+        assert total is not None and dtotal is not None
+        return total, dtotal
+
+    def _scaled_direct(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """M and dM/dω (see class Notes) evaluated directly (ω away from 0)."""
+        chi, dchi = self._chi(omega)
+        rot = self._rot
+        eps = rot @ chi @ rot.T
+        deps = rot @ dchi @ rot.T
+        idx = np.arange(3)
+        eps[..., idx, idx] += 1.0
+        w = (omega / self.omega_ref)[..., None, None]
+        wr = self.omega_ref
+        m = eps
+        dm = deps
+        dm[..., :2, :] = (2.0 * w / wr) * eps[..., :2, :] + w**2 * deps[..., :2, :]
+        m[..., :2, :] = w**2 * eps[..., :2, :]
+        n2ref = (self.k * C_LIGHT / wr) ** 2
+        m[..., 0, 0] -= n2ref
+        m[..., 1, 1] -= n2ref
+        return m, dm
+
+    def _d_direct(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """D = det M and dD/dω = Σ C_ij dM_ij (C: cofactors of M), ω away from 0."""
+        m, dm = self._scaled_direct(omega)
+        d, cof = _det_and_cofactors(m)
+        return d, np.sum(cof * dm, axis=(-2, -1))
+
+    def _d_em(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """D and dD/dω for any ω, through a Cauchy circle near ω = 0 (class Notes)."""
+        r0 = self._zero_radius
+        near = np.abs(omega) < r0
+        if not np.any(near):
+            return self._d_direct(omega)
+        d = np.empty(omega.shape, dtype=complex)
+        dd = np.empty_like(d)
+        far = ~near
+        if np.any(far):
+            d[far], dd[far] = self._d_direct(omega[far])
+        phase = np.exp(2j * np.pi * (np.arange(_N_CIRCLE) + 0.5) / _N_CIRCLE)
+        radius = r0 * (_CIRCLE_FRACTION / _ZERO_FRACTION)
+        dc, _ = self._d_direct(omega[near][:, None] + radius * phase[None, :])
+        d[near] = dc.mean(axis=1)
+        dd[near] = (dc * phase.conj()[None, :]).mean(axis=1) / radius
+        return d, dd
+
+    # ------------------------------------------------------------------ public
+    def __call__(self, omega: Any) -> tuple[np.ndarray, np.ndarray]:
+        """D(ω) and dD/dω.
+
+        Parameters
+        ----------
+        omega : array_like of complex
+            Frequencies [rad/s], any shape.
+
+        Returns
+        -------
+        D, dD_domega : ndarray of complex
+            Shaped like ``omega`` (see the class Notes for the scaling); NaN where ω is
+            not finite.
+        """
+        om = np.asarray(omega, dtype=complex)
+        with np.errstate(all="ignore"):
+            if self.electromagnetic:
+                d, dd = self._d_em(om)
+            else:
+                chi, dchi = self._chi(om)
+                d, dd = 1.0 + chi, dchi
+            bad = ~np.isfinite(om)
+            if np.any(bad):
+                d = np.where(bad, np.nan + 0j, d)
+                dd = np.where(bad, np.nan + 0j, dd)
+        return d, dd
+
+    def value(self, omega: Any) -> np.ndarray:
+        """D(ω) alone (same as ``self(omega)[0]``)."""
+        return self(omega)[0]
+
+    def tensor(self, omega: Any) -> np.ndarray:
+        """The unscaled dielectric object.
+
+        Returns
+        -------
+        ndarray of complex
+            Electromagnetic: Λ = ε − n²(I − k̂k̂) in the (x, y, z) frame, shaped
+            ``omega.shape + (3, 3)`` (ω = 0 is a pole: non-finite there).
+            Electrostatic: the scalar ε_L = D, shaped like ``omega``.
+        """
+        om = np.asarray(omega, dtype=complex)
+        with np.errstate(all="ignore"):
+            chi, _ = self._chi(om)
+            if not self.electromagnetic:
+                return 1.0 + chi
+            khat = np.array([self._sin, 0.0, self._cos])
+            proj = np.eye(3) - np.outer(khat, khat)
+            n2 = (self.k * C_LIGHT / om) ** 2
+            return np.eye(3) + chi - n2[..., None, None] * proj
+
+    def singular_points(
+        self, re_min: float, re_max: float, im_min: float, im_max: float
+    ) -> list[complex]:
+        """Points [rad/s] inside the closed box that the root finder must exclude.
+
+        ω = 0 for electromagnetic models (a zero that the scaling may introduce); for
+        magnetized plasmas with k∥ = 0 exactly, the cyclotron harmonics n Ω_s (n ≠ 0,
+        every species), which are poles of D.  Sorted by real part, without repeats.
+        """
+        pts: set[complex] = set()
+        on_axis = im_min <= 0.0 <= im_max
+        if self.electromagnetic and on_axis and re_min <= 0.0 <= re_max:
+            pts.add(0j)
+        if self.magnetized and self.k_par == 0 and on_axis:
+            for s in self.plasma.species:
+                om_c = abs(s.cyclotron_frequency(self.plasma.B))
+                if om_c == 0:
+                    continue
+                n_lo = math.ceil(re_min / om_c)
+                n_hi = math.floor(re_max / om_c)
+                for n in range(n_lo, n_hi + 1):
+                    if n != 0:
+                        pts.add(complex(n * om_c, 0.0))
+        return sorted(pts, key=lambda z: (z.real, z.imag))
+
+
+def dispersion_in_k(
+    plasma: Plasma,
+    *,
+    omega: float,
+    k: Any,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float = 1e-14,
+) -> tuple[np.ndarray, np.ndarray]:
+    """D and dD/dk at one real frequency, vectorized over complex k (spatial problem).
+
+    Parameters
+    ----------
+    plasma : Plasma
+        Species and B.
+    omega : float
+        Real frequency [rad/s], finite and non-zero.
+    k : array_like of complex
+        Wavenumbers [1/m], any shape; the builders continue analytically from Re k > 0
+        (at Re k ≤ 0 the value is that of the principal branch, not the continuation).
+    angle_deg, model, omega_ref, harmonic_tol
+        As for :class:`Dispersion`; D is the same function as ``Dispersion(...)(omega)``.
+
+    Returns
+    -------
+    D, dD_dk : ndarray of complex
+        Shaped like ``k``; NaN where k is zero or not finite.
+
+    Notes
+    -----
+    Unmagnetized models: every χ_s depends on (ω, k) through ζ = (ω − k∥V)/κ, which is
+    homogeneous of degree 0, times ω⁻² (electromagnetic) or k⁻² (electrostatic), so
+    χ_s is homogeneous of degree −2 and Euler's relation gives, exactly,
+    ∂χ_s/∂k = −(2χ_s + ω ∂χ_s/∂ω)/k.  With ∂n²/∂k = 2n²/k the derivative of M (class
+    Notes) follows, and dD/dk = Σ C_ij ∂M_ij/∂k.  All k are evaluated in one call.
+
+    Magnetized models (no such homogeneity: Ω_s is fixed): one Dispersion per k and
+    dD/dk = (1/(m r)) Σ_j D(k + r e^{iφ_j}) e^{−iφ_j}, φ_j = 2π(j + 1/2)/m, m = 16,
+    r = 1e-3 |k| (Cauchy's formula for the derivative: error of order (r/R)^16 for D
+    analytic within R of k).
+    """
+    kk = np.asarray(k, dtype=complex)
+    om = float(omega)
+    if not math.isfinite(om) or om == 0.0:
+        raise ValueError(f"omega must be finite and non-zero, got {omega!r}")
+    cos, sin = _cos_sin_deg(angle_deg)
+    canonical = _canonical_model(model)
+    bad = ~np.isfinite(kk) | (kk == 0)
+    ksafe = np.where(bad, 1.0, kk)
+    if plasma.magnetized:
+        d, dd = _dispersion_in_k_loop(
+            plasma, om, ksafe, angle_deg, canonical, omega_ref, harmonic_tol
+        )
+    else:
+        d, dd = _dispersion_in_k_unmagnetized(
+            plasma, om, ksafe, cos, sin, canonical, omega_ref
+        )
+    if np.any(bad):
+        d = np.where(bad, np.nan + 0j, d)
+        dd = np.where(bad, np.nan + 0j, dd)
+    return d, dd
+
+
+def _dispersion_in_k_unmagnetized(
+    plasma: Plasma,
+    omega: float,
+    k: np.ndarray,
+    cos: float,
+    sin: float,
+    model: str,
+    omega_ref: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    builder = builder_for(model, False)
+    om = np.full(k.shape, omega, dtype=complex)
+    with np.errstate(all="ignore"):
+        chi = dchi_dk = None
+        for s in plasma.species:
+            res = builder(om, s, k_par=k * cos, k_perp=k * sin, B=0.0)
+            v, dw = np.asarray(res.value), np.asarray(res.derivative)
+            kb = k.reshape(k.shape + (1,) * (v.ndim - k.ndim))
+            dk = -(2.0 * v + omega * dw) / kb
+            chi = v if chi is None else chi + v
+            dchi_dk = dk if dchi_dk is None else dchi_dk + dk
+        assert chi is not None and dchi_dk is not None
+        if model == "electrostatic":
+            return 1.0 + chi, dchi_dk
+        rot = np.array([[cos, 0.0, -sin], [0.0, 1.0, 0.0], [sin, 0.0, cos]])
+        eps = rot @ chi @ rot.T
+        deps = rot @ dchi_dk @ rot.T
+        idx = np.arange(3)
+        eps[..., idx, idx] += 1.0
+        w = omega / omega_ref
+        m = np.empty_like(eps)
+        dm = np.empty_like(eps)
+        m[..., :2, :] = w**2 * eps[..., :2, :]
+        dm[..., :2, :] = w**2 * deps[..., :2, :]
+        m[..., 0, 0] -= (k * C_LIGHT / omega_ref) ** 2
+        m[..., 1, 1] -= (k * C_LIGHT / omega_ref) ** 2
+        dm[..., 0, 0] -= 2.0 * k * (C_LIGHT / omega_ref) ** 2
+        dm[..., 1, 1] -= 2.0 * k * (C_LIGHT / omega_ref) ** 2
+        m[..., 2, :] = eps[..., 2, :]
+        dm[..., 2, :] = deps[..., 2, :]
+        d, cof = _det_and_cofactors(m)
+        return d, np.sum(cof * dm, axis=(-2, -1))
+
+
+def _dispersion_in_k_loop(
+    plasma: Plasma,
+    omega: float,
+    k: np.ndarray,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    phase = np.exp(2j * np.pi * (np.arange(_N_CIRCLE) + 0.5) / _N_CIRCLE)
+    d = np.empty(k.shape, dtype=complex)
+    dd = np.empty(k.shape, dtype=complex)
+    make: Callable[[complex], Dispersion] = lambda kj: Dispersion(  # noqa: E731
+        plasma,
+        k=kj,
+        angle_deg=angle_deg,
+        model=model,
+        omega_ref=omega_ref,
+        harmonic_tol=harmonic_tol,
+    )
+    for idx in np.ndindex(k.shape):
+        kj = complex(k[idx])
+        d[idx] = make(kj).value(np.array([omega]))[0]
+        r = _K_FRACTION * abs(kj)
+        vals = np.array([make(kj + r * ph).value(np.array([omega]))[0] for ph in phase])
+        dd[idx] = np.mean(vals * phase.conj()) / r
+    return d, dd
