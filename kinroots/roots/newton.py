@@ -105,6 +105,11 @@ def _newton_steps(
         z, fz, dfz = z_new, f_new, df_new
 
 
+def _multiple_rtol(m: int) -> float:
+    """Attainable relative accuracy of a zero of multiplicity m: 4·eps^(1/m)."""
+    return 4.0 * np.finfo(float).eps ** (1.0 / m)
+
+
 def _size(corr: complex, z: complex) -> float:
     a = abs(corr)
     return a / abs(z) if abs(z) > 1.0 else a
@@ -142,7 +147,11 @@ def polish(
     rtol, atol : float
         Stopping test ``|Δz| ≤ atol + rtol·|z|`` on the Newton correction computed at
         the reported value (so a converged value is within about that distance of a
-        zero, and its residual is small on the scale ``|f'|·(atol + rtol|z|)``).
+        zero, and its residual is small on the scale ``|f'|·(atol + rtol|z|)``).  For a
+        zero of multiplicity m > 1, Newton that stalls at the noise floor (or runs out
+        of steps) still counts as converged if its correction is below
+        ``4·eps^(1/m)·|z|`` (≈ 6e-8 relative for a double zero), the accuracy to which
+        double-precision values of f determine such a zero.
     maxiter : int
         Largest number of Newton corrections.
     multiplicity : int
@@ -168,7 +177,17 @@ def polish(
     status, reason = Status.MAX_ITER, f"no convergence in {maxiter} Newton steps"
     for it in _newton_steps(func, complex(z0), multiplicity, detect_multiplicity):
         last = it
+        tol = atol + rtol * abs(it.z)
+        # a zero of multiplicity m is fixed by double-precision values of f only to about
+        # eps^(1/m) relative (common practice in numerical analysis): when Newton stalls
+        # or runs out of steps at that noise floor, the zero counts as converged
+        floor_tol = (max(tol, atol + _multiple_rtol(it.multiplicity) * abs(it.z))
+                     if it.multiplicity > 1 else tol)
         if it.problem is not None:
+            if (it.problem is Status.STALLED and it.multiplicity > 1
+                    and abs(it.correction) <= floor_tol):
+                status, reason = Status.CONVERGED, ""
+                break
             status, reason = it.problem, it.reason
             break
         if not _inside(it.z, region):
@@ -177,10 +196,12 @@ def polish(
         if abs(it.z) > _HUGE:
             status, reason = Status.DIVERGED, f"iterate ran away to |z| = {abs(it.z):.3g}"
             break
-        if abs(it.correction) <= atol + rtol * abs(it.z):
+        if abs(it.correction) <= tol:
             status, reason = Status.CONVERGED, ""
             break
         if tol_iter >= maxiter:
+            if it.multiplicity > 1 and abs(it.correction) <= floor_tol:
+                status, reason = Status.CONVERGED, ""
             break
         tol_iter += 1
     assert last is not None
