@@ -45,6 +45,7 @@ __all__ = [
     "REQUIRED",
     "Case",
     "CaseError",
+    "LaunchSpec",
     "ScanSpec",
     "SolverOptions",
     "default_case_path",
@@ -80,6 +81,17 @@ DEFAULTS: dict[str, Any] = {
     "solver.tolerance": 1e-10,
     "solver.harmonic_tolerance": 1e-14,
     "solver.resurvey_every": 10,
+    "species[].collision_frequency": 0.0,
+    "launch.k_real": "[0.01, 2.0] (normalized k, see [units])",
+    "launch.k_imag": "[-0.01, 0.5] (normalized k)",
+    "launch.frequency.spacing": "linear",
+    # [sweep] and [threshold] (optional tables; see kinroots.parameters)
+    "sweep.x.spacing": "linear",
+    "sweep.y": "<none: one-parameter sweep>",
+    "sweep.growth_levels": [],
+    "sweep.angles": "<[wave.angle]>",
+    "threshold.across": "<the [sweep] axis that is not threshold.parameter>",
+    "threshold.angles": "<sweep.angles, else [wave.angle]>",
 }
 
 #: Relative tolerance of the quasi-neutrality and zero-current checks (warnings).
@@ -87,7 +99,10 @@ NEUTRALITY_RTOL: float = 1e-6
 #: Thermal or drift speeds above this fraction of c earn a warning (non-relativistic).
 RELATIVISTIC_WARNING: float = 0.1
 
-_TOP_KEYS = ("title", "magnetic_field", "species", "wave", "scan", "units", "search", "solver")
+_TOP_KEYS = (
+    "title", "magnetic_field", "species", "wave", "scan", "units", "search", "solver", "launch",
+    "sweep", "threshold",
+)
 _SPECIES_KEYS = (
     "name",
     "charge",
@@ -97,6 +112,7 @@ _SPECIES_KEYS = (
     "temperature_par",
     "temperature_perp",
     "drift",
+    "collision_frequency",
 )
 _TABLE_KEYS: dict[str, tuple[str, ...]] = {
     "magnetic_field": ("B",),
@@ -106,6 +122,8 @@ _TABLE_KEYS: dict[str, tuple[str, ...]] = {
     "units": ("frequency", "length"),
     "search": ("real", "imag"),
     "solver": ("tolerance", "harmonic_tolerance", "resurvey_every"),
+    "launch": ("frequency", "k_real", "k_imag"),
+    "launch.frequency": ("start", "stop", "points", "spacing"),
 }
 _MODELS = ("electrostatic", "electromagnetic")
 _SPACINGS = ("linear", "log")
@@ -156,6 +174,23 @@ class SolverOptions:
     resurvey_every: int = 10
 
 
+@dataclass(frozen=True)
+class LaunchSpec:
+    """The ``[launch]`` table: real driving frequencies [Hz] and a complex-k search box.
+
+    Attributes
+    ----------
+    frequencies_hz : tuple of float
+        Driving frequencies f [Hz], increasing.
+    k_real, k_imag : (float, float)
+        Search box of the spatial problem in normalized k (Re k > 0).
+    """
+
+    frequencies_hz: tuple[float, ...]
+    k_real: tuple[float, float] = (0.01, 2.0)
+    k_imag: tuple[float, float] = (-0.01, 0.5)
+
+
 @dataclass(frozen=True, eq=False)
 class Case:
     """A validated case.  Numbers in ``k_values``, search windows: normalized units."""
@@ -173,6 +208,11 @@ class Case:
     source: Path | None
     raw: dict[str, Any] = field(repr=False)
     warnings: tuple[str, ...] = ()
+    #: ``[sweep]`` table (kinroots.parameters.SweepSpec) or None.
+    sweep: Any = None
+    #: ``[threshold]`` table (kinroots.parameters.ThresholdSpec) or None.
+    threshold: Any = None
+    launch: LaunchSpec | None = None
 
     @property
     def magnetized(self) -> bool:
@@ -444,12 +484,22 @@ def _check_species(chk: _Checker, data: Any) -> list[Species | None]:
             required=False,
             check=lambda x: abs(x) < C_LIGHT,
         )
+        nu = chk.number(
+            entry,
+            "collision_frequency",
+            f"{p}.collision_frequency",
+            "a number >= 0 (1/s)",
+            default=0.0,
+            required=False,
+            check=lambda x: x >= 0,
+        )
         if len(chk.errors) > n_errors:
             out.append(None)
             continue
         assert charge is not None and mass is not None and density is not None
         assert t_par is not None and t_perp is not None and drift is not None
-        out.append(Species(str(name), charge, mass, density, t_par, t_perp, drift))
+        assert nu is not None
+        out.append(Species(str(name), charge, mass, density, t_par, t_perp, drift, nu))
     return out
 
 
@@ -595,6 +645,17 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
     imag = chk.window(search, "imag", "search.imag") if "search" in data else None
 
     solver = _check_solver(chk, data)
+    launch = _check_launch(chk, data)
+    for i, s in enumerate(species, start=1):
+        if s is not None and s.collision_frequency > 0 and (
+            model == "electromagnetic" or (B is not None and B != 0.0)
+        ):
+            chk.error(
+                f"species[{i}].collision_frequency",
+                f"got {s.collision_frequency!r}, but collisions (Krook model) are available "
+                "only for the unmagnetized electrostatic model; expected 0 here, or "
+                'wave.model = "electrostatic" with magnetic_field.B = 0',
+            )
 
     # units: need the species names (validated or not) and B
     units_tab = chk.table(data, "units", "units", required=False) or {}
@@ -624,6 +685,11 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
                         else '"debye:<species>" or "inertial:<species>"'
                     ),
                 )
+
+    # [sweep] / [threshold]: validated by kinroots.parameters (lazy import: it imports us)
+    from kinroots.parameters import check_study_tables
+
+    sweep_spec, threshold_spec = check_study_tables(chk, data, names)
 
     if chk.errors:
         raise CaseError(chk.errors)
@@ -659,6 +725,9 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         source=None,
         raw=data,
         warnings=tuple(_physics_warnings(plasma)),
+        launch=launch,
+        sweep=sweep_spec,
+        threshold=threshold_spec,
     )
 
 
@@ -691,6 +760,60 @@ def _check_scan(chk: _Checker, data: Mapping[str, Any]) -> ScanSpec | None:
     if start is None or stop is None or points is None or spacing is None:
         return None
     return ScanSpec(start, stop, points, spacing)
+
+
+def _check_launch(chk: _Checker, data: Mapping[str, Any]) -> LaunchSpec | None:
+    """The optional ``[launch]`` table (driving frequencies in Hz, complex-k box)."""
+    tab = chk.table(data, "launch", "launch", required=False)
+    if tab is None:
+        return None
+    chk.unknown_keys(tab, _TABLE_KEYS["launch"], "launch")
+    expected = (
+        "a table { start = ..., stop = ..., points = ... } in Hz, or an array of "
+        "frequencies > 0 in Hz"
+    )
+    freqs: list[float] | None = None
+    if "frequency" not in tab:
+        chk.missing("launch.frequency", expected)
+    elif isinstance(tab["frequency"], list):
+        values = tab["frequency"]
+        good = values and all(
+            not isinstance(v, bool) and isinstance(v, int | float) and math.isfinite(v) and v > 0
+            for v in values
+        )
+        if not good:
+            chk.bad("launch.frequency", values, expected)
+        elif any(b <= a for a, b in zip(values, values[1:], strict=False)):
+            chk.bad("launch.frequency", values, "frequencies in increasing order")
+        else:
+            freqs = [float(v) for v in values]
+    elif isinstance(tab["frequency"], dict):
+        f = tab["frequency"]
+        p = "launch.frequency"
+        chk.unknown_keys(f, _TABLE_KEYS["launch.frequency"], p)
+        start = chk.number(f, "start", f"{p}.start", "a number > 0 (Hz)", check=lambda x: x > 0)
+        stop = chk.number(f, "stop", f"{p}.stop", "a number > 0 (Hz)", check=lambda x: x > 0)
+        points = chk.integer(f, "points", f"{p}.points", "an integer >= 1", minimum=1)
+        spacing = chk.choice(f, "spacing", f"{p}.spacing", _SPACINGS, default="linear",
+                             required=False)
+        if start is not None and stop is not None and points is not None and spacing:
+            if points > 1 and not start < stop:
+                chk.error(p, f"got start = {start!r}, stop = {stop!r}, expected start < stop")
+            else:
+                grid = np.geomspace if spacing == "log" else np.linspace
+                freqs = [float(x) for x in grid(start, stop, points)] if points > 1 else [start]
+    else:
+        chk.bad("launch.frequency", tab["frequency"], expected)
+    boxes = []
+    for key, default in (("k_real", (0.01, 2.0)), ("k_imag", (-0.01, 0.5))):
+        boxes.append(chk.window(tab, key, f"launch.{key}") if key in tab else default)
+    if boxes[0] is not None and boxes[0][0] <= 0:
+        chk.error("launch.k_real", f"got {list(boxes[0])!r}, expected 0 < min < max "
+                  "(the spatial search box lies in Re k > 0)")
+        return None
+    if freqs is None or boxes[0] is None or boxes[1] is None:
+        return None
+    return LaunchSpec(tuple(freqs), boxes[0], boxes[1])
 
 
 def _check_solver(chk: _Checker, data: Mapping[str, Any]) -> SolverOptions:

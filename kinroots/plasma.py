@@ -67,6 +67,10 @@ class Species:
         Temperatures along and across B [eV]. Equal for an isotropic species.
     drift : float
         Drift speed along z [m/s].
+    collision_frequency : float
+        Number-conserving Krook (BGK) collision frequency ν_s [1/s], ≥ 0 (default 0:
+        collisionless).  Used by the unmagnetized electrostatic model only; see
+        :mod:`kinroots.models.krook`.
     """
 
     name: str
@@ -76,6 +80,7 @@ class Species:
     temperature_par: float
     temperature_perp: float
     drift: float = 0.0
+    collision_frequency: float = 0.0
 
     @property
     def charge(self) -> float:

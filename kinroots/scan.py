@@ -81,6 +81,12 @@ class NormalizedDispersion:
     dispersion: Dispersion
 
     def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        # Newton steps may leave the window into regions where D overflows: the
+        # non-finite values are handled (reported) by the root layer, not warned about.
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self._call(omega)
+
+    def _call(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         w_u = self.dispersion.omega_ref
         disp = self.dispersion
         if krook.collisional(disp.plasma) and not disp.electromagnetic and not disp.magnetized:
@@ -115,7 +121,12 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     """Every root of D in the window (or ``box``) at normalized ``k``."""
     f = function_at(case, k)
     b = window(case) if box is None else box
-    return find_roots(f, b, excluded=f.excluded(b), rtol=case.solver.tolerance)
+    # The root layer may shift an edge outward (a root or pole on it): list the excluded
+    # points of a margin around the box too, so a shifted edge never swallows an unlisted
+    # pole.
+    dr, di = 0.05 * (b[1] - b[0]), 0.05 * (b[3] - b[2])
+    wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
+    return find_roots(f, b, excluded=f.excluded(wide), rtol=case.solver.tolerance)
 
 
 @dataclass
@@ -475,6 +486,11 @@ class SpatialFunction:
     omega: float
 
     def __call__(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        # overflow far from the window gives non-finite values, reported by the root layer
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self._call(k)
+
+    def _call(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         units = self.case.units
         L = units.length_unit
         plasma = self.case.plasma

@@ -35,7 +35,24 @@ ROOT_COLUMNS: tuple[str, ...] = (
     "evaluations",
     "status",
     "reason",
+    # mode identity (kinroots.modes); then one density_abs_<s>, density_phase_deg_<s>
+    # pair per species, appended by rows_to_csv (see PER_SPECIES_PREFIXES)
+    "e_x_re",
+    "e_x_im",
+    "e_y_re",
+    "e_y_im",
+    "e_z_re",
+    "e_z_im",
+    "handedness",
+    "db_c_over_de",
+    "magnetic_compressibility",
+    "electrostatic_fraction",
 )
+
+#: Row keys with these prefixes are appended (in first-seen order) after the columns of
+#: :data:`ROOT_COLUMNS` when that default column set is used: per-species columns whose
+#: names depend on the case.
+PER_SPECIES_PREFIXES: tuple[str, ...] = ("density_abs_", "density_phase_deg_")
 
 #: Cells left empty when a point did not converge.
 VALUE_COLUMNS: frozenset[str] = frozenset(
@@ -106,8 +123,17 @@ def atomic_write_bytes(path: Path, data: bytes) -> None:
 def rows_to_csv(rows: Iterable[Mapping[str, Any]], columns: Sequence[str] = ROOT_COLUMNS) -> str:
     """Render rows (mappings from column name to value) as CSV text.
 
-    Rows with ``converged`` false get empty cells in :data:`VALUE_COLUMNS`.
+    Rows with ``converged`` false get empty cells in :data:`VALUE_COLUMNS`.  With the
+    default columns, per-species keys (:data:`PER_SPECIES_PREFIXES`) are appended.
     """
+    if columns is ROOT_COLUMNS:
+        rows = list(rows)
+        extra: dict[str, None] = {}
+        for row in rows:
+            for key in row:
+                if key.startswith(PER_SPECIES_PREFIXES) and key not in columns:
+                    extra[key] = None
+        columns = (*columns, *extra)
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(columns)
