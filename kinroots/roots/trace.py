@@ -272,8 +272,11 @@ class Tracer:
         return max(100 * (self.atol + self.rtol * abs(z)), 1e-10 * self.diameter)
 
     def _correct(self, f: AnalyticFunction, b: Branch, z0: complex) -> RootResult:
+        # a branch that started as a multiple zero (e.g. two degenerate polarizations)
+        # is corrected with modified Newton of that multiplicity
+        m = b.points[0][1].multiplicity if b.points else 1
         r = polish(f, z0, rtol=self.rtol, atol=self.atol, maxiter=self.maxiter,
-                   detect_multiplicity=False, method="trace")
+                   multiplicity=max(1, m), detect_multiplicity=False, method="trace")
         b.evaluations += r.evaluations
         return r
 
