@@ -90,7 +90,10 @@ def weibel_gamma(a: float, k: float) -> float:
     assert s.complete and len(s.roots) == 1, s.notes
     r = s.roots[0]
     assert r.converged and r.multiplicity == 2, r
-    assert abs(r.value.real) < 1e-12
+    # a double zero is fixed by double-precision values of D only to about sqrt(eps)
+    # times the frequency scale of D's structure, here k w∥ ≲ 0.05 ω_pe (common practice
+    # in numerical analysis): 1e-9 ω_pe is that floor
+    assert abs(r.value.real) < 1e-9
     return r.value.imag
 
 
