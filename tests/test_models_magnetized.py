@@ -491,3 +491,90 @@ def test_complex_k_is_analytic():
         d_re = (f(k0 + h) - f(k0 - h)) / (2 * h)
         d_im = (f(k0 + 1j * h) - f(k0 - 1j * h)) / (2j * h)
         assert np.allclose(d_re, d_im, rtol=1e-6, atol=1e-6 * np.abs(d_re).max())
+
+
+# ------------------------------------------------------------- scaled tensor near ω = 0
+def _mp_scaled(omega, species, k_par, k_perp, B, omega_ref):
+    """S = diag(w, w, 1) R(I + Σχ_s)Rᵀ diag(w, w, 1) − (kc/ω_ref)² diag(1, 1, 0) at
+    mpmath precision from the Stix integral form above (40 digits; R: rows e₁, e₂, k̂)."""
+    k = mp.sqrt(mp.mpf(k_par) ** 2 + mp.mpf(k_perp) ** 2)
+    c, s = mp.mpf(k_par) / k, mp.mpf(k_perp) / k
+    chi = mp.eye(3)
+    for sp in species:
+        chi += _mp_species_tensor(omega, sp, k_par, k_perp, B, nmax=40)
+    rot = mp.matrix([[c, 0, -s], [0, 1, 0], [s, 0, c]])
+    lam = rot * chi * rot.T
+    w = mp.mpc(omega) / omega_ref
+    dg = [w, w, 1]
+    out = mp.matrix(3, 3)
+    for i in range(3):
+        for j in range(3):
+            out[i, j] = dg[i] * lam[i, j] * dg[j]
+    n2 = (k * mp.mpf(299792458) / omega_ref) ** 2
+    out[0, 0] -= n2
+    out[1, 1] -= n2
+    return out
+
+
+@pytest.mark.parametrize(("k_par", "k_perp"), [(300.0, 600.0), (60.0, 800.0), (700.0, 40.0)])
+def test_scaled_d_near_zero_against_mpmath(k_par, k_perp):
+    """The scaled matrix S and D = det S of Dispersion at ω = 1e-3 F and 1e-5 F (F the
+    slowest frequency scale) for anisotropic, counter-drifting electrons and protons,
+    against the mpmath Stix integral form at 40 digits (Z via erfc, Bessel via besseli;
+    Stix 1992 eqs. 10-48, 10-57, from memory): every entry to 1e-13 of itself (or 1e-13
+    of the largest entry of its row when it is genuinely tiny), D to 1e-12 of the largest
+    term of its expansion.  The former χ-times-ω² evaluation lost ~2e-3 here at 1e-5 F."""
+    from itertools import permutations
+
+    from kinroots.dispersion import Dispersion
+    from kinroots.plasma import Plasma
+
+    sps = (
+        Species("e", -1, M_ELECTRON, 1.1e19, 100.0, 300.0, 2.0e5),
+        Species("p", 1, M_PROTON, 0.9e19, 50.0, 120.0, -3.0e5),
+    )
+    om_ref = PROTON.cyclotron_frequency(B0)
+    k = float(np.hypot(k_par, k_perp))
+    angle = float(np.degrees(np.arctan2(k_perp, k_par)))
+    disp = Dispersion(Plasma(sps, B=B0), k=k, angle_deg=angle, model="em", omega_ref=om_ref)
+    for frac in (1e-3, 1e-5):
+        om = disp.frequency_scale * frac * (1.0 + 0.3j)
+        got, _ = disp._scaled(np.array([om]))
+        d = disp.value(np.array([om]))[0]
+        with mp.workdps(40):
+            ref_mp = _mp_scaled(om, sps, disp.k_par.real, disp.k_perp.real, B0, om_ref)
+            d_ref = complex(mp.det(ref_mp))
+            ref = np.array([[complex(ref_mp[i, j]) for j in range(3)] for i in range(3)])
+        tol = 1e-13 * np.maximum(np.abs(ref), 1e-3 * np.abs(ref).max(axis=1, keepdims=True))
+        assert np.all(np.abs(got[0] - ref) <= tol), (frac, np.abs(got[0] - ref) / np.abs(ref))
+        terms = max(abs(np.prod([ref[i, p[i]] for i in range(3)])) for p in permutations(range(3)))
+        assert abs(d - d_ref) <= 1e-12 * terms, (frac, abs(d - d_ref) / terms)
+
+
+def test_scaled_is_symmetric_scaling_of_chi():
+    """scaled_susceptibility = diag(w, w, 1) R χ Rᵀ diag(w, w, 1) and its ω-derivative
+    (definition; R rows e₁, e₂, k̂), at moderate ω where the plain χ is accurate."""
+    om_ref = PROTON.cyclotron_frequency(B0)
+    om = om_ref * np.array([1.4 + 0.1j, 0.6 - 0.15j, 2.3 + 0.0j])
+    for k_par, k_perp in [(300.0, 600.0), (0.0, 600.0), (-200.0, 500.0), (400.0, 0.0)]:
+        k = np.hypot(k_par, k_perp)
+        c, s = k_par / k, k_perp / k
+        rot = np.array([[c, 0, -s], [0, 1, 0], [s, 0, c]])
+        for sp in THREE:
+            r = em.susceptibility(om, sp, k_par=k_par, k_perp=k_perp, B=B0)
+            chi, dchi = rot @ r.value @ rot.T, rot @ r.derivative @ rot.T
+            w = om / om_ref
+            dg = np.stack([w, w, np.ones_like(w)], axis=1)
+            ddg = np.stack([np.ones_like(w), np.ones_like(w), 0 * w], axis=1) / om_ref
+            ref = dg[:, :, None] * chi * dg[:, None, :]
+            dref = (ddg[:, :, None] * chi * dg[:, None, :] + dg[:, :, None] * chi * ddg[:, None, :]
+                    + dg[:, :, None] * dchi * dg[:, None, :])
+            got = em.scaled_susceptibility(om, sp, k_par=k_par, k_perp=k_perp, B=B0,
+                                           omega_ref=om_ref)
+            scale = np.abs(ref).max(axis=(1, 2))[:, None, None]
+            dscale = np.abs(dref).max(axis=(1, 2))[:, None, None]
+            assert np.all(np.abs(got.value - ref) <= 1e-11 * scale)
+            assert np.all(np.abs(got.derivative - dref) <= 1e-9 * dscale)
+            zero = em.scaled_susceptibility(np.array([0j]), sp, k_par=k_par, k_perp=k_perp,
+                                            B=B0, omega_ref=om_ref)
+            assert np.isfinite(zero.value).all() and np.isfinite(zero.derivative).all()

@@ -413,3 +413,81 @@ def test_broadcast_over_k() -> None:
     for n, kn in enumerate(k):
         one = em_unmagnetized.susceptibility(om, sp, k_par=0.6 * kn, k_perp=0.8 * kn)
         np.testing.assert_allclose(res.value[n], one.value[0], rtol=1e-15)
+
+
+# ------------------------------------------------------------- scaled tensor near ω = 0
+def _mp_chi_em(omega: complex, sp: Species, k_par: float, k_perp: float) -> mp.matrix:
+    """χ_ij = (ω_p²/ω²) B_ij of the em_unmagnetized docstring (Krall & Trivelpiece 1973,
+    ch. 9, from memory) evaluated term by term in mpmath, Z from erfc."""
+    wpar2 = 2 * mp.mpf(sp.temperature_par) * mp.mpf(EV) / mp.mpf(sp.mass)
+    wperp2 = 2 * mp.mpf(sp.temperature_perp) * mp.mpf(EV) / mp.mpf(sp.mass)
+    kpar, kperp, v = mp.mpf(k_par), mp.mpf(k_perp), mp.mpf(sp.drift)
+    kap2 = kperp**2 * wperp2 + kpar**2 * wpar2
+    kap = mp.sqrt(kap2)
+    zeta = (mp.mpc(omega) - kpar * v) / kap
+    zf = z_mpmath(zeta)
+    m1 = -(1 + zeta * zf)
+    m = [-zf, m1, zeta * m1, -mp.mpf(1) / 2 + zeta**2 * m1]
+    beta = [kperp * wperp2 / kap, 0, kpar * wpar2 / kap]
+    vv = [0, 0, v]
+    aniso = (wpar2 - wperp2) * kperp * kpar / (2 * kap2)
+    g = [aniso * kpar, 0, -aniso * kperp]
+    e = [kpar, 0, -kperp]
+    q = (kpar**2 + kperp**2) / kap2
+    wp2 = mp.mpf(sp.density) * mp.mpf(1.602176634e-19) ** 2 / (mp.mpf(EPS0) * mp.mpf(sp.mass))
+    out = mp.matrix(3, 3)
+    for i in range(3):
+        for j in range(3):
+            c = wperp2 * wpar2 / (2 * kap2) * e[i] * e[j] + (wperp2 / 2 if i == j == 1 else 0)
+            b = -(1 if i == j else 0) - 2 * (
+                q * (beta[i] * beta[j] * m[3] + (beta[i] * vv[j] + vv[i] * beta[j]) * m[2]
+                     + vv[i] * vv[j] * m[1] + c * m[1])
+                + (g[j] * (beta[i] * m[1] + vv[i] * m[0]) + g[i] * (beta[j] * m[1] + vv[j] * m[0]))
+                / kap)
+            out[i, j] = wp2 / mp.mpc(omega) ** 2 * b
+    return out
+
+
+@pytest.mark.parametrize("angle", [0.0, 35.0, 90.0, 140.0])
+def test_scaled_d_near_zero_against_mpmath(angle: float) -> None:
+    # Source: the closed form χ_ij = (ω_p²/ω²)B_ij (Krall & Trivelpiece 1973, ch. 9, from
+    # memory) evaluated in mpmath at 40 digits (Z via erfc, Fried & Conte 1961), where
+    # the cancellations near ω = 0 are harmless; compared with Dispersion's scaled matrix
+    # S = diag(w, w, 1) R Λ Rᵀ diag(w, w, 1) and D = det S at ω = 1e-3 F and 1e-5 F
+    # (F the slowest frequency scale), anisotropic and drifting electrons and protons.
+    from itertools import permutations
+
+    from kinroots.dispersion import Dispersion
+    from kinroots.plasma import C_LIGHT, Plasma
+
+    sps = (electron(2.0, 5.0, 4e5), proton(0.5, 0.2, -1e5))
+    wpe = sps[0].plasma_frequency
+    k = 0.4 * wpe / sps[0].thermal_speed_par
+    disp = Dispersion(Plasma(sps), k=k, angle_deg=angle, model="em", omega_ref=wpe)
+    k_par, k_perp = disp.k_par.real, disp.k_perp.real
+    for frac in (1e-3, 1e-5):
+        om = disp.frequency_scale * frac * (1.0 - 0.4j)
+        got, _ = disp._scaled(np.array([om]))
+        d = disp.value(np.array([om]))[0]
+        with mp.workdps(40):
+            chi = mp.eye(3)
+            for sp in sps:
+                chi += _mp_chi_em(om, sp, k_par, k_perp)
+            # the frame of the builders: e₁ = (k∥, 0, −k⊥)/|k|, k̂ = (k⊥, 0, k∥)/|k|
+            kk = mp.sqrt(mp.mpf(k_par) ** 2 + mp.mpf(k_perp) ** 2)
+            cos, sin = mp.mpf(k_par) / kk, mp.mpf(k_perp) / kk
+            rot = mp.matrix([[cos, 0, -sin], [0, 1, 0], [sin, 0, cos]])
+            lam = rot * chi * rot.T
+            w = mp.mpc(om) / wpe
+            dg = [w, w, 1]
+            n2 = (mp.mpf(disp.k.real) * mp.mpf(C_LIGHT) / wpe) ** 2
+            s = mp.matrix(3, 3)
+            for i in range(3):
+                for j in range(3):
+                    s[i, j] = dg[i] * lam[i, j] * dg[j] - (n2 if i == j < 2 else 0)
+            d_ref = complex(mp.det(s))
+            ref = np.array([[complex(s[i, j]) for j in range(3)] for i in range(3)])
+        tol = 1e-13 * np.maximum(np.abs(ref), 1e-3 * np.abs(ref).max(axis=1, keepdims=True))
+        assert np.all(np.abs(got[0] - ref) <= tol), (frac, np.abs(got[0] - ref) / np.abs(ref))
+        terms = max(abs(np.prod([ref[i, p[i]] for i in range(3)])) for p in permutations(range(3)))
+        assert abs(d - d_ref) <= 1e-12 * terms, (frac, abs(d - d_ref) / terms)

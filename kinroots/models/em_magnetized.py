@@ -14,7 +14,7 @@ from kinroots.models.base import Susceptibility
 from kinroots.plasma import Species
 from kinroots.zfunc import plasma_z_and_prime
 
-__all__ = ["susceptibility"]
+__all__ = ["scaled_susceptibility", "susceptibility"]
 
 
 def _nan_result(shape: tuple[int, ...], harmonics: int) -> Susceptibility:
@@ -238,3 +238,248 @@ def susceptibility(
             value[bad] = np.nan
             derivative[bad] = np.nan
     return Susceptibility(value=value, derivative=derivative, harmonics=w.harmonics)
+
+
+def _frame(kpar: complex, kperp: complex) -> tuple[complex, complex, complex]:
+    """k = √(k∥² + k⊥²) and the frame cosines k∥/k, k⊥/k (e₁ = (c, 0, −s), k̂ = (s, 0, c))."""
+    k = complex(np.sqrt(kpar * kpar + kperp * kperp))
+    return k, kpar / k, kperp / k
+
+
+def _project(core: np.ndarray, h_row: np.ndarray, c: complex, s: complex) -> np.ndarray:
+    """Wave-frame tensor from the xyz ``core`` (TT block) and the row k·core/ω (L row/col)."""
+    out = np.empty(core.shape, dtype=complex)
+    xx, xy, xz = core[..., 0, 0], core[..., 0, 1], core[..., 0, 2]
+    yx, yy, yz = core[..., 1, 0], core[..., 1, 1], core[..., 1, 2]
+    zx, zy, zz = core[..., 2, 0], core[..., 2, 1], core[..., 2, 2]
+    out[..., 0, 0] = c * c * xx - c * s * (xz + zx) + s * s * zz
+    out[..., 0, 1] = c * xy - s * zy
+    out[..., 1, 0] = c * yx - s * yz
+    out[..., 1, 1] = yy
+    hx, hy, hz = h_row[..., 0], h_row[..., 1], h_row[..., 2]
+    out[..., 2, 0] = c * hx - s * hz  # row: (k·core)·e₁/ω
+    out[..., 2, 1] = hy
+    out[..., 0, 2] = c * hx - s * hz  # column: e₁·(core·k)/ω, (core·k)_y = −(k·core)_y
+    out[..., 1, 2] = -hy
+    return out
+
+
+def scaled_susceptibility(
+    omega: np.ndarray,
+    species: Species,
+    /,
+    *,
+    k_par: complex,
+    k_perp: complex,
+    B: float,
+    tol: float = 1e-14,
+    omega_ref: float = 1.0,
+) -> Susceptibility:
+    r"""χ_s in the wave frame, scaled so that it is entire in ω and finite at ω = 0.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        Angular frequency ω [rad/s], any shape; ω = 0 is allowed.
+    species, k_par, k_perp, B, tol
+        As for :func:`susceptibility`.
+    omega_ref : float
+        Reference frequency [rad/s] of w = ω/ω_ref.
+
+    Returns
+    -------
+    Susceptibility
+        ``value`` = S_s = diag(w, w, 1) χ'_s diag(w, w, 1), ``derivative`` = dS_s/dω,
+        each ``omega.shape + (3, 3)``, χ'_s = χ_s in the frame e₁ = (k∥, 0, −k⊥)/k,
+        e₂ = ŷ, e₃ = k̂ = (k⊥, 0, k∥)/k; ``harmonics`` as for :func:`susceptibility`.
+
+    Notes
+    -----
+    χ = P·T with P = ω_p²/ω² and T the sums of :func:`susceptibility` (same symbols).
+    Three rewritings remove every cancellation that grows as ω → 0 (this module's own
+    algebra from the formulas there, using Σ_n g_n = Σ_n Γ_n' = Σ_n nΓ_n = 0):
+
+    1. Φ_n = −[u Z_n + (τ − 1) F_n], u = (ω − k∥V)/a, instead of 1 − (nΩ/a)Z_n − τF_n
+       (equal because F_n − 1 = ζ_n Z_n): it is O(ω) for an isotropic, non-drifting
+       species and is now a sum of products, not a difference of O(1) terms.
+    2. Contraction with k (charge continuity) gives one factor ω exactly::
+
+           (k·T)_x = −ω (k⊥/Ω) Σ g_n Φ_n,     (k·T)_y = −iω (k⊥/Ω) Σ Γ_n' Φ_n,
+           (k·T)_z = (2ω/(k∥w∥²)) [ω Σ Γ_n F_n + (Ω/τ) Σ nΓ_n((1 − τ)F_n + (V/w∥)Z_n)],
+           (T·k)_x,z = (k·T)_x,z,   (T·k)_y = −(k·T)_y,
+
+       (from Y_n/Ω − nΦ_n = (ω/Ω)(1 − Φ_n) and nΩY_n/τ + M_n = ω c_n F_n +
+       (nΩ/τ)[ω(F_n + (V/w∥)Z_n) + k∥V]), so that S_3a = (ω_p²/(ω_ref k²)) (k·T)·e_a/ω·k
+       and S_a3 likewise carry no 1/ω.
+    3. A second contraction gives the longitudinal element as the electrostatic form::
+
+           S_33 = χ_LL = (2ω_p²/(k²w∥²)) Σ Γ_n [F_n + (nΩ/(τa)) Z_n]
+
+       (isotropic: (2ω_p²/(k²w²))[1 + (ω/a) Σ Γ_n Z_n], Stix 1992, ch. 11, from memory).
+
+    The transverse block is S_ab = (ω_p²/ω_ref²) e_a·T·e_b.  Exact k∥ = 0 uses the
+    rational limits of :func:`susceptibility` with the harmonics ±n paired analytically,
+    1/(ω − nΩ) ± 1/(ω + nΩ) = {2ω, 2nΩ}/(ω² − n²Ω²), so that ω = 0 is finite there too.
+
+    What is not rewritten: the sums over ±n of the remaining terms are added harmonic
+    by harmonic, so a transverse entry whose genuine value is O(ω²/Ω²) of its terms
+    (the cold-limit χ_xx of a species at ω ≪ |Ω|) carries an absolute error of about
+    ε·(ω/Ω) times those terms; that error does not grow as ω → 0.
+
+    References
+    ----------
+    T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 10–11, from memory.
+    """
+    om = np.asarray(omega, dtype=complex)
+    if B == 0:
+        raise ValueError("em_magnetized needs B != 0; use the unmagnetized model for B = 0")
+    kpar = complex(k_par)
+    kperp = complex(k_perp)
+    wpar = species.thermal_speed_par if species.temperature_par > 0 else np.nan
+    wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
+    V = float(species.drift)
+    with np.errstate(all="ignore"):
+        omega_c = species.cyclotron_frequency(B)
+        lam = kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
+        k, cth, sth = _frame(kpar, kperp)
+    finite_in = all(np.isfinite(x) for x in (kpar, kperp, B, wpar, wperp, omega_c, V))
+    if not finite_in:
+        return _nan_result(om.shape, 0)
+    w = bessel_weights(lam, tol)
+    if not w.converged:
+        return _nan_result(om.shape, w.harmonics)
+    wp2 = species.plasma_frequency**2
+    tau = species.temperature_perp / species.temperature_par
+    with np.errstate(all="ignore"):
+        if kpar == 0:
+            core, dcore, h, dh, s33, ds33 = _perpendicular_parts(om, w, lam, kperp, omega_c, V,
+                                                                 wpar, wperp)
+        else:
+            core, dcore, h, dh, s33, ds33 = _oblique_parts(om, w, lam, kpar, kperp, omega_c,
+                                                           V, wpar, tau)
+        value = _project(core, h, cth, sth)
+        deriv = _project(dcore, dh, cth, sth)
+        s_t = wp2 / omega_ref**2
+        s_l = wp2 / (omega_ref * k)
+        value[..., :2, :2] *= s_t
+        deriv[..., :2, :2] *= s_t
+        value[..., 2, :2] *= s_l
+        value[..., :2, 2] *= s_l
+        deriv[..., 2, :2] *= s_l
+        deriv[..., :2, 2] *= s_l
+        value[..., 2, 2] = (wp2 / (k * k)) * s33
+        deriv[..., 2, 2] = (wp2 / (k * k)) * ds33
+        bad = ~np.isfinite(om)
+        if bad.any():
+            value[bad] = np.nan
+            deriv[bad] = np.nan
+    return Susceptibility(value=value, derivative=deriv, harmonics=w.harmonics)
+
+
+def _tensor(sp: np.ndarray, sy: np.ndarray, sz: np.ndarray, kappa: complex,
+            zfac: float | complex) -> np.ndarray:
+    """T from the Φ sums (xx, xy, yy), the Y sums (xz, yz) and the M sum (zz)."""
+    t = np.empty(sz.shape + (3, 3), dtype=complex)
+    t[..., 0, 0] = -sp[..., 0]
+    t[..., 0, 1] = -1j * sp[..., 1]
+    t[..., 1, 0] = 1j * sp[..., 1]
+    t[..., 1, 1] = -sp[..., 2]
+    t[..., 0, 2] = kappa * sy[..., 0]
+    t[..., 2, 0] = t[..., 0, 2]
+    t[..., 1, 2] = -1j * kappa * sy[..., 1]
+    t[..., 2, 1] = -t[..., 1, 2]
+    t[..., 2, 2] = zfac * sz
+    return t
+
+
+def _oblique_parts(om, w, lam, kpar, kperp, omega_c, V, wpar, tau):  # noqa: ANN001, ANN202
+    """k∥ ≠ 0: T, dT/dω, h = k·T/ω, dh/dω, Σ-form of S_33·k²/ω_p² and its derivative."""
+    s = landau_sign(kpar)
+    a = kpar * wpar
+    om1 = om[..., None]
+    nw = w.n * omega_c
+    cn = om1 - nw
+    zt = (cn - kpar * V) * (1.0 / (s * a))
+    zf, zp = plasma_z_and_prime(zt)
+    f = -0.5 * zp  # F = 1 + ζZ_eff = −Z'(sζ)/2
+    if s < 0:
+        zf = -zf
+        fp = zf - zt * zp
+    else:
+        fp = zf + zt * zp
+    u = (om1 - kpar * V) / a
+    vw = V / wpar
+    # per-harmonic factors and their ω-derivatives (d/dω = (1/a) d/dζ)
+    phi = -(u * zf + (tau - 1.0) * f)
+    dphi = -(zf + u * zp + (tau - 1.0) * fp) / a
+    y = (tau * cn + nw) * f + nw * vw * zf
+    dy = tau * f + ((tau * cn + nw) * fp + nw * vw * zp) / a
+    cm = cn * (cn + nw / tau)
+    mm = cm * f + (nw * kpar * V / tau) * (f + vw * zf)
+    dmm = (2.0 * cn + nw / tau) * f + (cm * fp + (nw * kpar * V / tau) * (fp + vw * zp)) / a
+    w_phi = np.stack([w.n * w.g, w.n * w.dgamma, w.n * w.g - 2.0 * lam * w.dgamma], axis=1)
+    w_y = np.stack([w.g, w.dgamma], axis=1)
+    kappa = kperp / (kpar * omega_c)
+    zfac = 2.0 / (a * a)
+    core = _tensor(phi @ w_phi, y @ w_y, mm @ w.gamma, kappa, zfac)
+    dcore = _tensor(dphi @ w_phi, dy @ w_y, dmm @ w.gamma, kappa, zfac)
+    gx, dgx = phi @ w.g, dphi @ w.g
+    gy, dgy = phi @ w.dgamma, dphi @ w.dgamma
+    rest = ((1.0 - tau) * f + vw * zf) @ (w.n * w.gamma)
+    drest = ((1.0 - tau) * fp + vw * zp) @ (w.n * w.gamma) / a
+    fg, dfg = f @ w.gamma, fp @ w.gamma / a
+    gz = om * fg + (omega_c / tau) * rest
+    dgz = fg + om * dfg + (omega_c / tau) * drest
+    pre = kperp / omega_c
+    zpre = 2.0 / (kpar * wpar * wpar)
+    h = np.stack([-pre * gx, -1j * pre * gy, zpre * gz], axis=-1)
+    dh = np.stack([-pre * dgx, -1j * pre * dgy, zpre * dgz], axis=-1)
+    nz = (w.n * w.gamma) * (omega_c / (tau * a))
+    s33 = (2.0 / (wpar * wpar)) * (f @ w.gamma + zf @ nz)
+    ds33 = (2.0 / (wpar * wpar)) * (fp @ w.gamma + zp @ nz) / a
+    return core, dcore, h, dh, s33, ds33
+
+
+def _perpendicular_parts(om, w, lam, kperp, omega_c, V, wpar, wperp):  # noqa: ANN001, ANN202
+    """k∥ = 0: the same parts from the rational limits, harmonics ±n paired."""
+    pos = w.n > 0
+    n = w.n[pos]
+    g, dg, gam = w.g[pos], w.dgamma[pos], w.gamma[pos]
+    dg0 = w.dgamma[w.n == 0][0]
+    om1 = om[..., None]
+    dn = 1.0 / (om1 * om1 - (n * omega_c) ** 2)  # 1/(ω² − n²Ω²)
+    ddn = -2.0 * om1 * dn * dn
+    beta = (wpar * wpar + 2.0 * V * V) / (wperp * wperp)
+    ng = n * g
+    n2dg = n * n * dg
+    n2gam = n * n * gam
+    e_ng, de_ng = dn @ ng, ddn @ ng
+    e_n2dg, de_n2dg = dn @ n2dg, ddn @ n2dg
+    e_yy, de_yy = dn @ (ng - 2.0 * lam * dg), ddn @ (ng - 2.0 * lam * dg)
+    e_zz, de_zz = dn @ n2gam, ddn @ n2gam
+    o2 = om * om
+    t = np.empty(om.shape + (3, 3), dtype=complex)
+    dt = np.empty_like(t)
+    t[..., 0, 0] = -2.0 * o2 * e_ng
+    dt[..., 0, 0] = -4.0 * om * e_ng - 2.0 * o2 * de_ng
+    t[..., 0, 1] = -2j * omega_c * om * e_n2dg
+    dt[..., 0, 1] = -2j * omega_c * (e_n2dg + om * de_n2dg)
+    t[..., 1, 0] = -t[..., 0, 1]
+    dt[..., 1, 0] = -dt[..., 0, 1]
+    t[..., 1, 1] = -2.0 * o2 * e_yy + 2.0 * lam * dg0
+    dt[..., 1, 1] = -4.0 * om * e_yy - 2.0 * o2 * de_yy
+    t[..., 0, 2] = t[..., 2, 0] = -2.0 * kperp * V * om * e_ng
+    dt[..., 0, 2] = dt[..., 2, 0] = -2.0 * kperp * V * (e_ng + om * de_ng)
+    t[..., 1, 2] = 2j * kperp * V * omega_c * e_n2dg
+    dt[..., 1, 2] = 2j * kperp * V * omega_c * de_n2dg
+    t[..., 2, 1] = -t[..., 1, 2]
+    dt[..., 2, 1] = -dt[..., 1, 2]
+    t[..., 2, 2] = -w.gamma.sum() - 2.0 * beta * omega_c**2 * e_zz
+    dt[..., 2, 2] = -2.0 * beta * omega_c**2 * de_zz
+    h = np.stack([-2.0 * kperp * om * e_ng, -2j * kperp * omega_c * e_n2dg,
+                  -2.0 * kperp * kperp * V * e_ng], axis=-1)
+    dh = np.stack([-2.0 * kperp * (e_ng + om * de_ng), -2j * kperp * omega_c * de_n2dg,
+                   -2.0 * kperp * kperp * V * de_ng], axis=-1)
+    s33 = -2.0 * kperp * kperp * e_ng
+    ds33 = -2.0 * kperp * kperp * de_ng
+    return t, dt, h, dh, s33, ds33

@@ -13,7 +13,7 @@ from kinroots.models.base import Susceptibility
 from kinroots.models.es_unmagnetized import landau_moments, thermal_speeds_squared
 from kinroots.plasma import Species
 
-__all__ = ["susceptibility"]
+__all__ = ["scaled_susceptibility", "susceptibility"]
 
 
 def _bracket_linear(
@@ -144,3 +144,121 @@ def susceptibility(
         value = pref * bracket
         derivative = pref * dbracket / kappa[..., None, None] - 2.0 * value / om[..., None, None]
     return Susceptibility(value=value, derivative=derivative, harmonics=0)
+
+
+def scaled_susceptibility(
+    omega: np.ndarray,
+    species: Species,
+    /,
+    *,
+    k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray,
+    B: float = 0.0,
+    tol: float = 1e-14,
+    omega_ref: float = 1.0,
+) -> Susceptibility:
+    """χ_s in the wave frame, scaled so that it is entire in ω and free of cancellation.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        Angular frequency ω [rad/s], any shape; ω = 0 is allowed (the result is finite).
+    species : Species
+        As for :func:`susceptibility`.
+    k_par, k_perp : complex or array_like of complex
+        Wave-vector components [1/m], broadcast against ``omega``.
+    B, tol : float
+        Ignored (common signature).
+    omega_ref : float
+        Reference frequency [rad/s] of the scaling w = ω/ω_ref.
+
+    Returns
+    -------
+    Susceptibility
+        ``value`` = S_s = diag(w, w, 1) χ'_s diag(w, w, 1) and ``derivative`` = dS_s/dω,
+        shaped ``shape + (3, 3)``, where χ'_s is χ_s in the orthonormal frame
+        e₁ = (k∥, 0, −k⊥)/k, e₂ = ŷ, e₃ = k̂ = (k⊥, 0, k∥)/k, k = √(k∥² + k⊥²).
+
+    Notes
+    -----
+    From the symmetric form χ_ij = (ω_p²/ω²)[−δ_ij + ∫ v_i v_j (k·∂f0/∂v)/(ω − k·v) d³v]
+    (Krall & Trivelpiece 1973, ch. 9, from memory), writing k·v = ω − (ω − k·v) and using
+    ∫ v_j k·∂f0/∂v d³v = −k_j removes one power of 1/ω exactly from each contraction
+    with k (this module's own derivation)::
+
+        k_i χ_ij = (ω_p²/ω) I_j,      I_j = ∫ v_j (k·∂f0/∂v)/(ω − k·v) d³v,
+        k_i χ_ij k_j = ω_p² ∫ (k·∂f0/∂v)/(ω − k·v) d³v  (the electrostatic χ k²).
+
+    In the notation of :func:`susceptibility` (q = k²/κ², β, g, C, M_n)::
+
+        I_j = −2 [ q (V_j M_1 + β_j M_2) + g_j M_0/κ ],
+        S_ab = (ω_p²/ω_ref²) B_ab  (a, b = 1, 2),   S_a3 = S_3a = ω_p²/(ω_ref k) I_a,
+        S_33 = −2 ω_p² M_1/κ².
+
+    The frame components are formed analytically, with Δ = w⊥² − w∥² (exact when the
+    species is isotropic): β₁ = k⊥k∥Δ/(kκ), V₁ = −Vk⊥/k, g₁ = −Δk⊥k∥k/(2κ²), C₁₁ =
+    w⊥²w∥²k²/(2κ²), C₂₂ = w⊥²/2; β₂ = V₂ = g₂ = 0 and B₁₂ = 0.  The −δ_ab of the bracket
+    is combined with the C term, −1 − cM_1 = (c − 1) − cζM_0 (M_1 = −1 − ζZ, M_0 = −Z),
+    with c₁ − 1 = −Δ(k⊥⁴w⊥² − k∥⁴w∥²)/κ⁴ and c₂ − 1 = k∥²Δ/κ², so that the isotropic
+    transverse bracket is the product ζZ, not the difference −1 + (1 + ζZ).  No entry
+    has a pole or a cancellation that grows as ω → 0.  det(S + diag(w², w², 1) −
+    (kc/ω_ref)² diag(1, 1, 0)) = (ω/ω_ref)⁴ det Λ (a similarity by diag(1, 1, w)).
+
+    References
+    ----------
+    N. A. Krall and A. W. Trivelpiece, *Principles of Plasma Physics* (1973), ch. 9
+    (from memory); B. D. Fried and S. D. Conte (1961) for Z and the moments.
+    """
+    om, kpar, kperp = np.broadcast_arrays(
+        np.asarray(omega, dtype=complex),
+        np.asarray(k_par, dtype=complex),
+        np.asarray(k_perp, dtype=complex),
+    )
+    wpar2, wperp2 = thermal_speeds_squared(species)
+    delta = wperp2 - wpar2
+    wp2 = species.plasma_frequency**2
+    v = float(species.drift)
+    with np.errstate(all="ignore"):
+        kappa2 = kperp * kperp * wperp2 + kpar * kpar * wpar2
+        kappa = np.sqrt(kappa2)
+        k = np.sqrt(kperp * kperp + kpar * kpar)
+        q = (k * k) / kappa2
+        beta1 = kperp * kpar * delta / (k * kappa)
+        v1 = -v * kperp / k
+        g1 = -delta * kperp * kpar * k / (2.0 * kappa2)
+        c1 = (k * k) ** 2 * wperp2 * wpar2 / (kappa2 * kappa2)
+        c1m = -delta * (kperp**4 * wperp2 - kpar**4 * wpar2) / (kappa2 * kappa2)
+        c2 = k * k * wperp2 / kappa2
+        c2m = kpar * kpar * delta / kappa2
+        zeta = (om - kpar * v) / kappa
+        (m0, m1, m2, m3), (d0, d1, d2, d3) = landau_moments(zeta, order=3)
+        zm0, dzm0 = zeta * m0, m0 + zeta * d0
+
+        def bracket11(zm: np.ndarray, a0, a1, a2, a3, const) -> np.ndarray:
+            return (
+                const
+                - c1 * zm
+                - 2.0 * q * (beta1 * beta1 * a3 + 2.0 * beta1 * v1 * a2 + v1 * v1 * a1)
+                - 4.0 * g1 * (beta1 * a1 + v1 * a0) / kappa
+            )
+
+        b11 = bracket11(zm0, m0, m1, m2, m3, c1m)
+        db11 = bracket11(dzm0, d0, d1, d2, d3, 0.0)
+        b22 = c2m - c2 * zm0
+        db22 = -c2 * dzm0
+        i1 = -2.0 * (q * (v1 * m1 + beta1 * m2) + g1 * m0 / kappa)
+        di1 = -2.0 * (q * (v1 * d1 + beta1 * d2) + g1 * d0 / kappa)
+        s_t = wp2 / omega_ref**2
+        s_l = wp2 / (omega_ref * k)
+        value = np.zeros(om.shape + (3, 3), dtype=complex)
+        deriv = np.zeros_like(value)
+        value[..., 0, 0] = s_t * b11
+        value[..., 1, 1] = s_t * b22
+        value[..., 0, 2] = value[..., 2, 0] = s_l * i1
+        value[..., 2, 2] = -2.0 * wp2 * m1 / kappa2
+        dz = 1.0 / kappa
+        deriv[..., 0, 0] = s_t * db11 * dz
+        deriv[..., 1, 1] = s_t * db22 * dz
+        deriv[..., 0, 2] = deriv[..., 2, 0] = s_l * di1 * dz
+        deriv[..., 2, 2] = -2.0 * wp2 * d1 / (kappa2 * kappa)
+    return Susceptibility(value=value, derivative=deriv, harmonics=0)
