@@ -217,6 +217,7 @@ def polish(
         evaluations=func.evaluations,
         multiplicity=last.multiplicity,
         method=method,
+        refined=(last.z - corr) if status is Status.CONVERGED and np.isfinite(corr) else None,
     )
     if verify_radius is None or not result.converged:
         return result

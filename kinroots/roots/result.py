@@ -73,6 +73,10 @@ class RootResult:
         Multiplicity used by the modified Newton step, confirmed when ``verified``.
     method : str
         How the root was obtained, e.g. ``"newton"``, ``"moments+newton"``.
+    refined : complex or None
+        ``value`` minus the last Newton correction: not evaluated (so not reported as
+        the root), but for a simple zero quadratically closer to it; continuation uses it
+        to extrapolate.
     """
 
     value: complex
@@ -86,6 +90,7 @@ class RootResult:
     verified: bool = False
     multiplicity: int = 1
     method: str = "newton"
+    refined: complex | None = None
 
 
 def failed_root(value: complex, status: Status, reason: str, *, method: str) -> RootResult:

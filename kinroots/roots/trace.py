@@ -111,6 +111,16 @@ def _extrapolate(path: list[tuple[float, complex]], p: float, order: int) -> com
     return total
 
 
+def _history_value(r: RootResult) -> complex:
+    """The point the predictor extrapolates from: the Newton-refined value when known.
+
+    The reported value is the last *evaluated* iterate, up to ``rtol`` away from the zero;
+    extrapolating a cubic through such points amplifies that noise ~15 times, so the
+    predictor uses the refined (one more, unevaluated, Newton step) value instead.
+    """
+    return r.refined if r.refined is not None and r.multiplicity == 1 else r.value
+
+
 def _inside(z: complex, box: Box) -> bool:
     return box[0] <= z.real <= box[1] and box[2] <= z.imag <= box[3]
 
@@ -224,7 +234,7 @@ class Tracer:
         elif not _inside(r.value, self.box):
             b._end(BranchEnd.LEFT_REGION, self.param, "start lies outside the box")
         else:
-            b.path.append((self.param, r.value))
+            b.path.append((self.param, _history_value(r)))
         return b
 
     def advance_to(self, target: float) -> None:
@@ -251,7 +261,7 @@ class Tracer:
             for i, t in trials.items():
                 b = self.branches[i]
                 if b.active:
-                    b.path.append((p_new, t.result.value))
+                    b.path.append((p_new, _history_value(t.result)))
                     last[i] = t.result
             easy = all(t.result.iterations <= 2 for t in trials.values() if not t.problem)
             self._h = 2 * h if easy and not bad else h
