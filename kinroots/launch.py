@@ -25,6 +25,7 @@ from kinroots import modes
 from kinroots.casefile import Case
 from kinroots.roots import BranchEnd, RootResult, Status, SurveyResult, Tracer, match_new_roots
 from kinroots.scan import MATCH_FRACTION, SpatialFunction, spatial_roots
+from kinroots.tables import RESULT_COLUMNS
 
 __all__ = [
     "LAUNCH_COLUMNS",
@@ -48,14 +49,7 @@ LAUNCH_COLUMNS: tuple[str, ...] = (
     "phase_speed_m_per_s",
     "damping_length_m",
     "damping_length_cm",
-    "residual",
-    "converged",
-    "verified",
-    "multiplicity",
-    "iterations",
-    "evaluations",
-    "status",
-    "reason",
+    *RESULT_COLUMNS,
 )
 
 #: Cells left empty on a failed point (besides the mode-identity columns).

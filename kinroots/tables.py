@@ -17,16 +17,10 @@ from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
-#: Columns of ``branches.csv`` and ``roots.csv``, in order.  The first ten are the
-#: contract of DESIGN.md; the rest describe how each root was obtained.
-ROOT_COLUMNS: tuple[str, ...] = (
-    "branch",
-    "k",
-    "omega_real",
-    "omega_imag",
-    "k_per_m",
-    "freq_hz",
-    "gamma_per_s",
+from kinroots.modes import MODE_COLUMNS
+
+#: How each root was obtained: the columns every root table ends its fixed part with.
+RESULT_COLUMNS: tuple[str, ...] = (
     "residual",
     "converged",
     "verified",
@@ -35,18 +29,22 @@ ROOT_COLUMNS: tuple[str, ...] = (
     "evaluations",
     "status",
     "reason",
-    # mode identity (kinroots.modes); then one density_abs_<s>, density_phase_deg_<s>
-    # pair per species, appended by rows_to_csv (see PER_SPECIES_PREFIXES)
-    "e_x_re",
-    "e_x_im",
-    "e_y_re",
-    "e_y_im",
-    "e_z_re",
-    "e_z_im",
-    "handedness",
-    "db_c_over_de",
-    "magnetic_compressibility",
-    "electrostatic_fraction",
+)
+
+#: Columns of ``branches.csv`` and ``roots.csv``, in order.  The first ten are the
+#: contract of DESIGN.md; then how each root was obtained; then the mode identity
+#: (kinroots.modes), followed by one ``density_abs_<s>``, ``density_phase_deg_<s>`` pair
+#: per species, appended by rows_to_csv (see PER_SPECIES_PREFIXES).
+ROOT_COLUMNS: tuple[str, ...] = (
+    "branch",
+    "k",
+    "omega_real",
+    "omega_imag",
+    "k_per_m",
+    "freq_hz",
+    "gamma_per_s",
+    *RESULT_COLUMNS,
+    *MODE_COLUMNS,
 )
 
 #: Row keys with these prefixes are appended (in first-seen order) after the columns of
@@ -81,28 +79,9 @@ def format_cell(value: Any) -> str:
     return str(value)
 
 
-def atomic_write_text(path: Path, text: str) -> None:
-    """Write ``text`` to ``path`` atomically (temporary file in the same folder, then
-    ``os.replace``), so a reader never sees a half-written file."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-
-
 def atomic_write_bytes(path: Path, data: bytes) -> None:
-    """Binary counterpart of :func:`atomic_write_text`."""
+    """Write ``data`` to ``path`` atomically (temporary file in the same folder, flushed
+    to disk, then ``os.replace``), so a reader never sees a half-written file."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
@@ -118,6 +97,11 @@ def atomic_write_bytes(path: Path, data: bytes) -> None:
         except FileNotFoundError:
             pass
         raise
+
+
+def atomic_write_text(path: Path, text: str) -> None:
+    """Text (UTF-8) counterpart of :func:`atomic_write_bytes`."""
+    atomic_write_bytes(path, text.encode("utf-8"))
 
 
 def rows_to_csv(rows: Iterable[Mapping[str, Any]], columns: Sequence[str] = ROOT_COLUMNS) -> str:
