@@ -24,6 +24,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import ive
 
+from kinroots.models.base import Susceptibility
+from kinroots.plasma import Species
+
 #: Largest |n| the adaptive truncation may reach; beyond it the builders return NaN.
 MAX_HARMONICS = 20000
 
@@ -161,3 +164,54 @@ def landau_sign(k_par: complex) -> float:
     memory).
     """
     return -1.0 if complex(k_par).real < 0.0 else 1.0
+
+
+def nan_susceptibility(shape: tuple[int, ...], harmonics: int) -> Susceptibility:
+    """A result that is non-finite everywhere (bad input or harmonic overflow)."""
+    nan = np.full(shape, np.nan + 0j)
+    return Susceptibility(value=nan, derivative=nan.copy(), harmonics=harmonics)
+
+
+@dataclass(frozen=True)
+class SpeciesSetup:
+    """Per-call constants shared by the magnetized builders (SI units).
+
+    ``lam`` = k⊥² w⊥² / (2 Ω²) and ``weights`` the truncated Bessel weights at it.
+    """
+
+    k_par: complex
+    k_perp: complex
+    w_par: float
+    w_perp: float
+    drift: float
+    omega_c: float
+    lam: complex
+    weights: BesselWeights
+
+
+def prepare_species(
+    shape: tuple[int, ...], species: Species, *, k_par: complex, k_perp: complex, B: float,
+    tol: float, model: str,
+) -> SpeciesSetup | Susceptibility:
+    """Validate the inputs of a magnetized builder and compute its per-call constants.
+
+    Returns a non-finite :class:`Susceptibility` (to be returned as is) when an input is
+    not finite, a temperature is not positive, or the harmonic sum does not converge.
+    ``B == 0`` raises ValueError (the unmagnetized models apply).
+    """
+    if B == 0:
+        raise ValueError(f"{model} needs B != 0; use the unmagnetized model for B = 0")
+    kpar = complex(k_par)
+    kperp = complex(k_perp)
+    wpar = species.thermal_speed_par if species.temperature_par > 0 else np.nan
+    wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
+    drift = float(species.drift)
+    with np.errstate(all="ignore"):
+        omega_c = species.cyclotron_frequency(B)
+        lam = kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
+    if not all(np.isfinite(x) for x in (kpar, kperp, B, wpar, wperp, omega_c, drift)):
+        return nan_susceptibility(shape, 0)
+    w = bessel_weights(lam, tol)
+    if not w.converged:
+        return nan_susceptibility(shape, w.harmonics)
+    return SpeciesSetup(kpar, kperp, wpar, wperp, drift, omega_c, lam, w)

@@ -9,17 +9,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from kinroots.models._harmonics import bessel_weights, landau_sign
+from kinroots.models._harmonics import landau_sign, prepare_species
 from kinroots.models.base import Susceptibility
 from kinroots.plasma import Species
 from kinroots.zfunc import plasma_z_and_prime
 
 __all__ = ["scaled_susceptibility", "susceptibility"]
-
-
-def _nan_result(shape: tuple[int, ...], harmonics: int) -> Susceptibility:
-    nan = np.full(shape + (3, 3), np.nan + 0j)
-    return Susceptibility(value=nan, derivative=nan.copy(), harmonics=harmonics)
 
 
 def susceptibility(
@@ -113,22 +108,12 @@ def susceptibility(
     D. G. Swanson, *Plasma Waves*, 2nd ed. (IOP, 2003), ch. 4, from memory.
     """
     om = np.asarray(omega, dtype=complex)
-    if B == 0:
-        raise ValueError("em_magnetized needs B != 0; use the unmagnetized model for B = 0")
-    kpar = complex(k_par)
-    kperp = complex(k_perp)
-    wpar = species.thermal_speed_par if species.temperature_par > 0 else np.nan
-    wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
-    V = float(species.drift)
-    with np.errstate(all="ignore"):
-        omega_c = species.cyclotron_frequency(B)
-        lam = kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
-    finite_in = all(np.isfinite(x) for x in (kpar, kperp, B, wpar, wperp, omega_c, V))
-    if not finite_in:
-        return _nan_result(om.shape, 0)
-    w = bessel_weights(lam, tol)
-    if not w.converged:
-        return _nan_result(om.shape, w.harmonics)
+    setup = prepare_species(om.shape, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol,
+                            model="em_magnetized")
+    if isinstance(setup, Susceptibility):
+        return setup
+    kpar, kperp, wpar, wperp = setup.k_par, setup.k_perp, setup.w_par, setup.w_perp
+    V, omega_c, lam, w = setup.drift, setup.omega_c, setup.lam, setup.weights
     n_om = w.n * omega_c
     tau = species.temperature_perp / species.temperature_par
     # Weight matrices: columns (xx, xy, yy) for Φ, (xz, yz) for Y, (zz) for M.
@@ -331,23 +316,14 @@ def scaled_susceptibility(
     T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 10–11, from memory.
     """
     om = np.asarray(omega, dtype=complex)
-    if B == 0:
-        raise ValueError("em_magnetized needs B != 0; use the unmagnetized model for B = 0")
-    kpar = complex(k_par)
-    kperp = complex(k_perp)
-    wpar = species.thermal_speed_par if species.temperature_par > 0 else np.nan
-    wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
-    V = float(species.drift)
+    setup = prepare_species(om.shape, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol,
+                            model="em_magnetized")
+    if isinstance(setup, Susceptibility):
+        return setup
+    kpar, kperp, wpar, wperp = setup.k_par, setup.k_perp, setup.w_par, setup.w_perp
+    V, omega_c, lam, w = setup.drift, setup.omega_c, setup.lam, setup.weights
     with np.errstate(all="ignore"):
-        omega_c = species.cyclotron_frequency(B)
-        lam = kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
         k, cth, sth = _frame(kpar, kperp)
-    finite_in = all(np.isfinite(x) for x in (kpar, kperp, B, wpar, wperp, omega_c, V))
-    if not finite_in:
-        return _nan_result(om.shape, 0)
-    w = bessel_weights(lam, tol)
-    if not w.converged:
-        return _nan_result(om.shape, w.harmonics)
     wp2 = species.plasma_frequency**2
     tau = species.temperature_perp / species.temperature_par
     with np.errstate(all="ignore"):

@@ -9,17 +9,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from kinroots.models._harmonics import bessel_weights, landau_sign
+from kinroots.models._harmonics import landau_sign, prepare_species
 from kinroots.models.base import Susceptibility
 from kinroots.plasma import Species
 from kinroots.zfunc import plasma_z_and_prime
 
 __all__ = ["susceptibility"]
-
-
-def _nan_result(shape: tuple[int, ...], harmonics: int) -> Susceptibility:
-    nan = np.full(shape, np.nan + 0j)
-    return Susceptibility(value=nan, derivative=nan.copy(), harmonics=harmonics)
 
 
 def susceptibility(
@@ -97,21 +92,12 @@ def susceptibility(
     I. B. Bernstein, Phys. Rev. 109, 10 (1958).
     """
     om = np.asarray(omega, dtype=complex)
-    if B == 0:
-        raise ValueError("es_magnetized needs B != 0; use the unmagnetized model for B = 0")
-    kpar = complex(k_par)
-    kperp = complex(k_perp)
-    wpar = species.thermal_speed_par if species.temperature_par > 0 else np.nan
-    wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
-    with np.errstate(all="ignore"):
-        omega_c = species.cyclotron_frequency(B)
-        lam = kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
-    finite_in = all(np.isfinite(x) for x in (kpar, kperp, B, wpar, wperp, omega_c))
-    if not finite_in:
-        return _nan_result(om.shape, 0)
-    w = bessel_weights(lam, tol)
-    if not w.converged:
-        return _nan_result(om.shape, w.harmonics)
+    setup = prepare_species(om.shape, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol,
+                            model="es_magnetized")
+    if isinstance(setup, Susceptibility):
+        return setup
+    kpar, kperp, wpar = setup.k_par, setup.k_perp, setup.w_par
+    omega_c, w = setup.omega_c, setup.weights
     wp2 = species.plasma_frequency**2
     n_om = w.n * omega_c
     with np.errstate(all="ignore"):
