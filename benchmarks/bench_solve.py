@@ -29,7 +29,7 @@ from kinroots import scan
 from kinroots.casefile import parse_case
 from kinroots.roots import Tracer, polish
 
-ORDER = 3
+ORDER = 4
 
 
 def es_case():

@@ -87,9 +87,15 @@ class NormalizedDispersion:
             return self._call(omega)
 
     def _call(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        w_u = self.dispersion.omega_ref
         disp = self.dispersion
-        if krook.collisional(disp.plasma) and not disp.electromagnetic and not disp.magnetized:
+        w_u = disp.omega_ref
+        krook_es = self.__dict__.get("_krook_es")
+        if krook_es is None:  # fixed for the wrapped function: decided on the first call
+            krook_es = self.__dict__["_krook_es"] = (
+                krook.collisional(disp.plasma) and not disp.electromagnetic
+                and not disp.magnetized
+            )
+        if krook_es:
             # Krook χ_s has poles: hand the root layer F = (Π_s Q_s) D, entire, same zeros
             cos, sin = disp._cos, disp._sin
             f, fw, _ = krook.scaled_dispersion(
@@ -217,7 +223,7 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> 
     def family_back(q: float) -> AnalyticFunction:
         return function_at(case, -q)
 
-    tracer = Tracer(family, box=box, param=ks[0], rtol=rtol, order=3)
+    tracer = Tracer(family, box=box, param=ks[0], rtol=rtol, order=4)
     out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
     results: list[TracedBranch] = []
     surveys: list[tuple[float, SurveyResult]] = []

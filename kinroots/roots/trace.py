@@ -1,7 +1,7 @@
 """Following roots of a one-parameter family f_p(z) as the real parameter p changes.
 
 Predictor–corrector continuation (any numerical continuation text; from memory):
-the predictor extrapolates each branch with the polynomial (degree ≤ 2) through its last
+the predictor extrapolates each branch with the polynomial (degree ≤ order) through its last
 accepted points; the corrector is Newton's method (:func:`kinroots.roots.polish`).  All
 branches advance together with one internal step h, so that at every parameter value the
 neighbours of each branch are known.  A step is *rejected* (h halved) when, for some
@@ -159,7 +159,9 @@ class Tracer:
         Two branches closer than this have collided (default
         ``max(100·(atol + rtol|z|), 1e-10·box diameter)``).
     order : int
-        Degree of the extrapolation polynomial (1 or 2).
+        Degree of the extrapolation polynomial (1 to 5; `kinroots solve` uses 4: with
+        Newton-refined history points a quartic predictor lands within the tolerance of
+        smooth branches, so most points cost one evaluation).
 
     Examples
     --------
