@@ -224,6 +224,16 @@ class Dispersion:
         self._scaled_builder = (
             scaled_builder_for(self.magnetized) if self.electromagnetic else None
         )
+        #: Electrostatic models whose module offers ``SpeciesSum`` (constants per species
+        #: cached here, since k is fixed; every species in one pass): Σχ_s from it.
+        self._species_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
+        if not self.electromagnetic:
+            module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
+            factory = getattr(module, "SpeciesSum", None)
+            if factory is not None:
+                self._species_sum = factory.for_species(
+                    tuple(plasma.species), k_par=self.k_par, k_perp=self.k_perp
+                )
         if self.electromagnetic:
             self.scaling = (
                 f"D = (omega/omega_ref)^4 det(Lambda), omega_ref = {self.omega_ref!r} rad/s: "
@@ -239,7 +249,7 @@ class Dispersion:
         for s in self.plasma.species:
             wpar2 = 2.0 * s.temperature_par * EV / s.mass
             wperp2 = 2.0 * s.temperature_perp * EV / s.mass
-            scales.append(abs(np.sqrt(self.k_perp**2 * wperp2 + self.k_par**2 * wpar2)))
+            scales.append(abs(self.k_perp**2 * wperp2 + self.k_par**2 * wpar2) ** 0.5)
             if self.magnetized:
                 scales.append(abs(s.cyclotron_frequency(self.plasma.B)))
                 if self.k_par != 0:
@@ -249,6 +259,8 @@ class Dispersion:
 
     def _chi(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Σ_s χ_s and Σ_s ∂χ_s/∂ω at the given ω (builders' frame)."""
+        if self._species_sum is not None:
+            return self._species_sum(omega)
         total = dtotal = None
         for s in self.plasma.species:
             res: Susceptibility = self._builder(

@@ -29,6 +29,7 @@ relative error stays at a few ulp even where ``|Re ζ Im ζ|`` is large.
 
 from __future__ import annotations
 
+import cmath
 import math
 from numbers import Number
 from typing import Any
@@ -73,6 +74,23 @@ _NODES_INT = _nodes(0.0)
 _NODES_HALF = _nodes(0.5)
 
 
+def _node_table(index: int) -> np.ndarray:
+    """Rows (integer grid, half-integer grid) of t_k² (index 0) or weights (index 1), the
+    shorter row padded with zero-weight nodes so that both grids fit one array."""
+    size = max(len(_NODES_INT), len(_NODES_HALF))
+    table = np.zeros((2, size))
+    if index == 0:
+        table[:] = 4.0 * _T_MAX * _T_MAX  # padding: far from every pole, weight 0
+    for row, nodes in enumerate((_NODES_INT, _NODES_HALF)):
+        table[row, : len(nodes)] = [node[index] for node in nodes]
+    return table
+
+
+#: t_k² and weights of both grids (row 0: t = kh, row 1: t = (k + ½)h).
+_T2_TABLE = _node_table(0)
+_W_TABLE = _node_table(1)
+
+
 def _as_complex(zeta: Any) -> NDArray[np.complex128]:
     """Convert the input to a complex128 array, refusing non-numeric input."""
     arr = np.asarray(zeta)
@@ -113,7 +131,7 @@ def _f_series(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
     return -u * acc
 
 
-def _f_trapezoid(s: NDArray[np.complex128], half: bool) -> NDArray[np.complex128]:
+def _f_trapezoid(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
     r"""F(s) = 1 + sZ(s) by the trapezoidal rule with pole correction, ``Im s ≥ 0``.
 
     Notes
@@ -129,43 +147,43 @@ def _f_trapezoid(s: NDArray[np.complex128], half: bool) -> NDArray[np.complex128
         F = T - 2i√π s exp(-s²) q / (1 ∓ q),   q = exp(2πi s / h),
 
     the upper sign for integer nodes, the lower for half-integer nodes, with an error of
-    order ``exp(-π²/h²)``. The grid whose nearest node is farther from ``Re s`` is used, so
-    that no node sits near the pole.
+    order ``exp(-π²/h²)``. For each point the grid whose nearest node is farther from
+    ``Re s`` is used, so that no node sits near the pole; all points and nodes are summed
+    in one (points × nodes) array pass.
     """
-    nodes = _NODES_HALF if half else _NODES_INT
+    frac = np.mod(s.real * (1.0 / _H), 1.0)
+    half = (frac < 0.25) | (frac > 0.75)  # nearest integer node within h/4: half grid
+    row = half.view(np.int8)
     m = s * s
     mr = m.real
     mi = m.imag
-    mi2 = mi * mi
-    acc_re = np.zeros_like(mr)
-    acc_im = np.zeros_like(mr)
-    for t2, w in nodes:
-        d = t2 - mr
-        g = w / (d * d + mi2)
-        acc_im += g
-        g *= d
-        acc_re += g
-    acc_im *= mi
+    d = _T2_TABLE[row] - mr[:, None]
+    g = _W_TABLE[row] / (d * d + (mi * mi)[:, None])
+    acc = np.einsum("ij,ij->i", g, d) + 1j * (g.sum(axis=1) * mi)
     q_arg = (2.0j * np.pi / _H) * s
-    q = np.exp(q_arg)
-    corr = (2.0j * _SQRT_PI) * s * np.exp(q_arg - m)
-    if half:
-        corr /= 1.0 + q
-        return (acc_re + 1j * acc_im) + corr
-    corr /= 1.0 - q
-    return (acc_re + 1j * acc_im) - corr
+    sign = np.where(half, 1.0, -1.0)
+    corr = (2.0j * _SQRT_PI) * s * np.exp(q_arg - m) * sign
+    corr /= 1.0 + sign * np.exp(q_arg)
+    return acc + corr
 
 
 def _upper(s: NDArray[np.complex128]) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
     """Z(s) and F(s) = 1 + sZ(s) for a 1-d array with ``Im s ≥ 0`` (or NaN)."""
     r = np.abs(s)
-    z = np.empty_like(s)
-    f = np.empty_like(s)
+    if r.size == 1:  # one point: its region, without masks
+        r0 = float(r[0])
+        if r0 < _R_INNER:
+            z = (1j * _SQRT_PI) * wofz(s)
+            return z, 1.0 + s * z
+        f = _f_series(s) if r0 >= _R_SERIES else _f_trapezoid(s)
+        return (f - 1.0) / s, f
     inner = r < _R_INNER
     outer = r >= _R_SERIES
     if inner.all():
         z = (1j * _SQRT_PI) * wofz(s)
         return z, 1.0 + s * z
+    z = np.empty_like(s)
+    f = np.empty_like(s)
     if inner.any():
         si = s[inner]
         zi = (1j * _SQRT_PI) * wofz(si)
@@ -179,14 +197,7 @@ def _upper(s: NDArray[np.complex128]) -> tuple[NDArray[np.complex128], NDArray[n
     mid = ~(inner | outer)  # also NaN
     if mid.any():
         sm = s[mid]
-        frac = np.mod(sm.real / _H, 1.0)
-        near = (frac < 0.25) | (frac > 0.75)  # nearest integer node within h/4
-        fm = np.empty_like(sm)
-        if near.any():
-            fm[near] = _f_trapezoid(sm[near], half=True)
-        far = ~near
-        if far.any():
-            fm[far] = _f_trapezoid(sm[far], half=False)
+        fm = _f_trapezoid(sm)
         f[mid] = fm
         z[mid] = (fm - 1.0) / sm
     return z, f
@@ -230,6 +241,96 @@ def _exp_term(zeta: NDArray[np.complex128]) -> NDArray[np.complex128]:
     rot = np.cos(p_hi) - 1j * np.sin(p_hi)
     fine = np.exp(a_lo - 1j * p_lo)
     return 1j * (mag * (rot * fine))
+
+
+def _f_trapezoid_scalar(s: complex) -> complex:
+    """:func:`_f_trapezoid` at one point, in Python arithmetic."""
+    frac = (s.real * (1.0 / _H)) % 1.0
+    half = frac < 0.25 or frac > 0.75
+    m = s * s
+    mr = m.real
+    mi = m.imag
+    mi2 = mi * mi
+    acc_re = 0.0
+    acc_im = 0.0
+    for t2, w in _NODES_HALF if half else _NODES_INT:
+        d = t2 - mr
+        g = w / (d * d + mi2)
+        acc_im += g
+        acc_re += g * d
+    q_arg = (2.0j * math.pi / _H) * s
+    corr = (2.0j * _SQRT_PI) * s * cmath.exp(q_arg - m)
+    if half:
+        return complex(acc_re, acc_im * mi) + corr / (1.0 + cmath.exp(q_arg))
+    return complex(acc_re, acc_im * mi) - corr / (1.0 - cmath.exp(q_arg))
+
+
+def _exp_term_scalar(zeta: complex) -> complex:
+    """:func:`_exp_term` at one point, in Python arithmetic (raises OverflowError where
+    the array version gives inf)."""
+    x = zeta.real
+    y = zeta.imag
+    xx, xx_e = _two_prod(x, x)
+    yy, yy_e = _two_prod(y, y)
+    a_hi = yy - xx
+    bv = a_hi - yy
+    a_lo = ((yy - (a_hi - bv)) + (-xx - bv)) + (yy_e - xx_e)
+    t = a_hi + a_lo
+    a_lo = a_lo - (t - a_hi)
+    a_hi = t
+    p_hi, p_lo = _two_prod(2.0 * x, y)
+    mag = (2.0 * _SQRT_PI) * math.exp(a_hi)
+    rot = complex(math.cos(p_hi), -math.sin(p_hi))
+    fine = cmath.exp(complex(a_lo, -p_lo))
+    return 1j * (mag * (rot * fine))
+
+
+def z_and_f_scalar(zeta: complex) -> tuple[complex, complex]:
+    """Z(ζ) and F = 1 + ζZ(ζ) at one finite point, in Python arithmetic.
+
+    Parameters
+    ----------
+    zeta : complex
+        Argument ζ, finite.
+
+    Returns
+    -------
+    z, f : complex
+        The values of :func:`plasma_z_and_prime`'s Z and of −Z′/2, by the same regions and
+        formulas (so equal to them to rounding), without numpy's per-call overhead.
+
+    Raises
+    ------
+    OverflowError
+        Where the exponential term overflows (the array functions give inf or nan there).
+    """
+    lower = zeta.imag < 0.0
+    s = -zeta if lower else zeta
+    r = abs(s)
+    if r < _R_INNER:
+        z = (1j * _SQRT_PI) * complex(wofz(s))
+        f = 1.0 + s * z
+    else:
+        if r >= _R_SERIES:
+            inv = 1.0 / s
+            u = 0.5 * inv * inv
+            acc = _SERIES_COEF[-1]
+            for c in _SERIES_COEF[-2::-1]:
+                acc = acc * u + c
+            f = -u * acc
+        else:
+            f = _f_trapezoid_scalar(s)
+        z = (f - 1.0) / s
+    if not lower:
+        return z, f
+    z = -z
+    x = zeta.real
+    y = zeta.imag
+    if (y - x) * (y + x) > -45.0 - 3.0 * math.log1p(r):
+        e = _exp_term_scalar(zeta)
+        z += e
+        f += zeta * e
+    return z, f
 
 
 #: Below this |ζ|, :func:`plasma_z` takes lower half-plane values straight from ``wofz``.

@@ -491,3 +491,55 @@ def test_scaled_d_near_zero_against_mpmath(angle: float) -> None:
         assert np.all(np.abs(got[0] - ref) <= tol), (frac, np.abs(got[0] - ref) / np.abs(ref))
         terms = max(abs(np.prod([ref[i, p[i]] for i in range(3)])) for p in permutations(range(3)))
         assert abs(d - d_ref) <= 1e-12 * terms, (frac, abs(d - d_ref) / terms)
+
+
+# --------------------------------------------------------------------------- fast paths
+def test_first_moment_against_mpmath_array_and_scalar() -> None:
+    # Source: Fried & Conte (1961), M_1 = -(1 + ζZ), dM_1/dζ = -Z - 2ζM_1; Z from mpmath
+    # erfc at 40 digits. Both the array path (first_moment, every region and the split of
+    # the series region) and the one-point Python path (first_moment_scalar).
+    rng = np.random.default_rng(RNG_SEED + 1)
+    radii = np.concatenate([rng.uniform(0, 2, 20), rng.uniform(2, 7, 30), rng.uniform(7, 20, 20),
+                            rng.uniform(20, 300, 20)])
+    zeta = radii * np.exp(1j * rng.uniform(-np.pi, np.pi, radii.size))
+    # keep the Landau term representable: y² - x² below the overflow threshold
+    zeta = zeta[(zeta.imag**2 - zeta.real**2) < 600.0]
+    zeta = np.concatenate([zeta, [7.0, -9.5, 3.0, 20.0, 25.0 - 0j, 1e3 + 0.5j, 0j]])
+    with np.errstate(all="ignore"):
+        m1, dm1 = es_unmagnetized.first_moment(zeta)
+    with mp.workdps(40):
+        for i, z in enumerate(zeta):
+            zz = mp.mpc(z)
+            zf = z_mpmath(z)
+            ref = complex(-(1 + zz * zf))
+            dref = complex(-zf + 2 * zz * (1 + zz * zf))
+            sm1, sdm1 = es_unmagnetized.first_moment_scalar(complex(z))
+            for got, dgot in ((m1[i], dm1[i]), (sm1, sdm1)):
+                assert abs(got - ref) <= 1e-12 * abs(ref), z
+                assert abs(dgot - dref) <= 1e-11 * abs(dref), z
+
+
+@pytest.mark.parametrize("n_omega", [1, 3, 50])
+def test_species_sum_equals_builder_sum(n_omega: int) -> None:
+    # Source: the builder itself (an identity): SpeciesSum caches the k-dependent
+    # constants and evaluates every species in one pass (point by point in Python for
+    # few ω); it must equal Σ_s of susceptibility() to rounding, drift and anisotropy
+    # included, in both half-planes of ω.
+    species = (electron(2.0, 3.0, drift=3e5), proton(0.5, 0.8, drift=-1e4),
+               Species("a", 2, 4 * M_PROTON, 1e15, 1.0, 1.0))
+    k_par, k_perp = 2.0e3, 1.1e3
+    rng = np.random.default_rng(RNG_SEED + n_omega)
+    wpe = species[0].plasma_frequency
+    omega = (rng.uniform(-3, 3, n_omega) + 1j * rng.uniform(-0.5, 0.5, n_omega)) * wpe
+    summed = es_unmagnetized.SpeciesSum.for_species(species, k_par=k_par, k_perp=k_perp)
+    assert summed is not None
+    value, derivative = summed(omega)
+    ref_v = sum(es_unmagnetized.susceptibility(omega, s, k_par=k_par, k_perp=k_perp).value
+                for s in species)
+    ref_d = sum(es_unmagnetized.susceptibility(omega, s, k_par=k_par, k_perp=k_perp).derivative
+                for s in species)
+    np.testing.assert_allclose(value, ref_v, rtol=1e-13)
+    np.testing.assert_allclose(derivative, ref_d, rtol=1e-13)
+    collisional = Species("c", -1, M_ELECTRON, 1e16, 2.0, 2.0, collision_frequency=1e6)
+    assert es_unmagnetized.SpeciesSum.for_species(
+        (*species, collisional), k_par=k_par, k_perp=k_perp) is None

@@ -235,3 +235,31 @@ def test_deep_lower_half_plane_correct_or_non_finite(x: float, d: float) -> None
             # compare in mpmath: the reference may lie beyond double range (then any
             # finite result is wrong and the comparison fails, as it must)
             assert mp.fabs(mp.mpc(got) - ref) <= 1e-12 * mp.fabs(ref), (zeta, got, ref)
+
+
+def test_scalar_path_against_mpmath() -> None:
+    # Source: mpmath erfc (DLMF 7.2.3) at 30 digits, F = 1 + ζZ = -Z'/2 (Fried & Conte 1961).
+    # The one-point Python path must give Z and F to the accuracy of the array path, in
+    # all three regions of both half-planes, on the real axis and on the region edges.
+    rng = np.random.default_rng(7)
+    radii = np.concatenate([rng.uniform(0, 2, 40), rng.uniform(2, 8, 60), rng.uniform(8, 12, 30)])
+    zeta = radii * np.exp(1j * rng.uniform(-np.pi, np.pi, radii.size))
+    zeta = np.concatenate([zeta, [2.0, -3.0, 4.0 + 0j, 8.0, -5.3 - 1e-9j, 2.4 + 0.01j]])
+    for zv in zeta:
+        z, f = zfunc.z_and_f_scalar(complex(zv))
+        z_ref, zp_ref = mp_z_and_prime(complex(zv))
+        f_ref = -0.5 * zp_ref
+        assert abs(z - z_ref) <= 1e-12 * abs(z_ref), zv
+        assert abs(f - f_ref) <= 1e-12 * abs(f_ref), zv
+        z_arr, zp_arr = plasma_z_and_prime(np.array([zv]))
+        assert abs(z - z_arr[0]) <= 1e-13 * abs(z_arr[0]), zv
+        assert abs(f + 0.5 * zp_arr[0]) <= 1e-13 * abs(zp_arr[0]), zv
+
+
+def test_scalar_path_overflow_raises() -> None:
+    # Where exp(-ζ²) overflows the array functions give inf/nan; the scalar path raises
+    # OverflowError instead (its callers then fall back to the array path).
+    with pytest.raises(OverflowError):
+        zfunc.z_and_f_scalar(complex(0.5, -30.0))
+    z, zp = plasma_z_and_prime(np.array([0.5 - 30.0j]))
+    assert not (np.isfinite(z[0]) and np.isfinite(zp[0]))

@@ -10,14 +10,17 @@ in eV).
 
 from __future__ import annotations
 
+import cmath
+import math
+
 import numpy as np
 from scipy.special import wofz
 
 from kinroots.models.base import Susceptibility
 from kinroots.plasma import EV, Species
-from kinroots.zfunc import plasma_z_and_prime
+from kinroots.zfunc import plasma_z_and_prime, z_and_f_scalar
 
-__all__ = ["landau_moments", "susceptibility"]
+__all__ = ["SpeciesSum", "first_moment", "landau_moments", "susceptibility"]
 
 #: |ζ| below which Z comes from the bare Faddeeva function (1 + ζZ loses < 4|ζ|⁴ ulp).
 _ZETA_FADDEEVA = 2.0
@@ -65,21 +68,48 @@ def _terms_needed(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _series_moments(z: np.ndarray, order: int) -> tuple[list[np.ndarray], list[np.ndarray]]:
-    """Moments M_0 … M_order and their ζ-derivatives for |ζ| ≥ _ZETA_SERIES."""
+    """Moments M_0 … M_order and their ζ-derivatives for |ζ| ≥ _ZETA_SERIES.
+
+    The polynomials in u = 1/ζ² of every moment are summed in one Horner pass over a
+    (polynomials × points) array; a shorter polynomial is padded with zero leading
+    coefficients, which leaves its Horner sum bit for bit unchanged.
+    """
     u = 1.0 / (z * z)
     zi = 1.0 / z
     a, n = _terms_needed(z)
-    m0 = _horner(u, a) * zi
-    dm0 = -u * _horner(u, (2 * n + 1) * a)
-    m1 = u * _horner(u, a[1:])
-    dm1 = -zi * u * _horner(u, 2 * n[1:] * a[1:])
-    ms, dms = [m0, m1], [dm0, dm1]
+    count = a.size
+    rows = [a, (2 * n + 1) * a, a[1:], 2 * n[1:] * a[1:]]
+    if order >= 2:
+        rows.append((1 - 2 * n[1:]) * a[1:])
+    if order >= 3:
+        rows += [a[2:], (2 * n[2:] - 2) * a[2:]]
+    table = np.zeros((len(rows), count))
+    for r, row in enumerate(rows):
+        table[r, : row.size] = row
+    if z.size == 1:  # one point: the same Horner sums in Python arithmetic
+        uu = complex(u.reshape(-1)[0])
+        sums = []
+        for row in table.tolist():
+            s = complex(row[-1])
+            for c in row[-2::-1]:
+                s = s * uu + c
+            sums.append(s)
+        acc = np.array(sums, dtype=complex).reshape((-1,) + z.shape)
+    else:
+        acc = np.empty((len(rows),) + z.shape, dtype=complex)
+        acc[...] = table[:, -1].reshape((-1,) + (1,) * z.ndim)
+        for j in range(count - 2, -1, -1):
+            acc *= u
+            acc += table[:, j].reshape((-1,) + (1,) * z.ndim)
+    m1 = u * acc[2]
+    ms = [acc[0] * zi, m1]
+    dms = [-u * acc[1], -zi * u * acc[3]]
     if order >= 2:
         ms.append(z * m1)
-        dms.append(u * _horner(u, (1 - 2 * n[1:]) * a[1:]))
+        dms.append(u * acc[4])
     if order >= 3:
-        ms.append(u * _horner(u, a[2:]))
-        dms.append(-zi * u * _horner(u, (2 * n[2:] - 2) * a[2:]))
+        ms.append(u * acc[5])
+        dms.append(-zi * u * acc[6])
     # Landau (exponential) part of Z: σ i√π exp(−ζ²), σ = 0, 1, 2 above, on, below
     # the real axis.  Evaluated only where σ ≠ 0 so that exp never overflows uselessly.
     sigma = np.where(z.imag > 0, 0.0, np.where(z.imag == 0, 1.0, 2.0))
@@ -119,6 +149,147 @@ def _middle_moments(z: np.ndarray, order: int) -> tuple[list[np.ndarray], list[n
     """_ZETA_FADDEEVA ≤ |ζ| < _ZETA_SERIES: Z and Z′ = −2(1 + ζZ) from kinroots.zfunc."""
     zf, zp = plasma_z_and_prime(z)
     return _moments_from_z(z, np.asarray(zf), 0.5 * np.asarray(zp), order)
+
+
+#: Largest number of ω that :class:`SpeciesSum` evaluates point by point in Python.
+_SCALAR_POINTS = 4
+#: |ζ| splitting the series region in two, so that the many points of slow species far
+#: above it are summed with the few terms their own smallest |ζ| needs.
+_ZETA_SERIES_SPLIT = 20.0
+
+
+def _series_m1(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """M_1 and dM_1/dζ alone for |ζ| ≥ _ZETA_SERIES (the series of ``_series_moments``)."""
+    u = 1.0 / (z * z)
+    a, n = _terms_needed(z)
+    m1 = u * _horner(u, a[1:])
+    dm1 = (-u / z) * _horner(u, 2.0 * n[1:] * a[1:])
+    # Landau part, as in _series_moments: M_1 −= ζ e, dM_1 += (2ζ² − 1) e.
+    lower = z.imag <= 0.0
+    if lower.any():
+        zl = z[lower]
+        zz = zl * zl
+        e = np.where(zl.imag == 0.0, 1.0, 2.0) * (1j * _SQRT_PI) * np.exp(-zz)
+        m1[lower] -= zl * e
+        dm1[lower] += (2.0 * zz - 1.0) * e
+    return m1, dm1
+
+
+def _small_m1(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """M_1 and dM_1/dζ for |ζ| < _ZETA_FADDEEVA (bare Faddeeva function)."""
+    zf = (1j * _SQRT_PI) * wofz(z)
+    m1 = -(1.0 + z * zf)
+    return m1, -zf - 2.0 * z * m1
+
+
+def _middle_m1(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """M_1 = Z′/2 and dM_1/dζ = −Z − 2ζM_1 for _ZETA_FADDEEVA ≤ |ζ| < _ZETA_SERIES."""
+    zf, zp = plasma_z_and_prime(z)
+    m1 = 0.5 * zp
+    return m1, -zf - 2.0 * z * m1
+
+
+def _lean_kernel(r: float):  # noqa: ANN202 - private dispatch helper
+    """The order-1 kernel for a point of modulus ``r`` (NaN: the Faddeeva one)."""
+    if r >= _ZETA_SERIES:
+        return _series_m1
+    return _middle_m1 if r >= _ZETA_FADDEEVA else _small_m1
+
+
+#: Series coefficients and their derivative weights 2n·a_n, n = 1 … _N_TERMS − 1, as floats.
+_A_LIST = [float(c) for c in _A]
+_DA_LIST = [float(2 * n * c) for n, c in enumerate(_A)]
+
+
+def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
+    """:func:`first_moment` at one finite point, in Python arithmetic.
+
+    Parameters
+    ----------
+    zeta : complex
+        Normalized frequency ζ, finite.
+
+    Returns
+    -------
+    m1, dm1 : complex
+        M_1(ζ) and dM_1/dζ, by the regions and formulas of :func:`landau_moments`.
+
+    Raises
+    ------
+    OverflowError
+        Where the Landau exponential overflows (the array version gives inf or nan).
+    """
+    r = abs(zeta)
+    if r < _ZETA_SERIES:
+        if r < _ZETA_FADDEEVA:
+            zf = (1j * _SQRT_PI) * complex(wofz(zeta))
+            m1 = -(1.0 + zeta * zf)
+        else:
+            zf, f = z_and_f_scalar(zeta)
+            m1 = -f
+        return m1, -zf - 2.0 * zeta * m1
+    u = 1.0 / (zeta * zeta)
+    # terms kept as in _terms_needed, with this point's own |ζ|
+    ua = 1.0 / (r * r)
+    count = _N_TERMS
+    power = ua
+    for i in range(2, _N_TERMS):
+        power *= ua  # ua**i
+        if _A_LIST[i] * power < 1e-18:
+            count = i + 1
+            break
+    acc = _A_LIST[count - 1]
+    dacc = _DA_LIST[count - 1]
+    for n in range(count - 2, 0, -1):
+        acc = acc * u + _A_LIST[n]
+        dacc = dacc * u + _DA_LIST[n]
+    m1 = u * acc
+    dm1 = -(u / zeta) * dacc
+    if zeta.imag <= 0.0:
+        e = (1.0 if zeta.imag == 0.0 else 2.0) * (1j * _SQRT_PI) * cmath.exp(-(zeta * zeta))
+        m1 -= zeta * e
+        dm1 += (2.0 * zeta * zeta - 1.0) * e
+    return m1, dm1
+
+
+def first_moment(zeta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """M_1(ζ) = −(1 + ζZ) and dM_1/dζ = −Z − 2ζM_1 alone (see :func:`landau_moments`).
+
+    Parameters
+    ----------
+    zeta : ndarray of complex
+        Normalized frequency ζ, 1-d.
+
+    Returns
+    -------
+    m1, dm1 : ndarray of complex
+        M_1 and its ζ-derivative, shaped like ``zeta``.
+
+    Notes
+    -----
+    The same regions and formulas as :func:`landau_moments` with ``order=1``, without the
+    moment M_0 and its derivative that the electrostatic susceptibility does not use.
+    The series region is split at |ζ| = 20: each part is summed with the terms its
+    smallest |ζ| needs. The caller sets ``np.errstate``.
+    """
+    z = zeta
+    if z.size == 1:
+        return _lean_kernel(float(abs(z[0])))(z)
+    az = np.abs(z)
+    series = az >= _ZETA_SERIES
+    middle = (az >= _ZETA_FADDEEVA) & ~series
+    small = ~(series | middle)  # NaN goes here and stays NaN
+    m1 = np.empty_like(z)
+    dm1 = np.empty_like(z)
+    far = series & (az >= _ZETA_SERIES_SPLIT)
+    near = series & ~far
+    for kernel, mask in ((_small_m1, small), (_middle_m1, middle), (_series_m1, near),
+                         (_series_m1, far)):
+        if mask.any():
+            a, b = kernel(z[mask])
+            m1[mask] = a
+            dm1[mask] = b
+    return m1, dm1
 
 
 def landau_moments(
@@ -163,6 +334,13 @@ def landau_moments(
     """
     z = np.asarray(zeta, dtype=complex)
     with np.errstate(all="ignore"):
+        if z.size == 1:  # one point: its region without masks (NaN: the Faddeeva one)
+            r = abs(complex(z.reshape(-1)[0]))
+            if r >= _ZETA_SERIES:
+                return _series_moments(z, order)
+            if r >= _ZETA_FADDEEVA:
+                return _middle_moments(z, order)
+            return _small_moments(z, order)
         az = np.abs(z)
         regions = (
             (_small_moments, ~(az >= _ZETA_FADDEEVA)),  # NaN goes here and stays NaN
@@ -250,19 +428,113 @@ def susceptibility(
         from kinroots.models import krook
 
         return krook.susceptibility(omega, species, k_par=k_par, k_perp=k_perp)
-    om, kpar, kperp = np.broadcast_arrays(
-        np.asarray(omega, dtype=complex),
-        np.asarray(k_par, dtype=complex),
-        np.asarray(k_perp, dtype=complex),
-    )
+    om = np.asarray(omega, dtype=complex)
     wpar2, wperp2 = thermal_speeds_squared(species)
     wp2 = species.plasma_frequency**2
     with np.errstate(all="ignore"):
-        kappa2 = kperp * kperp * wperp2 + kpar * kpar * wpar2
+        if np.ndim(k_par) == 0 and np.ndim(k_perp) == 0:  # scalar k: no broadcast copies
+            kpar = complex(k_par)
+            kperp = complex(k_perp)
+            kappa2 = np.complex128(kperp * kperp * wperp2 + kpar * kpar * wpar2)
+        else:
+            om, kpar, kperp = np.broadcast_arrays(
+                om, np.asarray(k_par, dtype=complex), np.asarray(k_perp, dtype=complex)
+            )
+            kappa2 = kperp * kperp * wperp2 + kpar * kpar * wpar2
         kappa = np.sqrt(kappa2)
-        zeta = (om - kpar * species.drift) / kappa
-        ms, dms = landau_moments(zeta, order=1)
+        zeta = np.asarray((om - kpar * species.drift) / kappa)
+        m1, dm1 = first_moment(zeta.ravel())
         coef = -2.0 * wp2 / kappa2
-        value = coef * ms[1]
-        derivative = coef * dms[1] / kappa
+        value = coef * m1.reshape(zeta.shape)
+        derivative = (coef / kappa) * dm1.reshape(zeta.shape)
     return Susceptibility(value=value, derivative=derivative, harmonics=0)
+
+
+class SpeciesSum:
+    """Σ_s χ_s and Σ_s ∂χ_s/∂ω of collisionless species at one fixed k, all species at once.
+
+    Parameters
+    ----------
+    species : sequence of Species
+        The species (none with ``collision_frequency`` > 0: see :meth:`for_species`).
+    k_par, k_perp : complex
+        Wave-vector components along and across z [1/m] (scalars).
+
+    Notes
+    -----
+    The same χ_s as :func:`susceptibility`, with the per-species constants that depend
+    on k only (κ_s, k∥V_s, −2ω_ps²/κ_s², and that over κ_s) formed once, here; a call
+    forms ζ for every species in one array, evaluates M_1 and dM_1/dζ on it in one
+    :func:`first_moment` pass and contracts with the constants.
+    """
+
+    def __init__(self, species: tuple[Species, ...], *, k_par: complex, k_perp: complex) -> None:
+        kpar = complex(k_par)
+        kperp = complex(k_perp)
+        constants = []
+        for s in species:
+            wpar2, wperp2 = thermal_speeds_squared(s)
+            kappa2 = kperp * kperp * wperp2 + kpar * kpar * wpar2
+            kappa = cmath.sqrt(kappa2)  # principal root, as np.sqrt in susceptibility()
+            coef = -2.0 * s.plasma_frequency**2 / kappa2  # ZeroDivisionError if κ = 0
+            constants.append((kpar * s.drift, kappa, coef, coef / kappa))
+        self._scalar_constants = tuple(constants)
+        self._arrays: tuple[np.ndarray, ...] | None = None  # built on the first array call
+
+    @classmethod
+    def for_species(
+        cls, species: tuple[Species, ...], *, k_par: complex, k_perp: complex
+    ) -> SpeciesSum | None:
+        """The sum for ``species``, or None if one of them is collisional (Krook model)."""
+        if any(s.collision_frequency > 0.0 for s in species) or not species:
+            return None
+        try:
+            return cls(tuple(species), k_par=k_par, k_perp=k_perp)
+        except (ZeroDivisionError, OverflowError, ValueError):  # κ = 0 or non-finite
+            return None
+
+    def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Σ_s χ_s(ω) and Σ_s ∂χ_s/∂ω, shaped like ``omega`` (complex, rad/s).
+
+        A few finite ω (the root tracer's calls) are evaluated point by point in Python
+        arithmetic (:func:`first_moment_scalar`), free of numpy's per-call overhead; any
+        other input, or an overflow there, takes the array path.
+        """
+        om = np.asarray(omega, dtype=complex)
+        if om.size <= _SCALAR_POINTS:
+            try:
+                return self._scalar_sum(om)
+            except (OverflowError, ZeroDivisionError, ValueError):
+                pass  # non-finite ω or exp overflow: the array path gives inf/nan
+        if self._arrays is None:
+            shift, kappa, coef, dcoef = (np.array(c, dtype=complex)
+                                         for c in zip(*self._scalar_constants, strict=True))
+            self._arrays = (shift[:, None], kappa[:, None], coef, dcoef)
+        shift, kappa, coef, dcoef = self._arrays
+        with np.errstate(all="ignore"):
+            zeta = (om.reshape(1, -1) - shift) / kappa
+            m1, dm1 = first_moment(zeta.ravel())
+            n = zeta.shape[1]
+            value = coef @ m1.reshape(-1, n)
+            derivative = dcoef @ dm1.reshape(-1, n)
+        return value.reshape(om.shape), derivative.reshape(om.shape)
+
+    def _scalar_sum(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The sums at each of a few finite ω, in Python arithmetic (raises ValueError for a
+        non-finite ω and OverflowError where an exponential overflows)."""
+        values = []
+        derivatives = []
+        for w in om.ravel().tolist():
+            if not (math.isfinite(w.real) and math.isfinite(w.imag)):
+                raise ValueError("non-finite frequency")
+            v = d = 0j
+            for shift, kappa, coef, dcoef in self._scalar_constants:
+                m1, dm1 = first_moment_scalar((w - shift) / kappa)
+                v += coef * m1
+                d += dcoef * dm1
+            values.append(v)
+            derivatives.append(d)
+        return (
+            np.array(values, dtype=complex).reshape(om.shape),
+            np.array(derivatives, dtype=complex).reshape(om.shape),
+        )
