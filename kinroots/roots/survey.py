@@ -58,7 +58,10 @@ __all__ = ["find_roots"]
 
 _N_INIT_OUTER = 8  # initial intervals per outer edge
 _N_INIT_LINE = 6  # initial intervals per subdivision line
-_SPLIT_FRACTIONS = (0.5, 0.42, 0.58, 0.34, 0.66, 0.27, 0.73)
+#: Where a cell is cut across its longer side, in order of preference.  Not 0.5: search
+#: windows are often symmetric about a line that holds roots (purely growing modes on
+#: Re ω = 0, real roots on Im z = 0), and a cut through a zero cannot be resolved.
+_SPLIT_FRACTIONS = (0.4871, 0.5377, 0.4213, 0.5829, 0.3419, 0.6637, 0.2731, 0.7269)
 
 
 def _inside(z: complex, box: Box, margin: float = 0.0) -> bool:
@@ -70,6 +73,10 @@ def _inside(z: complex, box: Box, margin: float = 0.0) -> bool:
 
 def _diameter(box: Box) -> float:
     return math.hypot(box[1] - box[0], box[3] - box[2])
+
+
+#: Absolute floor of the Newton stopping test, as a fraction of rtol × box diameter.
+_ATOL_FRACTION = 1e-3
 
 
 class _Survey:
@@ -92,7 +99,9 @@ class _Survey:
         self.box = box
         self.diam0 = _diameter(box)
         self.excluded = np.asarray(list(excluded), dtype=complex)
-        self.rtol, self.atol = rtol, atol
+        # A purely relative test can never be met by a zero at z = 0: give the stopping
+        # test an absolute floor far below the box scale (1e-3·rtol·diameter).
+        self.rtol, self.atol = rtol, max(atol, _ATOL_FRACTION * rtol * self.diam0)
         self.max_depth = max_depth
         self.max_evaluations = max_evaluations
         self.cluster_size = cluster_size
@@ -408,6 +417,20 @@ class _Survey:
         good = sorted((r for r in roots if r.converged),
                       key=lambda r: (round(r.value.real, 12), r.value.imag))
         bad = [r for r in roots if not r.converged]
+        # Two cells whose Newton iterations ended on the same zero: keep it once; one
+        # cell's own zero was then missed, so the survey cannot be complete.
+        distinct: list[RootResult] = []
+        for r in good:
+            same = [q for q in distinct
+                    if abs(r.value - q.value) <= 1e3 * self._tol(r.value) + 1e-12 * self.diam0]
+            if same:
+                self.notes.append(f"zero near {r.value!r} found from two cells; a zero of "
+                                  "one of those cells was missed")
+                bad.append(replace(r, converged=False, status=Status.NOT_ATTEMPTED,
+                                   reason="duplicate of another cell's zero"))
+                continue
+            distinct.append(r)
+        good = distinct
         found = sum(r.multiplicity for r in good)
         return SurveyResult(
             roots=good + bad,
