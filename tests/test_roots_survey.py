@@ -127,3 +127,13 @@ def test_random_polynomials(pairs: list[tuple[float, float]]) -> None:
     assert res.complete, res.notes
     assert res.values.size == roots.size
     assert np.all(_match(res.values, roots) <= 1e-10)
+
+
+def test_roots_on_the_symmetry_lines_of_a_symmetric_box() -> None:
+    # Source: roots by construction. Symmetric windows put roots on the lines a naive
+    # bisection cuts along (found by hypothesis: a zero at 0 was missed and −0.25 reported
+    # twice); the survey must find every one, once.
+    roots = np.array([0, 1j, 1.5j, -1j, -0.25, 0.5])
+    res = find_roots(product_of_linear(roots), (-2.0, 2.0, -2.0, 2.0))
+    assert res.complete and res.count == roots.size and res.values.size == roots.size
+    assert np.all(_match(res.values, roots) <= 1e-12)
