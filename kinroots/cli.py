@@ -219,10 +219,19 @@ def _check_output_dir(out: Path) -> None:
 def _describe_root(row: dict[str, Any] | None, case: Case) -> str:
     if row is None:
         return "none"
+    from kinroots.scan import GROWTH_RESOLUTION
+
     lbl = case.units.frequency_label
+    w = complex(row["omega_real"], row["omega_imag"])
+    floor = GROWTH_RESOLUTION * case.solver.tolerance * abs(w)
+    if abs(w.imag) <= floor:
+        return (
+            f"branch {row['branch']} at k = {row['k']:.4g}: ω = {w.real:.6g} {lbl}, "
+            f"|γ| < {floor:.1g} {lbl} (below the root tolerance; f = {row['freq_hz']:.4g} Hz)"
+        )
     return (
-        f"branch {row['branch']} at k = {row['k']:.4g}: ω = {row['omega_real']:.6g} "
-        f"{'+' if row['omega_imag'] >= 0 else '−'} {abs(row['omega_imag']):.4g}i {lbl} "
+        f"branch {row['branch']} at k = {row['k']:.4g}: ω = {w.real:.6g} "
+        f"{'+' if w.imag >= 0 else '−'} {abs(w.imag):.4g}i {lbl} "
         f"(f = {row['freq_hz']:.4g} Hz, γ = {row['gamma_per_s']:.4g} 1/s)"
     )
 
