@@ -59,11 +59,10 @@ KINETIC_SOURCE = (
     "derived here: threshold 2 + (β∥²/8 − 2β∥ + 2)(k d_p)²"
 )
 #: Root tolerance.  Near threshold at x = ω/Ω_p ~ 3e-3 two cancellations cost digits in
-#: D: the electron and proton Hall terms ±ω_ps²/(ωΩ_s) (each ~ (c/v_A)²/x) cancel to
-#: O(x), and n² cancels the anisotropy part of ε to O(κ²); Newton's correction then
-#: stalls near 1e-8 relative (measured 1.3e-8 at k d_p = 0.03).  1e-7 is asked for: it
-#: moves the threshold by < 1e-9, far inside the tolerances.
-ROOT_RTOL = 1e-7
+#: Root tolerance.  The electron and proton Hall terms ±ω_ps²/(ωΩ_s) cancel to O(ω/Ω)
+#: and n² cancels the anisotropy part of ε to O(κ²); since the electromagnetic builders
+#: form the scaled D without those cancellations, Newton reaches 1e-12 here.
+ROOT_RTOL = 1e-12
 BETAS = (4.0, 8.0)
 KAPPA_SMALL, KAPPA_NEXT = 0.03, 0.05
 #: Measured O(κ⁴) behaviour: (threshold − 2)/κ² − c ≈ −C4 κ² with C4 ≈ 30 (β∥ = 4) and
