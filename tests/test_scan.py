@@ -193,3 +193,24 @@ def test_spatial_damping_of_ion_acoustic_wave_matches_group_velocity():
     # the spatial root is an exact root of the temporal function at complex k
     d = scan.dispersion_at(case, kc)(np.array([ia.real * case.units.omega_unit]))[0]
     assert abs(d[0]) < 1e-8
+
+
+@pytest.mark.parametrize("name", ["magnetized_oblique_electron_waves", "space_protons_alphas"])
+def test_spatial_damping_in_magnetized_models_matches_group_velocity(name):
+    """Magnetized spatial problem (dD/dk by a Cauchy circle, ES and EM): Im k ≈ −γ/v_g
+    for weak damping (common practice; corrections O((γ/ω)²), here < 1e-6 relative)."""
+    case = load_case(Path(__file__).resolve().parent.parent / "cases" / f"{name}.toml")
+    k0 = float(case.k_values[len(case.k_values) // 4])
+    w = min(scan.survey(case, k0).values, key=lambda z: abs(z.imag))
+    assert w.imag < 0 and abs(w.imag) < 1e-4 * abs(w)
+    h = 1e-4 * k0
+    box = (w.real - 0.05 * abs(w), w.real + 0.05 * abs(w), w.imag - 0.05 * abs(w),
+           w.imag + 0.05 * abs(w))
+    wp = min(scan.survey(case, k0 + h, box=box).values, key=lambda z: abs(z - w))
+    wm = min(scan.survey(case, k0 - h, box=box).values, key=lambda z: abs(z - w))
+    vg = ((wp - wm) / (2 * h)).real
+    sp = scan.spatial_roots(case, w.real, (0.9 * k0, 1.1 * k0, -0.05 * k0, 0.05 * k0))
+    assert sp.complete and len(sp.values) == 1
+    kc = sp.values[0]
+    assert kc.real == pytest.approx(k0, rel=1e-6)
+    assert kc.imag == pytest.approx(-w.imag / vg, rel=1e-3)
