@@ -201,21 +201,8 @@ def susceptibility(
         p = species.plasma_frequency**2 / (om * om)
         dp = -2.0 * p / om
 
-        def assemble(sp: np.ndarray, sy: np.ndarray, sz: np.ndarray) -> np.ndarray:
-            t = np.empty(om.shape + (3, 3), dtype=complex)
-            t[..., 0, 0] = -sp[..., 0]
-            t[..., 0, 1] = -1j * sp[..., 1]
-            t[..., 1, 0] = 1j * sp[..., 1]
-            t[..., 1, 1] = -sp[..., 2]
-            t[..., 0, 2] = kappa * sy[..., 0]
-            t[..., 2, 0] = t[..., 0, 2]
-            t[..., 1, 2] = -1j * kappa * sy[..., 1]
-            t[..., 2, 1] = -t[..., 1, 2]
-            t[..., 2, 2] = zfac * sz
-            return t
-
-        core = assemble(s_phi, s_y, s_z)
-        dcore = assemble(ds_phi, ds_y, ds_z)
+        core = _tensor(s_phi, s_y, s_z, kappa, zfac)
+        dcore = _tensor(ds_phi, ds_y, ds_z, kappa, zfac)
         value = p[..., None, None] * core
         derivative = dp[..., None, None] * core + p[..., None, None] * dcore
         bad = ~np.isfinite(om)
