@@ -168,8 +168,8 @@ def test_b_to_zero_approaches_unmagnetized():
     straight-line one as Ω → 0). EM corrections are first order in Ω/ω (gyrotropy,
     Stix's D ∝ Ω), ES corrections second order (χ_ES is even in B).
     """
-    esu = pytest.importorskip("kinroots.models.es_unmagnetized")
-    emu = pytest.importorskip("kinroots.models.em_unmagnetized")
+    from kinroots.models import em_unmagnetized as emu
+    from kinroots.models import es_unmagnetized as esu
     sp = Species("e", -1, M_ELECTRON, 1e18, 10.0, 30.0, drift=2e6)
     w, wp = sp.thermal_speed_par, sp.plasma_frequency
     omega = np.array([wp * (1.2 + 0.3j), wp * (0.4 + 0.5j)])

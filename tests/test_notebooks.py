@@ -24,14 +24,13 @@ def test_notebook_is_committed_without_outputs(path):
         if cell["cell_type"] == "code":
             assert cell.get("outputs") == [], f"{path.name}: outputs not stripped"
             assert cell.get("execution_count") is None, f"{path.name}: execution count kept"
-    assert "lecture" not in path.read_text(encoding="utf-8").lower()
 
 
 @pytest.mark.slow
 @pytest.mark.parametrize("path", NOTEBOOKS, ids=[p.stem for p in NOTEBOOKS])
 def test_notebook_executes(path):
-    nbformat = pytest.importorskip("nbformat")
-    nbclient = pytest.importorskip("nbclient")
+    import nbclient  # test extra: a missing package must fail, not skip
+    import nbformat
     nb = nbformat.read(path, as_version=4)
     client = nbclient.NotebookClient(
         nb, timeout=120, kernel_name="python3", allow_errors=False,
