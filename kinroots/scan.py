@@ -132,7 +132,14 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     # pole.
     dr, di = 0.05 * (b[1] - b[0]), 0.05 * (b[3] - b[2])
     wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
-    return find_roots(f, b, excluded=f.excluded(wide), rtol=case.solver.tolerance)
+    res = find_roots(f, b, excluded=f.excluded(wide), rtol=case.solver.tolerance)
+    if any("is not finite" in n for n in res.notes):
+        res.notes.append(
+            "D overflows there: the Landau term exp(-zeta^2) of a cold species exceeds "
+            "double precision deep in the lower half-plane; keep Im(omega) above about "
+            "-|Re(omega)| on the frequency scale k*w of the coldest species (README, limits)"
+        )
+    return res
 
 
 @dataclass

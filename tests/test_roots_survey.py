@@ -137,3 +137,18 @@ def test_roots_on_the_symmetry_lines_of_a_symmetric_box() -> None:
     res = find_roots(product_of_linear(roots), (-2.0, 2.0, -2.0, 2.0))
     assert res.complete and res.count == roots.size and res.values.size == roots.size
     assert np.all(_match(res.values, roots) <= 1e-12)
+
+
+def test_box_where_f_is_not_finite_is_reported_not_solved() -> None:
+    # Source: construction. f overflows (inf) below Im z = −1: a box reaching there cannot
+    # be counted; the survey must say so instead of shifting edges or guessing.
+    def f(z):
+        z = np.asarray(z, dtype=complex)
+        val = np.where(z.imag < -1.0, np.inf + 0j, z - 0.3j)
+        return val, np.where(z.imag < -1.0, np.inf + 0j, np.ones_like(z))
+
+    res = find_roots(f, (-1.0, 1.0, -2.0, 1.0))
+    assert not res.complete and res.count is None and res.values.size == 0
+    assert any("not finite" in n for n in res.notes)
+    ok = find_roots(f, (-1.0, 1.0, -0.9, 1.0))
+    assert ok.complete and np.allclose(ok.values, [0.3j], atol=1e-12)

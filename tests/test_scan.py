@@ -214,3 +214,16 @@ def test_spatial_damping_in_magnetized_models_matches_group_velocity(name):
     kc = sp.values[0]
     assert kc.real == pytest.approx(k0, rel=1e-6)
     assert kc.imag == pytest.approx(-w.imag / vg, rel=1e-3)
+
+
+def test_window_reaching_the_overflow_region_is_reported_with_a_hint():
+    # Cold-ion Landau term exp(−ζ_i²) overflows where (Im ζ_i)² − (Re ζ_i)² > ~708
+    # (Fried & Conte continuation; common practice): the survey must refuse, with a hint.
+    case = electrons_only(0.3, 0.4, 2, (0.01, 3.0, -1.0, 0.5))
+    data = dict(case.raw)
+    data["species"] = [*data["species"], {"name": "H+", "charge": 1, "mass": "proton",
+                                          "density": 1e18, "temperature": 1.0}]
+    case = parse_case(data, "<test>")
+    s = scan.survey(case, 0.3)
+    assert not s.complete and s.values.size == 0
+    assert any("overflows" in n for n in s.notes)

@@ -199,6 +199,7 @@ class EdgeStatus:
 
     resolved: bool
     trouble: list[complex] = field(default_factory=list)  # where it could not resolve
+    nonfinite: bool = False  # f or f' was not finite at a sample (e.g. overflow)
 
 
 class BoundarySampler:
@@ -279,9 +280,11 @@ class BoundarySampler:
                 if status[i] is not None:
                     continue
                 z, f, d = self.samples(e)
-                bad_pt = ~np.isfinite(f) | ~np.isfinite(d) | (f == 0)
+                nonfinite = ~np.isfinite(f) | ~np.isfinite(d)
+                bad_pt = nonfinite | (f == 0)
                 if np.any(bad_pt):
-                    status[i] = EdgeStatus(False, [complex(v) for v in z[bad_pt]])
+                    status[i] = EdgeStatus(False, [complex(v) for v in z[bad_pt]],
+                                           nonfinite=bool(np.any(nonfinite)))
                     continue
                 ok = segment_ok(z, f, d)
                 if np.all(ok):

@@ -164,11 +164,22 @@ class _Survey:
             if self.sampler.budget_exhausted:
                 self.notes.append("evaluation budget exhausted on the outer boundary")
                 return None
+            names = ("bottom", "right", "top", "left")
+            overflow = [i for i in bad if status[i].nonfinite]
+            if overflow:
+                for i in overflow:
+                    where = ", ".join(f"{z:.6g}" for z in status[i].trouble[:3])
+                    self.notes.append(
+                        f"f is not finite on the {names[i]} edge near {where} (it overflows "
+                        "or is undefined there): the box cannot be surveyed; choose one "
+                        "that stays where f can be evaluated"
+                    )
+                self.box = box
+                return None
             if attempt == 3:
                 break
             delta = 10.0 ** (attempt - 4) * self.diam0
             x0, x1, y0, y1 = box
-            names = ("bottom", "right", "top", "left")
             for i in bad:
                 where = ", ".join(f"{z:.6g}" for z in status[i].trouble[:3])
                 self.notes.append(
