@@ -647,14 +647,31 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
     solver = _check_solver(chk, data)
     launch = _check_launch(chk, data)
     for i, s in enumerate(species, start=1):
-        if s is not None and s.collision_frequency > 0 and (
-            model == "electromagnetic" or (B is not None and B != 0.0)
-        ):
+        if s is None or not s.collision_frequency > 0:
+            continue
+        magnetized = B is not None and B != 0.0
+        if model == "electromagnetic":
             chk.error(
                 f"species[{i}].collision_frequency",
                 f"got {s.collision_frequency!r}, but collisions (Krook model) are available "
-                "only for the unmagnetized electrostatic model; expected 0 here, or "
-                'wave.model = "electrostatic" with magnetic_field.B = 0',
+                "only for the electrostatic model; expected 0 here, or "
+                'wave.model = "electrostatic"',
+            )
+        elif magnetized and s.temperature_par != s.temperature_perp:
+            chk.error(
+                f"species[{i}].collision_frequency",
+                f"got {s.collision_frequency!r}, but with magnetic_field.B != 0 the Krook "
+                "model needs an isotropic species (its relaxation target is the isotropic "
+                f"Maxwellian); temperature_par = {s.temperature_par!r} and temperature_perp "
+                f"= {s.temperature_perp!r} differ; expected 0 here, or one 'temperature'",
+            )
+        elif magnetized and angle is not None and float(angle) == 90.0:
+            chk.error(
+                f"species[{i}].collision_frequency",
+                f"got {s.collision_frequency!r}, but with magnetic_field.B != 0 and "
+                "wave.angle = 90 (k_par = 0) the collisional dispersion function has poles "
+                "at the shifted harmonics n*Omega - i*nu that the root finder cannot "
+                "exclude; expected 0 here, or wave.angle != 90",
             )
 
     # units: need the species names (validated or not) and B

@@ -93,8 +93,19 @@ class NormalizedDispersion:
         if krook_es is None:  # fixed for the wrapped function: decided on the first call
             krook_es = self.__dict__["_krook_es"] = (
                 krook.collisional(disp.plasma) and not disp.electromagnetic
-                and not disp.magnetized
             )
+        if krook_es and disp.magnetized:
+            # same scaling, magnetized χ_s = N_s/Q_s; at k∥ = 0 F has poles (nΩ − iν), which
+            # the case file rejects: NaN makes such a point fail visibly if reached otherwise
+            om = np.asarray(omega, dtype=complex)
+            if disp.k_par == 0:
+                nan = np.full(om.shape, np.nan + 0j)
+                return nan, nan.copy()
+            f, fw = krook.magnetized_scaled_dispersion(
+                om * w_u, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
+                B=disp.plasma.B, tol=disp.harmonic_tol,
+            )
+            return f, fw * w_u
         if krook_es:
             # Krook χ_s has poles: hand the root layer F = (Π_s Q_s) D, entire, same zeros
             cos, sin = disp._cos, disp._sin
@@ -507,6 +518,14 @@ class SpatialFunction:
         units = self.case.units
         L = units.length_unit
         plasma = self.case.plasma
+        if krook.collisional(plasma) and self.case.model == "electrostatic" and plasma.B:
+            theta = math.radians(self.case.angle_deg)
+            f, fk = krook.magnetized_scaled_dispersion_in_k(
+                self.omega * units.omega_unit, plasma.species,
+                k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
+                sin_theta=math.sin(theta), B=plasma.B, tol=self.case.solver.harmonic_tolerance,
+            )
+            return f, fk / L
         if krook.collisional(plasma) and self.case.model == "electrostatic" and not plasma.B:
             theta = math.radians(self.case.angle_deg)
             f, _, fk = krook.scaled_dispersion(

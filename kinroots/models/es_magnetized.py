@@ -90,7 +90,15 @@ def susceptibility(
     S. P. Gary, *Theory of Space Plasma Microinstabilities* (Cambridge, 1993), ch. 2, 7
     (drifting bi-Maxwellian), from memory.
     I. B. Bernstein, Phys. Rev. 109, 10 (1958).
+
+    A species with ``collision_frequency`` > 0 (T∥ = T⊥ required) is handed to the
+    number-conserving Krook model, :func:`kinroots.models.krook.magnetized_susceptibility`.
     """
+    if species.collision_frequency > 0.0:
+        from kinroots.models import krook
+
+        return krook.magnetized_susceptibility(omega, species, k_par=k_par, k_perp=k_perp,
+                                               B=B, tol=tol)
     om = np.asarray(omega, dtype=complex)
     setup = prepare_species(om.shape, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol,
                             model="es_magnetized")
