@@ -6,25 +6,27 @@ solved by :func:`kinroots.scan.spatial_roots`).  With exp(i k x − i ω t) the 
 as exp(−k_i x) along the direction of k: k_i > 0 damps towards +x, the damping length
 is 1/k_i, the wavelength 2π/k_r and the phase speed ω/k_r.
 
-The search box (normalized k, the case's length unit) is surveyed at the first and at
-the last frequency; every root found at the first frequency is traced up in frequency,
-and a root found at the last frequency that no traced branch accounts for is traced
-back down (it entered the box on the way).  Failed points are recorded, not raised.
+The search box (normalized k, the case's length unit) is surveyed and the roots traced
+across frequency by the driver of ``kinroots solve``
+(:func:`kinroots.scan.follow_branches`): surveys at the first frequency, every
+``solver.resurvey_every`` frequencies and at the last; a root that no traced branch
+accounts for starts a branch traced back down to the previous survey (it entered the
+box on the way).  Failed points are recorded, not raised.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from kinroots import modes
 from kinroots.casefile import Case
-from kinroots.roots import BranchEnd, RootResult, Status, SurveyResult, Tracer, match_new_roots
-from kinroots.scan import MATCH_FRACTION, SpatialFunction, spatial_roots
+from kinroots.roots import RootResult, SurveyResult
+from kinroots.scan import SpatialFunction, TracedBranch, follow_branches, spatial_roots
 from kinroots.tables import RESULT_COLUMNS
 
 __all__ = [
@@ -59,14 +61,8 @@ LAUNCH_VALUE_COLUMNS: frozenset[str] = frozenset({
 })
 
 
-@dataclass
-class LaunchedBranch:
-    """One wave traced across frequency: normalized ω → RootResult (complex k)."""
-
-    id: int
-    points: dict[float, RootResult] = field(default_factory=dict)
-    end_reason: str = "end of frequencies"
-    note: str = ""
+#: A wave traced across frequency: normalized ω → RootResult holding normalized complex k.
+LaunchedBranch = TracedBranch
 
 
 @dataclass
@@ -85,14 +81,6 @@ class LaunchResult:
         """Failed points plus incomplete surveys (the CLI's exit code 1)."""
         n = sum(1 for b in self.branches for r in b.points.values() if not r.converged)
         return n + sum(1 for _, s in self.surveys if not s.complete)
-
-
-def _failed(value: complex, reason: str) -> RootResult:
-    return RootResult(
-        value=complex(value), converged=False, status=Status.NOT_ATTEMPTED, reason=reason,
-        residual=float("nan"), step=float("nan"), iterations=0, evaluations=0,
-        verified=False, multiplicity=1, method="trace",
-    )
 
 
 def launch(
@@ -129,69 +117,19 @@ def launch(
         box = (*spec.k_real, *spec.k_imag) if spec is not None else (0.01, 2.0, -0.01, 0.5)
     freqs = np.asarray(frequencies_hz, dtype=float)
     om = [float(2.0 * math.pi * f / case.units.omega_unit) for f in freqs]
-    rtol = case.solver.tolerance
-    tol = MATCH_FRACTION * math.hypot(box[1] - box[0], box[3] - box[2])
-    notes: list[str] = []
-    surveys: list[tuple[float, SurveyResult]] = []
-
-    def family(w: float) -> SpatialFunction:
-        return SpatialFunction(case, w)
-
-    def do_survey(i: int) -> SurveyResult:
-        s = spatial_roots(case, om[i], box)
-        surveys.append((float(freqs[i]), s))
-        if not s.complete:
-            notes.append(f"survey at f = {freqs[i]:.6g} Hz incomplete: counted {s.count}, "
-                         f"found {len(s.values)} ({'; '.join(s.notes) or 'no detail'})")
-        return s
-
-    tracer = Tracer(family, box=box, param=om[0], rtol=rtol)
-    out: list[LaunchedBranch] = []
-    for r in do_survey(0).roots:
-        if r.converged:
-            tracer.add_branch(r, param=om[0])
-            out.append(LaunchedBranch(id=len(out), points={om[0]: r}))
-        else:
-            notes.append(f"unsolved root near k = {r.value!r} at f = {freqs[0]:.6g} Hz")
-    if progress:
-        progress(1, len(om))
-    for i in range(1, len(om)):
-        if tracer.active:
-            tracer.advance_to(om[i])
-            for b in tracer.branches:
-                if b.active and b.points and b.points[-1][0] == om[i]:
-                    out[b.id].points[om[i]] = b.points[-1][1]
-        if progress:
-            progress(i + 1, len(om))
-    for b in tracer.branches:
-        lb = out[b.id]
-        if not b.active:
-            lb.end_reason = {BranchEnd.LEFT_REGION: "left the box", BranchEnd.MERGED:
-                             f"merged with branch {b.merged_with}"}.get(b.end_reason, "failed")
-            lb.note = b.note
-            if b.end_reason is BranchEnd.FAILED:
-                nxt = [w for w in om if w > max(lb.points)]
-                if nxt:
-                    lb.points[nxt[0]] = _failed(lb.points[max(lb.points)].value,
-                                                b.note or "tracing failed")
-    if len(om) > 1:
-        last = do_survey(len(om) - 1)
-        current = [lb.points[om[-1]].value for lb in out
-                   if om[-1] in lb.points and lb.points[om[-1]].converged]
-        for r in match_new_roots(current, [r for r in last.roots if r.converged], tol):
-            lb = LaunchedBranch(id=len(out), points={om[-1]: r},
-                                note="found at the last frequency, traced downwards")
-            out.append(lb)
-            back = Tracer(lambda q: SpatialFunction(case, -q), box=box, param=-om[-1],
-                          rtol=rtol)
-            bb = back.add_branch(r, param=-om[-1])
-            for w in reversed(om[:-1]):
-                back.advance_to(-w)
-                if not bb.active:
-                    break
-            for q, rr in bb.points[1:]:
-                lb.points[-q] = rr
-    return LaunchResult(case=case, frequencies_hz=freqs, box=box, branches=out,
+    branches, surveys_w, _, notes = follow_branches(
+        lambda w: SpatialFunction(case, w),
+        om,
+        box,
+        lambda w: spatial_roots(case, w, box),
+        rtol=case.solver.tolerance,
+        resurvey_every=case.solver.resurvey_every,
+        label=lambda w: f"f = {w * case.units.omega_unit / (2.0 * math.pi):.6g} Hz",
+        progress=progress,
+    )
+    to_hz = {w: float(f) for w, f in zip(om, freqs, strict=True)}
+    surveys = [(to_hz[w], s) for w, s in surveys_w]
+    return LaunchResult(case=case, frequencies_hz=freqs, box=box, branches=branches,
                         surveys=surveys, notes=notes)
 
 

@@ -192,7 +192,8 @@ class Solution:
         return n
 
 
-def _failed(value: complex, reason: str) -> RootResult:
+def failed_root(value: complex, reason: str) -> RootResult:
+    """A point that tracing could not reach: ``converged`` false, with the reason."""
     return RootResult(
         value=complex(value), converged=False, status=Status.NOT_ATTEMPTED, reason=reason,
         residual=float("nan"), step=float("nan"), iterations=0, evaluations=0,
@@ -208,6 +209,154 @@ def _end_text(b: Branch) -> str:
     if b.end_reason is BranchEnd.FAILED:
         return "failed"
     return "end of scan"
+
+
+def follow_branches(
+    family: Callable[[float], AnalyticFunction],
+    params: list[float],
+    box: tuple[float, float, float, float],
+    survey_at: Callable[[float], SurveyResult],
+    *,
+    rtol: float,
+    resurvey_every: int,
+    label: Callable[[float], str],
+    progress: Callable[[int, int], None] | None = None,
+) -> tuple[list[TracedBranch], list[tuple[float, SurveyResult]], int, list[str]]:
+    """Survey at the first parameter value, trace every root across ``params``.
+
+    The driver shared by :func:`solve` (ω across k) and :func:`kinroots.launch.launch`
+    (complex k across ω); the re-survey rule is the module docstring's.
+
+    Parameters
+    ----------
+    family : callable
+        ``family(p)`` returns the analytic function whose zeros are traced at ``p``.
+    params : list of float
+        Increasing parameter values at which the table is wanted.
+    box : (re_min, re_max, im_min, im_max)
+        Where roots are surveyed and traced.
+    survey_at : callable
+        ``survey_at(p)`` surveys ``box`` at ``p``.
+    rtol : float
+        Root tolerance of the tracer.
+    resurvey_every : int
+        Re-survey every this many points (0: only first and last).
+    label : callable
+        ``label(p)`` names a parameter value in notes (e.g. ``"k = 0.3"``).
+    progress : callable, optional
+        ``progress(done, total)`` after each parameter value.
+
+    Returns
+    -------
+    branches, surveys, evaluations, notes
+        Failed points are recorded in the branches, never raised.
+    """
+    diameter = math.hypot(box[1] - box[0], box[3] - box[2])
+    match_tol = MATCH_FRACTION * diameter
+    notes: list[str] = []
+    evaluations = 0
+
+    def family_back(q: float) -> AnalyticFunction:
+        return family(-q)
+
+    tracer = Tracer(family, box=box, param=params[0], rtol=rtol, order=4)
+    out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
+    results: list[TracedBranch] = []
+    surveys: list[tuple[float, SurveyResult]] = []
+    last_survey_index = 0
+
+    def do_survey(i: int) -> SurveyResult:
+        nonlocal evaluations
+        s = survey_at(params[i])
+        evaluations += s.evaluations
+        surveys.append((params[i], s))
+        if not s.complete:
+            notes.append(
+                f"survey at {label(params[i])} incomplete: counted {s.count} zeros, "
+                f"found {len(s.values)} ({'; '.join(s.notes) or 'no detail'})"
+            )
+        return s
+
+    def start_branch(root: RootResult, i: int) -> TracedBranch:
+        tb_ = tracer.add_branch(root, param=params[i])
+        tb = TracedBranch(id=len(results), found_at=params[i])
+        results.append(tb)
+        out[tb_.id] = tb
+        tb.points[params[i]] = root
+        tb.verified_at.add(params[i])
+        return tb
+
+    def backfill(tb: TracedBranch, root: RootResult, i: int, i_stop: int) -> None:
+        """Trace a newly found branch backwards from point i to i_stop."""
+        nonlocal evaluations
+        if i <= i_stop:
+            return
+        back = Tracer(family_back, box=box, param=-params[i], rtol=rtol)
+        bb = back.add_branch(root, param=-params[i])
+        for j in range(i - 1, i_stop - 1, -1):
+            back.advance_to(-params[j])
+            if not bb.active:
+                break
+        evaluations += back.evaluations
+        for q, r in bb.points[1:]:
+            tb.points[-q] = r
+        if not bb.active and bb.end_reason is not BranchEnd.LEFT_REGION:
+            tb.note = f"backward trace from {label(params[i])} ended: {bb.note}"
+
+    def reconcile(s: SurveyResult, i: int) -> None:
+        """Mark traced roots confirmed by survey ``s``; start branches for new roots."""
+        active = [(tid, b) for tid, b in enumerate(tracer.branches) if b.active]
+        current = [b.points[-1][1].value for _, b in active]
+        for tid, b in active:
+            z = b.points[-1][1].value
+            if any(abs(z - r) <= match_tol for r in s.values):
+                out[tid].verified_at.add(params[i])
+        for root in match_new_roots(current, [r for r in s.roots if r.converged], match_tol):
+            tb = start_branch(root, i)
+            backfill(tb, root, i, last_survey_index)
+
+    s0 = do_survey(0)
+    for root in s0.roots:
+        if root.converged:
+            start_branch(root, 0)
+        else:
+            notes.append(f"unsolved root near {root.value!r} at {label(params[0])}: "
+                         f"{root.reason}")
+    if progress:
+        progress(1, len(params))
+
+    for i in range(1, len(params)):
+        if tracer.active:
+            tracer.advance_to(params[i])
+        else:
+            tracer.param = params[i]  # nothing to trace: keep the tracer's clock
+        for tid, b in enumerate(tracer.branches):
+            tb = out[tid]
+            if b.points and b.points[-1][0] == params[i] and b.active:
+                tb.points[params[i]] = b.points[-1][1]
+        resurvey = (resurvey_every > 0 and i % resurvey_every == 0) or i == len(params) - 1
+        if resurvey:
+            s = do_survey(i)
+            reconcile(s, i)
+            last_survey_index = i
+        if progress:
+            progress(i + 1, len(params))
+
+    for tid, b in enumerate(tracer.branches):
+        tb = out[tid]
+        evaluations += b.evaluations
+        if not b.active:
+            tb.end_reason = _end_text(b)
+            tb.end_k = b.end_param
+            tb.note = b.note or tb.note
+            if b.end_reason is BranchEnd.FAILED:
+                # the first requested value the branch could not reach is a failed point
+                last = max(tb.points) if tb.points else params[0]
+                nxt = [p for p in params if p > last]
+                if nxt:
+                    prev = tb.points[last].value if tb.points else complex("nan")
+                    tb.points[nxt[0]] = failed_root(prev, b.note or "tracing failed")
+    return results, surveys, evaluations, notes
 
 
 def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> Solution:
@@ -226,118 +375,17 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> 
         Branches (with failed points recorded, never raised), the surveys made, total
         dispersion evaluations and notes.
     """
-    ks = [float(k) for k in case.k_values]
-    box = window(case)
-    diameter = math.hypot(box[1] - box[0], box[3] - box[2])
-    match_tol = MATCH_FRACTION * diameter
-    rtol = case.solver.tolerance
-    every = case.solver.resurvey_every
-    notes: list[str] = []
-    evaluations = 0
-
-    def family(k: float) -> AnalyticFunction:
-        return function_at(case, k)
-
-    def family_back(q: float) -> AnalyticFunction:
-        return function_at(case, -q)
-
-    tracer = Tracer(family, box=box, param=ks[0], rtol=rtol, order=4)
-    out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
-    results: list[TracedBranch] = []
-    surveys: list[tuple[float, SurveyResult]] = []
-    last_survey_index = 0
-
-    def do_survey(i: int) -> SurveyResult:
-        nonlocal evaluations
-        s = survey(case, ks[i])
-        evaluations += s.evaluations
-        surveys.append((ks[i], s))
-        if not s.complete:
-            notes.append(
-                f"survey at k = {ks[i]!r} incomplete: counted {s.count} zeros, "
-                f"found {len(s.values)} ({'; '.join(s.notes) or 'no detail'})"
-            )
-        return s
-
-    def start_branch(root: RootResult, i: int) -> TracedBranch:
-        tb_ = tracer.add_branch(root, param=ks[i])
-        tb = TracedBranch(id=len(results), found_at=ks[i])
-        results.append(tb)
-        out[tb_.id] = tb
-        tb.points[ks[i]] = root
-        tb.verified_at.add(ks[i])
-        return tb
-
-    def backfill(tb: TracedBranch, root: RootResult, i: int, i_stop: int) -> None:
-        """Trace a newly found branch backwards from scan point i to i_stop."""
-        nonlocal evaluations
-        if i <= i_stop:
-            return
-        back = Tracer(family_back, box=box, param=-ks[i], rtol=rtol)
-        bb = back.add_branch(root, param=-ks[i])
-        for j in range(i - 1, i_stop - 1, -1):
-            back.advance_to(-ks[j])
-            if not bb.active:
-                break
-        evaluations += back.evaluations
-        for q, r in bb.points[1:]:
-            tb.points[-q] = r
-        if not bb.active and bb.end_reason is not BranchEnd.LEFT_REGION:
-            tb.note = f"backward trace from k = {ks[i]!r} ended: {bb.note}"
-
-    def reconcile(s: SurveyResult, i: int) -> None:
-        """Mark traced roots confirmed by survey ``s``; start branches for new roots."""
-        active = [(tid, b) for tid, b in enumerate(tracer.branches) if b.active]
-        current = [b.points[-1][1].value for _, b in active]
-        for tid, b in active:
-            z = b.points[-1][1].value
-            if any(abs(z - r) <= match_tol for r in s.values):
-                out[tid].verified_at.add(ks[i])
-        for root in match_new_roots(current, [r for r in s.roots if r.converged], match_tol):
-            tb = start_branch(root, i)
-            backfill(tb, root, i, last_survey_index)
-
-    s0 = do_survey(0)
-    for root in s0.roots:
-        if root.converged:
-            start_branch(root, 0)
-        else:
-            notes.append(f"unsolved root near {root.value!r} at k = {ks[0]!r}: {root.reason}")
-    if progress:
-        progress(1, len(ks))
-
-    for i in range(1, len(ks)):
-        if tracer.active:
-            tracer.advance_to(ks[i])
-        else:
-            tracer.param = ks[i]  # nothing to trace: keep the tracer's clock with the scan
-        for tid, b in enumerate(tracer.branches):
-            tb = out[tid]
-            if b.points and b.points[-1][0] == ks[i] and b.active:
-                tb.points[ks[i]] = b.points[-1][1]
-        resurvey = (every > 0 and i % every == 0) or i == len(ks) - 1
-        if resurvey:
-            s = do_survey(i)
-            reconcile(s, i)
-            last_survey_index = i
-        if progress:
-            progress(i + 1, len(ks))
-
-    for tid, b in enumerate(tracer.branches):
-        tb = out[tid]
-        evaluations += b.evaluations
-        if not b.active:
-            tb.end_reason = _end_text(b)
-            tb.end_k = b.end_param
-            tb.note = b.note or tb.note
-            if b.end_reason is BranchEnd.FAILED:
-                # the first requested k the branch could not reach is a failed point
-                last = max(tb.points) if tb.points else ks[0]
-                nxt = [k for k in ks if k > last]
-                if nxt:
-                    prev = tb.points[last].value if tb.points else complex("nan")
-                    tb.points[nxt[0]] = _failed(prev, b.note or "tracing failed")
-    return Solution(case=case, branches=results, surveys=surveys, evaluations=evaluations,
+    branches, surveys, evaluations, notes = follow_branches(
+        lambda k: function_at(case, k),
+        [float(k) for k in case.k_values],
+        window(case),
+        lambda k: survey(case, k),
+        rtol=case.solver.tolerance,
+        resurvey_every=case.solver.resurvey_every,
+        label=lambda k: f"k = {k!r}",
+        progress=progress,
+    )
+    return Solution(case=case, branches=branches, surveys=surveys, evaluations=evaluations,
                     notes=notes)
 
 
