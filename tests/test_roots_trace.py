@@ -108,3 +108,82 @@ def test_interleaved_survey_adds_new_branch() -> None:
     assert abs(b0.points[-1][1].value - roots(0.5)[0]) < 1e-10
     assert abs(b1.points[-1][1].value - roots(0.5)[1]) < 1e-10
     assert b1.points[0][0] == 0.3
+
+
+# ---------------------------------------------------------------- speculative blocks
+def _pairs_of(family):  # noqa: ANN001, ANN202 - test helper
+    """The pair form of a family, element by element (what ``Tracer(pairs=...)`` takes),
+    counting its calls so that a test can tell that blocks were used."""
+
+    def pairs(p: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        pairs.calls += 1
+        out = [family(float(pj))(np.array([zj])) for pj, zj in zip(p, z, strict=True)]
+        return (np.array([o[0][0] for o in out], dtype=complex),
+                np.array([o[1][0] for o in out], dtype=complex))
+
+    pairs.calls = 0
+    return pairs
+
+
+@pytest.mark.parametrize("kind", ["crossing", "avoided"])
+def test_blocks_keep_identities_through_near_crossing(kind: str) -> None:
+    # the same pair as above, now with 201 values so that blocks are long
+    fam = lambda p: product_of_linear(_pair(p, kind))  # noqa: E731
+    pairs = _pairs_of(fam)
+    params = np.linspace(0.0, 1.0, 201)
+    branches = trace(fam, params, list(_pair(0.0, kind)), box=(-2.0, 4.0, -2.0, 2.0),
+                     pairs=pairs)
+    assert pairs.calls > 0
+    for b in branches:
+        assert b.end_reason is BranchEnd.ACTIVE
+        assert np.allclose(b.params, params)
+        ref = np.array([_pair(p, kind)[b.id] for p in b.params])
+        assert np.max(np.abs(b.values - ref)) < 1e-9
+
+
+def test_blocks_match_single_steps_and_count_every_evaluation() -> None:
+    fam = lambda p: (lambda z: (np.exp(z) - (2 + p + 0.5j * p * p), np.exp(z)))  # noqa: E731
+    params = np.linspace(0.0, 2.0, 401)
+    (single,) = trace(fam, params, [np.log(2)], box=(-1.0, 3.0, -3.0, 3.0))
+    pairs = _pairs_of(fam)
+    tr = Tracer(fam, box=(-1.0, 3.0, -3.0, 3.0), param=0.0, rtol=1e-10, pairs=pairs)
+    (b,) = [tr.add_branch(np.log(2))]
+    n_calls = []
+    tr.advance_through(params[1:], on_target=n_calls.append)
+    assert n_calls == list(range(1, 401))
+    ref = np.log(2 + b.params + 0.5j * b.params**2)
+    assert np.allclose(b.params, single.params)
+    assert np.max(np.abs(b.values - ref)) < 1e-9
+    assert np.max(np.abs(b.values - single.values)) < 1e-9
+    # blocks were used: far fewer pair calls than points
+    assert pairs.calls < 100
+    # each point's own count, and the branch total includes rejected block work
+    per_point = [r.evaluations for _, r in b.points[1:]]
+    assert np.median(per_point) <= 4
+    assert b.evaluations >= sum(per_point)
+    assert all(r.converged and r.refined is not None for _, r in b.points)
+
+
+def test_blocks_stop_where_a_branch_leaves_the_box() -> None:
+    fam = lambda p: product_of_linear([p * (1 + 0.2j) - 0.5, 5j])  # noqa: E731
+    (b,) = trace(fam, np.linspace(0.0, 3.0, 301), [-0.5], box=(-1.0, 2.0, -1.0, 1.0),
+                 pairs=_pairs_of(fam))
+    assert b.end_reason is BranchEnd.LEFT_REGION
+    assert abs(b.end_param - 2.5) < 1e-6
+    assert b.params[-1] <= 2.5
+
+
+def test_blocks_report_merging_branches() -> None:
+    def roots(p: float) -> tuple[complex, complex]:
+        s = np.sqrt(complex(0.25 - p))
+        return 0.1 + s, 0.1 - s
+
+    fam = lambda p: product_of_linear(roots(p))  # noqa: E731
+    b0, b1 = trace(fam, np.linspace(0.0, 0.5, 101), list(roots(0.0)),
+                   box=(-2.0, 2.0, -2.0, 2.0), min_step=1e-6, pairs=_pairs_of(fam))
+    ended = [b for b in (b0, b1) if b.end_reason is not BranchEnd.ACTIVE]
+    assert ended
+    for b in ended:
+        assert b.end_reason in (BranchEnd.MERGED, BranchEnd.FAILED)
+        assert abs(b.end_param - 0.25) < 1e-2
+

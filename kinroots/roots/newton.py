@@ -24,7 +24,7 @@ from kinroots.roots.result import (
     Status,
 )
 
-__all__ = ["polish", "verify"]
+__all__ = ["polish", "relative_size", "verify"]
 
 _MAX_HALVINGS = 8
 _HUGE = 1e150
@@ -110,7 +110,8 @@ def _multiple_rtol(m: int) -> float:
     return 4.0 * np.finfo(float).eps ** (1.0 / m)
 
 
-def _size(corr: complex, z: complex) -> float:
+def relative_size(corr: complex, z: complex) -> float:
+    """|corr|/|z| when |z| > 1, else |corr| (the ``step`` of a RootResult)."""
     a = abs(corr)
     return a / abs(z) if abs(z) > 1.0 else a
 
@@ -212,7 +213,7 @@ def polish(
         status=status,
         reason=reason,
         residual=abs(last.f),
-        step=_size(corr, last.z) if np.isfinite(corr) else math.nan,
+        step=relative_size(corr, last.z) if np.isfinite(corr) else math.nan,
         iterations=tol_iter,
         evaluations=func.evaluations,
         multiplicity=last.multiplicity,

@@ -20,6 +20,17 @@ convergence or a jump), or MERGED with the branch it collided with.  A branch wh
 corrected root lies outside the box ends with LEFT_REGION; the parameter where it leaves
 is located by bisection on that branch alone, to ``min_step``.  Failures are recorded in
 the branches, never raised.
+
+Speculative blocks.  Given ``pairs`` — the family evaluated at arrays of (parameter, z)
+pairs in one call — :meth:`Tracer.advance_through` first tries several requested values
+at once: every branch is extrapolated to each of them, plain Newton runs on all the pairs
+together (at most :data:`BLOCK_NEWTON` corrections, each at most a tenth of the one
+before), and the points are accepted in order up to the first one where any branch fails
+one of the checks above (or converges slowly, or |f| grows).  From there the single-step
+path takes over, with its halving.  Blocks grow (doubling, up to ``block``) after a block
+that is accepted whole and shrink to what was accepted otherwise.  A block therefore
+accepts only points that a single step would also have accepted from a prediction no
+closer than its own; it saves the per-call cost of evaluating one parameter at a time.
 """
 
 from __future__ import annotations
@@ -28,15 +39,24 @@ import enum
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
-from kinroots.roots.newton import polish
-from kinroots.roots.result import AnalyticFunction, Box, RootResult
+from kinroots.roots.newton import polish, relative_size
+from kinroots.roots.result import AnalyticFunction, Box, RootResult, Status
 
-__all__ = ["Branch", "BranchEnd", "Tracer", "match_new_roots", "trace"]
+__all__ = ["BLOCK_NEWTON", "Branch", "BranchEnd", "PairFamily", "Tracer", "match_new_roots",
+           "trace"]
 
 Family = Callable[[float], AnalyticFunction]
+#: ``pairs(p, z) -> (f, f')``: the family at the pairs (p_j, z_j), arrays of equal shape.
+PairFamily = Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]]
+
+#: Newton corrections allowed per point in a speculative block.
+BLOCK_NEWTON = 2
+#: Each correction in a block must be at most this fraction of the one before.
+_BLOCK_CONTRACTION = 0.1
 
 
 class BranchEnd(enum.Enum):
@@ -111,6 +131,20 @@ def _extrapolate(path: list[tuple[float, complex]], p: float, order: int) -> com
     return total
 
 
+def _extrapolate_many(path: list[tuple[float, complex]], p: np.ndarray, order: int
+                      ) -> np.ndarray:
+    """:func:`_extrapolate` at every parameter in the array ``p``."""
+    pts = path[-(order + 1):]
+    total = np.zeros(p.shape, dtype=complex)
+    for i, (pi, zi) in enumerate(pts):
+        w = np.ones(p.shape)
+        for j, (pj, _) in enumerate(pts):
+            if j != i:
+                w *= (p - pj) / (pi - pj)
+        total += w * zi
+    return total
+
+
 def _history_value(r: RootResult) -> complex:
     """The point the predictor extrapolates from: the Newton-refined value when known.
 
@@ -162,6 +196,12 @@ class Tracer:
         Degree of the extrapolation polynomial (1 to 5; `kinroots solve` uses 4: with
         Newton-refined history points a quartic predictor lands within the tolerance of
         smooth branches, so most points cost one evaluation).
+    pairs : callable, optional
+        ``pairs(p, z) -> (f, f')`` at arrays of parameter/point pairs, the same function
+        as ``family(p_j)(z_j)`` element by element; enables speculative blocks in
+        :meth:`advance_through` (module docstring).
+    block : int
+        Largest number of requested values in one speculative block.
 
     Examples
     --------
@@ -188,6 +228,8 @@ class Tracer:
         stray_fraction: float = 1.0 / 3.0,
         merge_tol: float | None = None,
         order: int = 2,
+        pairs: PairFamily | None = None,
+        block: int = 64,
     ) -> None:
         self.family = family
         self.box = tuple(float(v) for v in box)
@@ -198,6 +240,9 @@ class Tracer:
         self.stray_fraction = stray_fraction
         self._merge_tol = merge_tol
         self.order = order
+        self.pairs = pairs
+        self.block = max(2, int(block))
+        self._block_size = 4
         self.branches: list[Branch] = []
         self._h: float | None = None
         self.diameter = math.hypot(self.box[1] - self.box[0], self.box[3] - self.box[2])
@@ -273,6 +318,33 @@ class Tracer:
                 b.points.append((target, last[b.id]))
         self.param = target
 
+    def advance_through(
+        self, targets: Sequence[float], on_target: Callable[[int], None] | None = None
+    ) -> None:
+        """Advance through the increasing ``targets``, recording every active branch at each.
+
+        The same as :meth:`advance_to` for each target in turn (with ``pairs``, several at
+        a time where the checks allow: module docstring).  With no active branch left the
+        tracer's parameter just moves on.  ``on_target(n)`` is called after each target
+        with the number of targets done.
+        """
+        ts = [float(t) for t in targets]
+        i = 0
+        while i < len(ts):
+            if not self.active:
+                self.param = ts[i]
+                done = 1
+            else:
+                n = self._block_length(ts, i)
+                done = self._block(ts[i:i + n]) if n >= 2 else 0
+                if done == 0:
+                    self.advance_to(ts[i])
+                    done = 1
+            for j in range(i, i + done):
+                if on_target is not None:
+                    on_target(j + 1)
+            i += done
+
     @property
     def evaluations(self) -> int:
         return sum(b.evaluations for b in self.branches)
@@ -282,6 +354,96 @@ class Tracer:
         if self._merge_tol is not None:
             return self._merge_tol
         return max(100 * (self.atol + self.rtol * abs(z)), 1e-10 * self.diameter)
+
+    def _block_length(self, ts: list[float], i: int) -> int:
+        """How many of ``ts[i:]`` a speculative block may take (0: take a single step)."""
+        act = self.active
+        if (self.pairs is None or self._h is None
+                or any(len(b.path) < 3 or b.points[0][1].multiplicity != 1 for b in act)):
+            return 0
+        h = self._h if self.max_step is None else min(self._h, self.max_step)
+        n, prev = 0, self.param
+        while i + n < len(ts) and n < self._block_size and ts[i + n] - prev <= h:
+            prev = ts[i + n]
+            n += 1
+        return n
+
+    def _block(self, ps: list[float]) -> int:
+        """Try the requested values ``ps`` as one block; returns how many were accepted."""
+        act = self.active
+        nb, m = len(act), len(ps)
+        p_arr = np.array(ps)
+        pred = np.array([_extrapolate_many(b.path, p_arr, min(self.order, len(b.path) - 1))
+                         for b in act])
+        pp = np.broadcast_to(p_arr, (nb, m)).ravel()
+        z = pred.ravel().copy()
+        f_at = np.full(z.shape, np.nan + 0j)
+        corr = np.full(z.shape, np.nan + 0j)
+        evals = np.zeros(z.shape, dtype=int)
+        iters = np.zeros(z.shape, dtype=int)
+        done = np.zeros(z.shape, dtype=bool)
+        todo = np.arange(z.size)
+        for it in range(BLOCK_NEWTON + 1):
+            f, df = self.pairs(pp[todo], z[todo])  # type: ignore[misc]
+            evals[todo] += 1
+            with np.errstate(all="ignore"):
+                c = np.asarray(f / df, dtype=complex)
+            ok = np.isfinite(c)
+            if it > 0:  # plain Newton only while it contracts fast and |f| falls
+                ok &= (np.abs(c) <= _BLOCK_CONTRACTION * np.abs(corr[todo])) & (
+                    np.abs(f) <= np.abs(f_at[todo]))
+            f_at[todo], corr[todo] = f, c
+            conv = ok & (np.abs(c) <= self.atol + self.rtol * np.abs(z[todo]))
+            done[todo[conv]] = True
+            todo = todo[ok & ~conv]
+            if todo.size == 0 or it == BLOCK_NEWTON:
+                break
+            iters[todo] += 1
+            z[todo] -= corr[todo]
+        zz = z.reshape(nb, m)
+        bad = ~done.reshape(nb, m)
+        for bi in range(nb):
+            bad[bi] |= self._block_problems(zz, pred, bi)
+        bad_any = bad.any(axis=0)
+        accepted = int(np.argmax(bad_any)) if bad_any.any() else m
+        shape = (nb, m)
+        f_at, corr = f_at.reshape(shape), corr.reshape(shape)
+        evals, iters = evals.reshape(shape), iters.reshape(shape)
+        for bi, b in enumerate(act):
+            b.evaluations += int(evals[bi].sum())
+            for j in range(accepted):
+                zj, cj = complex(zz[bi, j]), complex(corr[bi, j])
+                r = RootResult(
+                    value=zj, converged=True, status=Status.CONVERGED,
+                    residual=float(abs(f_at[bi, j])), step=relative_size(cj, zj),
+                    iterations=int(iters[bi, j]), evaluations=int(evals[bi, j]),
+                    method="trace", refined=zj - cj,
+                )
+                b.path.append((ps[j], _history_value(r)))
+                b.points.append((ps[j], r))
+        if accepted:
+            self.param = ps[accepted - 1]
+        self._block_size = min(2 * m, self.block) if accepted == m else max(2, accepted)
+        return accepted
+
+    def _block_problems(self, z: np.ndarray, pred: np.ndarray, bi: int) -> np.ndarray:
+        """The single-step checks (collision, stray, left the box) for branch ``bi`` at
+        every point of a block (``z``, ``pred``: branches × points)."""
+        zi, pi = z[bi], pred[bi]
+        x0, x1, y0, y1 = self.box
+        out = ~((x0 <= zi.real) & (zi.real <= x1) & (y0 <= zi.imag) & (zi.imag <= y1))
+        allowed = np.full(zi.shape, 0.25 * self.diameter)
+        if z.shape[0] > 1:
+            others = np.delete(z, bi, axis=0)
+            if self._merge_tol is not None:
+                merge = np.full(zi.shape, self._merge_tol)
+            else:
+                merge = np.maximum(100 * (self.atol + self.rtol * np.abs(zi)),
+                                   1e-10 * self.diameter)
+            out |= np.min(np.abs(others - zi), axis=0) <= merge
+            allowed = np.minimum(allowed,
+                                 self.stray_fraction * np.min(np.abs(others - pi), axis=0))
+        return out | (np.abs(zi - pi) > allowed)
 
     def _correct(self, f: AnalyticFunction, b: Branch, z0: complex) -> RootResult:
         # a branch that started as a multiple zero (e.g. two degenerate polarizations)
@@ -377,7 +539,7 @@ def trace(
     box: Box,
     rtol: float = 1e-10,
     atol: float = 0.0,
-    **options: float,
+    **options: Any,
 ) -> list[Branch]:
     """Trace the roots ``starts`` of ``family(params[0])`` through increasing ``params``.
 
@@ -395,7 +557,7 @@ def trace(
         Newton stopping test.
     **options
         Passed to :class:`Tracer` (``maxiter``, ``min_step``, ``max_step``,
-        ``stray_fraction``, ``merge_tol``, ``order``).
+        ``stray_fraction``, ``merge_tol``, ``order``, ``pairs``, ``block``).
 
     Returns
     -------
@@ -408,10 +570,7 @@ def trace(
     tracer = Tracer(family, box=box, param=p[0], rtol=rtol, atol=atol, **options)  # type: ignore[arg-type]
     for s in starts:
         tracer.add_branch(s)
-    for v in p[1:]:
-        if not tracer.active:
-            break
-        tracer.advance_to(v)
+    tracer.advance_through(p[1:])
     return tracer.branches
 
 
