@@ -9,7 +9,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from kinroots.models._harmonics import landau_sign, prepare_species
+from kinroots.models._harmonics import (
+    SpeciesSetup,
+    evaluate,
+    harmonic_sums,
+    is_array_k,
+    landau_sign,
+)
 from kinroots.models.base import Susceptibility
 from kinroots.plasma import Species
 from kinroots.zfunc import plasma_z_and_prime
@@ -22,8 +28,8 @@ def susceptibility(
     species: Species,
     /,
     *,
-    k_par: complex,
-    k_perp: complex,
+    k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray,
     B: float,
     tol: float = 1e-14,
 ) -> Susceptibility:
@@ -35,8 +41,11 @@ def susceptibility(
         Angular frequency ω [rad/s], any shape.
     species : Species
         Drifting bi-Maxwellian (drift V along B, T∥, T⊥ > 0 in eV).
-    k_par, k_perp : complex
-        Scalar wave-vector components along and across B [1/m]; may be complex.
+    k_par, k_perp : complex or array_like of complex
+        Wave-vector components along and across B [1/m]; may be complex.  Scalars (the
+        fast path) or arrays broadcast against ``omega``: every (k∥, k⊥, ω) element is
+        then evaluated as by a scalar-k call, with one harmonic count N for all (the
+        largest any element needs; the extra harmonics are below ``tol``).
     B : float
         Magnetic field [T], non-zero; its sign enters through the signed Ω = qB/m.
     tol : float
@@ -46,12 +55,14 @@ def susceptibility(
     Returns
     -------
     Susceptibility
-        ``value`` = χ_s, ``derivative`` = dχ_s/dω (shape of ``omega``), ``harmonics`` = N.
+        ``value`` = χ_s, ``derivative`` = dχ_s/dω (shape of ``omega``, or of the broadcast
+        of ``omega``, ``k_par`` and ``k_perp``), ``harmonics`` = N.
 
     Raises
     ------
     ValueError
-        If ``B == 0`` (use the unmagnetized model).
+        If ``B == 0`` (use the unmagnetized model), or for array k with a collisional
+        species (call once per k).
 
     Notes
     -----
@@ -97,43 +108,46 @@ def susceptibility(
     if species.collision_frequency > 0.0:
         from kinroots.models import krook
 
+        if is_array_k(k_par, k_perp):
+            raise ValueError("array k is not supported for collisional species")
         return krook.magnetized_susceptibility(omega, species, k_par=k_par, k_perp=k_perp,
                                                B=B, tol=tol)
-    om = np.asarray(omega, dtype=complex)
-    setup = prepare_species(om.shape, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol,
-                            model="es_magnetized")
-    if isinstance(setup, Susceptibility):
-        return setup
+    return evaluate(
+        omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="es_magnetized",
+        tail=(), parts=lambda om, setup, perp: _parts(om, setup, perp, species),
+    )
+
+
+def _parts(
+    om: np.ndarray, setup: SpeciesSetup, perpendicular: bool, species: Species
+) -> tuple[np.ndarray, np.ndarray]:
+    """χ_s and dχ_s/dω from the formulas of :func:`susceptibility` (errors not checked).
+
+    ``om`` has the result shape: any shape with scalar k, an (E, 1) column with array k
+    (``setup`` then holds (E, 1) columns and per-element weights); ``perpendicular``
+    selects the exact k∥ = 0 limit.
+    """
     kpar, kperp, wpar = setup.k_par, setup.k_perp, setup.w_par
     omega_c, w = setup.omega_c, setup.weights
+    sums = harmonic_sums(om, w)
     wp2 = species.plasma_frequency**2
     n_om = w.n * omega_c
-    with np.errstate(all="ignore"):
-        if kpar == 0:
-            r = 1.0 / (om[..., None] - n_om)
-            value = -(wp2 / omega_c) * (r @ w.g)
-            derivative = (wp2 / omega_c) * ((r * r) @ w.g)
-        else:
-            s = landau_sign(kpar)
-            a = kpar * wpar
-            zt = (om[..., None] - kpar * species.drift - n_om) / (s * a)
-            zf, zp = plasma_z_and_prime(zt)
-            # effective functions: Z_eff = sZ(sζ), F = 1 + ζ Z_eff = −Z'(sζ)/2
-            zf = s * zf
-            f = -0.5 * zp
-            q = zf + (s * zt) * zp  # dF/dζ = Z + ζZ'
-            ratio = species.temperature_par / species.temperature_perp
-            c = 2.0 * wp2 / ((kperp * kperp + kpar * kpar) * wpar * wpar)
-            term = f + (ratio / a) * (n_om * zf)
-            dterm = q / a + (ratio / (a * a)) * (n_om * zp)
-            value = c * (term @ w.gamma)
-            derivative = c * (dterm @ w.gamma)
-        bad = ~np.isfinite(om)
-        if bad.any():
-            value = np.where(bad, np.nan + 0j, value)
-            derivative = np.where(bad, np.nan + 0j, derivative)
-    return Susceptibility(
-        value=np.asarray(value, dtype=complex),
-        derivative=np.asarray(derivative, dtype=complex),
-        harmonics=w.harmonics,
-    )
+    if perpendicular:
+        r = 1.0 / (sums.omega - n_om)
+        value = -(wp2 / omega_c) * sums.dot(r, w.g)
+        derivative = (wp2 / omega_c) * sums.dot(r * r, w.g)
+        return value, derivative
+    s = landau_sign(kpar)
+    a = kpar * wpar
+    zt = (sums.omega - kpar * species.drift - n_om) / (s * a)
+    zf, zp = plasma_z_and_prime(zt)
+    # effective functions: Z_eff = sZ(sζ), F = 1 + ζ Z_eff = −Z'(sζ)/2 (s elementwise for
+    # array k)
+    zf = s * zf
+    f = -0.5 * zp
+    q = zf + (s * zt) * zp  # dF/dζ = Z + ζZ'
+    ratio = species.temperature_par / species.temperature_perp
+    c = 2.0 * wp2 / ((kperp * kperp + kpar * kpar) * wpar * wpar)
+    term = f + (ratio / a) * (n_om * zf)
+    dterm = q / a + (ratio / (a * a)) * (n_om * zp)
+    return c * sums.dot(term, w.gamma), c * sums.dot(dterm, w.gamma)
