@@ -19,7 +19,14 @@ import numpy as np
 from kinroots.models.base import Builder, Susceptibility
 from kinroots.plasma import C_LIGHT, EV, Plasma
 
-__all__ = ["Dispersion", "MODELS", "builder_for", "dispersion_in_k", "scaled_builder_for"]
+__all__ = [
+    "Dispersion",
+    "MODELS",
+    "builder_for",
+    "dispersion_in_k",
+    "dispersion_pairs",
+    "scaled_builder_for",
+]
 
 #: Canonical model names and the spellings accepted for them.
 MODELS: dict[str, str] = {
@@ -109,6 +116,52 @@ def _det_and_cofactors(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             c[..., i, j] = m[..., i1, j1] * m[..., i2, j2] - m[..., i1, j2] * m[..., i2, j1]
     det = np.sum(m[..., 0, :] * c[..., 0, :], axis=-1)
     return det, c
+
+
+def _det_and_derivative(m: np.ndarray, dm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """det M and its derivative Σ_ij C_ij dM_ij (C: cofactors; exact where M is singular)."""
+    d, cof = _det_and_cofactors(m)
+    return d, np.sum(cof * dm, axis=(-2, -1))
+
+
+def _scaled_matrix(
+    plasma: Plasma,
+    builder: Builder,
+    omega: np.ndarray,
+    *,
+    k: Any,
+    k_par: Any,
+    k_perp: Any,
+    omega_ref: float,
+    tol: float,
+) -> tuple[np.ndarray, np.ndarray, dict[str, int]]:
+    """S and dS/dω of :class:`Dispersion` (its Notes), summed over species.
+
+    ``k``, ``k_par``, ``k_perp`` are scalars or arrays broadcast against ``omega``; the
+    builders are the models' ``scaled_susceptibility``.  Returns S, dS/dω (shaped
+    ``shape + (3, 3)``) and the harmonics kept per species.
+    """
+    total = dtotal = None
+    harmonics: dict[str, int] = {}
+    for s in plasma.species:
+        res: Susceptibility = builder(
+            omega, s, k_par=k_par, k_perp=k_perp, B=plasma.B, tol=tol, omega_ref=omega_ref,
+        )
+        harmonics[s.name] = int(res.harmonics)
+        v, d = np.asarray(res.value), np.asarray(res.derivative)
+        total = v if total is None else total + v
+        dtotal = d if dtotal is None else dtotal + d
+    assert total is not None and dtotal is not None
+    shape = np.broadcast_shapes(np.shape(omega), np.shape(k)) + (3, 3)
+    total = np.broadcast_to(total, shape).copy()
+    dtotal = np.broadcast_to(dtotal, shape).copy()
+    w = omega / omega_ref
+    n2ref = (k * C_LIGHT / omega_ref) ** 2
+    for i in range(2):
+        total[..., i, i] += w * w - n2ref
+        dtotal[..., i, i] += 2.0 * w / omega_ref
+    total[..., 2, 2] += 1.0
+    return total, dtotal, harmonics
 
 
 class Dispersion:
@@ -280,37 +333,16 @@ class Dispersion:
 
     def _scaled(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """S and dS/dω (class Notes), summed over species, in the frame (e₁, e₂, k̂)."""
-        total = dtotal = None
-        for s in self.plasma.species:
-            res: Susceptibility = self._scaled_builder(
-                omega,
-                s,
-                k_par=self.k_par,
-                k_perp=self.k_perp,
-                B=self.plasma.B,
-                tol=self.harmonic_tol,
-                omega_ref=self.omega_ref,
-            )
-            self.harmonics[s.name] = int(res.harmonics)
-            v, d = np.asarray(res.value), np.asarray(res.derivative)
-            total = v if total is None else total + v
-            dtotal = d if dtotal is None else dtotal + d
-        assert total is not None and dtotal is not None
-        total = np.broadcast_to(total, omega.shape + (3, 3)).copy()
-        dtotal = np.broadcast_to(dtotal, omega.shape + (3, 3)).copy()
-        w = omega / self.omega_ref
-        n2ref = (self.k * C_LIGHT / self.omega_ref) ** 2
-        for i in range(2):
-            total[..., i, i] += w * w - n2ref
-            dtotal[..., i, i] += 2.0 * w / self.omega_ref
-        total[..., 2, 2] += 1.0
+        total, dtotal, harmonics = _scaled_matrix(
+            self.plasma, self._scaled_builder, omega, k=self.k, k_par=self.k_par,
+            k_perp=self.k_perp, omega_ref=self.omega_ref, tol=self.harmonic_tol,
+        )
+        self.harmonics.update(harmonics)
         return total, dtotal
 
     def _d_em(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """D = det S and dD/dω = Σ C_ij dS_ij/dω (C: cofactors of S), any finite ω."""
-        m, dm = self._scaled(omega)
-        d, cof = _det_and_cofactors(m)
-        return d, np.sum(cof * dm, axis=(-2, -1))
+        return _det_and_derivative(*self._scaled(omega))
 
     # ------------------------------------------------------------------ public
     def __call__(self, omega: Any) -> tuple[np.ndarray, np.ndarray]:
@@ -388,6 +420,102 @@ class Dispersion:
                     if n != 0:
                         pts.add(complex(n * om_c, 0.0))
         return sorted(pts, key=lambda z: (z.real, z.imag))
+
+
+def dispersion_pairs(
+    plasma: Plasma,
+    *,
+    k: Any,
+    omega: Any,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float = 1e-14,
+) -> tuple[np.ndarray, np.ndarray]:
+    """D and dD/dω at the pairs (k_j, ω_j), element by element, in one vectorized call.
+
+    The same function as ``Dispersion(plasma, k=k_j, ...)(ω_j)``, for tracing several
+    wavenumbers at once (:class:`kinroots.roots.Tracer` with ``pairs``).
+
+    Parameters
+    ----------
+    plasma : Plasma
+        Species and B.
+    k : array_like of complex
+        Wavenumbers [1/m], broadcast against ``omega``.
+    omega : array_like of complex
+        Frequencies [rad/s].
+    angle_deg, model, omega_ref, harmonic_tol
+        As for :class:`Dispersion`.
+
+    Returns
+    -------
+    D, dD_domega : ndarray of complex
+        Shaped like the broadcast of ``k`` and ``omega``; NaN where k is zero or either
+        is not finite.
+
+    Notes
+    -----
+    The builders take array wave-vector components directly (the magnetized ones sum
+    every element to the largest harmonic any element needs, so values agree with the
+    one-k evaluation to the truncation tolerance).  Collisional (Krook) species are
+    evaluated one distinct k at a time through :class:`Dispersion`.
+    """
+    kk, om = np.broadcast_arrays(np.asarray(k, dtype=complex), np.asarray(omega, dtype=complex))
+    bad = ~(np.isfinite(kk) & np.isfinite(om)) | (kk == 0)
+    kk = np.where(bad, 1.0, kk)
+    om = np.where(bad, 1.0, om)
+    canonical = _canonical_model(model)
+    if len(plasma.species) == 0:
+        raise ValueError("the plasma has no species")
+    if any(s.collision_frequency > 0.0 for s in plasma.species):
+        d, dd = _pairs_by_k(plasma, kk, om, angle_deg, canonical, omega_ref, harmonic_tol)
+    else:
+        cos, sin = _cos_sin_deg(angle_deg)
+        kpar, kperp = kk * cos, kk * sin
+        with np.errstate(all="ignore"):
+            if canonical == "electromagnetic":
+                d, dd = _det_and_derivative(*_scaled_matrix(
+                    plasma, scaled_builder_for(plasma.magnetized), om, k=kk, k_par=kpar,
+                    k_perp=kperp, omega_ref=omega_ref, tol=harmonic_tol,
+                )[:2])
+            elif not plasma.magnetized:
+                chi, dd = importlib.import_module(_REGISTRY[(canonical, False)]).species_sum(
+                    om, tuple(plasma.species), k_par=kpar, k_perp=kperp)
+                d = 1.0 + chi
+            else:
+                builder = builder_for(canonical, plasma.magnetized)
+                d = np.ones(om.shape, dtype=complex)
+                dd = np.zeros(om.shape, dtype=complex)
+                for s in plasma.species:
+                    res = builder(om, s, k_par=kpar, k_perp=kperp, B=plasma.B,
+                                  tol=harmonic_tol)
+                    d = d + res.value
+                    dd = dd + res.derivative
+    if np.any(bad):
+        d = np.where(bad, np.nan + 0j, d)
+        dd = np.where(bad, np.nan + 0j, dd)
+    return d, dd
+
+
+def _pairs_by_k(
+    plasma: Plasma,
+    k: np.ndarray,
+    omega: np.ndarray,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`dispersion_pairs` one distinct k at a time (models without array k)."""
+    d = np.empty(k.shape, dtype=complex)
+    dd = np.empty(k.shape, dtype=complex)
+    for kj in np.unique(k):
+        sel = k == kj
+        disp = Dispersion(plasma, k=complex(kj), angle_deg=angle_deg, model=model,
+                          omega_ref=omega_ref, harmonic_tol=harmonic_tol)
+        d[sel], dd[sel] = disp(omega[sel])
+    return d, dd
 
 
 def dispersion_in_k(
@@ -493,8 +621,7 @@ def _dispersion_in_k_unmagnetized(
         dm[..., 1, 1] -= 2.0 * k * (C_LIGHT / omega_ref) ** 2
         m[..., 2, :] = eps[..., 2, :]
         dm[..., 2, :] = deps[..., 2, :]
-        d, cof = _det_and_cofactors(m)
-        return d, np.sum(cof * dm, axis=(-2, -1))
+        return _det_and_derivative(m, dm)
 
 
 def _dispersion_in_k_loop(

@@ -6,13 +6,14 @@ Each check names its source: a published limit, an exact symmetry, or numerics
 
 from __future__ import annotations
 
+import dataclasses
 import importlib.util
 
 import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from kinroots.dispersion import Dispersion, dispersion_in_k
+from kinroots.dispersion import Dispersion, dispersion_in_k, dispersion_pairs
 from kinroots.plasma import C_LIGHT, M_ELECTRON, M_PROTON, Plasma, Species
 
 
@@ -239,3 +240,42 @@ def test_singular_points_perpendicular_magnetized() -> None:
     got = disp.singular_points(-2.5 * om_c, 3.5 * om_c, -1.0, 1.0)
     np.testing.assert_allclose(np.array(got), om_c * np.array([-2, -1, 1, 2, 3]), rtol=1e-6)
     assert disp.singular_points(-2.5 * om_c, 3.5 * om_c, 0.1, 1.0) == []
+
+
+@pytest.mark.parametrize(
+    ("model", "magnetized", "collisional"),
+    # Krook collisions exist for the electrostatic models only
+    [(m, b, False) for m in ("es", "em") for b in (False, True)]
+    + [("es", False, True), ("es", True, True)],
+)
+def test_pairs_equal_one_k_at_a_time(model: str, magnetized: bool, collisional: bool) -> None:
+    """dispersion_pairs(k_j, ω_j) = Dispersion(k_j)(ω_j): two code paths of this project
+    (array-k builders, or one k at a time for Krook species), to 1e-12 of the scale of D."""
+    base = two_species(drift=0.0 if collisional else 3e5, t_perp=2.0 if collisional else 3.0)
+    species = base.species
+    if collisional:  # Krook species: isotropic (the magnetized Krook model needs it)
+        nu = 0.01 * base.species[0].plasma_frequency
+        species = tuple(dataclasses.replace(s, collision_frequency=nu) for s in species)
+    plasma = Plasma(species, 0.02 if magnetized else 0.0)
+    wpe = plasma.species[0].plasma_frequency
+    rng = np.random.default_rng(3)
+    k = rng.uniform(0.2, 2.0, 9) * wpe / 3e6 * (1 + 0.05j * rng.standard_normal(9))
+    om = wpe * (rng.uniform(0.1, 2.0, 9) + 1j * rng.uniform(-0.3, 0.1, 9))
+    opts = dict(angle_deg=35.0, model=model, omega_ref=wpe)
+    d, dd = dispersion_pairs(plasma, k=k, omega=om, **opts)
+    for j in range(k.size):
+        disp = Dispersion(plasma, k=complex(k[j]), **opts)
+        d1, dd1 = disp(np.array([om[j]]))
+        scale = max(1.0, float(np.max(np.abs(disp(om)[0]))))
+        assert abs(d[j] - d1[0]) <= 1e-12 * scale
+        assert abs(dd[j] - dd1[0]) <= 1e-12 * float(np.max(np.abs(disp(om)[1])))
+
+
+def test_pairs_bad_elements_are_nan_only_there() -> None:
+    plasma = two_species()
+    wpe = plasma.species[0].plasma_frequency
+    k = np.array([1e4, 0.0, np.inf, 2e4])
+    om = np.array([wpe, wpe, wpe, np.nan])
+    d, dd = dispersion_pairs(plasma, k=k, omega=om, angle_deg=0.0, model="es", omega_ref=wpe)
+    assert np.isfinite(d[0]) and np.isfinite(dd[0])
+    assert np.all(np.isnan(d[1:])) and np.all(np.isnan(dd[1:]))

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import cmath
 import math
+from typing import Any
 
 import numpy as np
 from scipy.special import wofz
@@ -428,26 +429,53 @@ def susceptibility(
         from kinroots.models import krook
 
         return krook.susceptibility(omega, species, k_par=k_par, k_perp=k_perp)
-    om = np.asarray(omega, dtype=complex)
-    wpar2, wperp2 = thermal_speeds_squared(species)
-    wp2 = species.plasma_frequency**2
     with np.errstate(all="ignore"):
-        if np.ndim(k_par) == 0 and np.ndim(k_perp) == 0:  # scalar k: no broadcast copies
-            kpar = complex(k_par)
-            kperp = complex(k_perp)
-            kappa2 = np.complex128(kperp * kperp * wperp2 + kpar * kpar * wpar2)
-        else:
-            om, kpar, kperp = np.broadcast_arrays(
-                om, np.asarray(k_par, dtype=complex), np.asarray(k_perp, dtype=complex)
-            )
-            kappa2 = kperp * kperp * wperp2 + kpar * kpar * wpar2
-        kappa = np.sqrt(kappa2)
-        zeta = np.asarray((om - kpar * species.drift) / kappa)
+        zeta, coef, kappa = _zeta_and_coefficient(omega, species, k_par, k_perp)
         m1, dm1 = first_moment(zeta.ravel())
-        coef = -2.0 * wp2 / kappa2
         value = coef * m1.reshape(zeta.shape)
         derivative = (coef / kappa) * dm1.reshape(zeta.shape)
     return Susceptibility(value=value, derivative=derivative, harmonics=0)
+
+
+def _zeta_and_coefficient(
+    omega: Any, species: Species, k_par: Any, k_perp: Any
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """ζ = (ω − k∥V)/κ, −2ω_p²/κ² and κ of :func:`susceptibility` (k broadcast against ω)."""
+    om = np.asarray(omega, dtype=complex)
+    wpar2, wperp2 = thermal_speeds_squared(species)
+    if np.ndim(k_par) == 0 and np.ndim(k_perp) == 0:  # scalar k: no broadcast copies
+        kpar = complex(k_par)
+        kperp = complex(k_perp)
+        kappa2 = np.complex128(kperp * kperp * wperp2 + kpar * kpar * wpar2)
+    else:
+        om, kpar, kperp = np.broadcast_arrays(
+            om, np.asarray(k_par, dtype=complex), np.asarray(k_perp, dtype=complex)
+        )
+        kappa2 = kperp * kperp * wperp2 + kpar * kpar * wpar2
+    kappa = np.sqrt(kappa2)
+    zeta = np.asarray((om - kpar * species.drift) / kappa)
+    return zeta, -2.0 * species.plasma_frequency**2 / kappa2, kappa
+
+
+def species_sum(
+    omega: Any, species: tuple[Species, ...], /, *, k_par: Any, k_perp: Any
+) -> tuple[np.ndarray, np.ndarray]:
+    """Σ_s χ_s and Σ_s ∂χ_s/∂ω of collisionless species, k broadcast against ω.
+
+    The χ_s of :func:`susceptibility`, every species in one :func:`first_moment` pass
+    (the batched tracer's evaluation at arrays of (k, ω) pairs).
+    """
+    if any(s.collision_frequency > 0.0 for s in species):
+        raise ValueError("species_sum takes collisionless species only")
+    with np.errstate(all="ignore"):
+        parts = [_zeta_and_coefficient(omega, s, k_par, k_perp) for s in species]
+        shape = np.broadcast_shapes(*(p[0].shape for p in parts))
+        zeta = np.stack([np.broadcast_to(p[0], shape) for p in parts])
+        m1, dm1 = first_moment(zeta.ravel())
+        m1, dm1 = m1.reshape(zeta.shape), dm1.reshape(zeta.shape)
+        value = sum(p[1] * m1[i] for i, p in enumerate(parts))
+        derivative = sum((p[1] / p[2]) * dm1[i] for i, p in enumerate(parts))
+    return np.asarray(value, dtype=complex), np.asarray(derivative, dtype=complex)
 
 
 class SpeciesSum:
