@@ -26,7 +26,7 @@ import numpy as np
 
 from kinroots import __version__, modes
 from kinroots.casefile import Case
-from kinroots.dispersion import Dispersion, dispersion_in_k
+from kinroots.dispersion import Dispersion, dispersion_in_k, dispersion_pairs
 from kinroots.models import krook
 from kinroots.plasma import CONVENTIONS, derived_quantities
 from kinroots.roots import (
@@ -133,6 +133,33 @@ def function_at(case: Case, k: float) -> NormalizedDispersion:
     return NormalizedDispersion(float(k), dispersion_at(case, float(k)))
 
 
+#: ``f(k̂, ω̂) -> (D, dD/dω̂)`` at arrays of normalized (k, ω) pairs.
+PairFunction = Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]]
+
+
+def pair_function(case: Case) -> PairFunction | None:
+    """``f(k̂, ω̂) -> (D, dD/dω̂)`` at arrays of normalized (k, ω) pairs, for batched tracing.
+
+    Element by element the same function as :func:`function_at` (k̂_j)(ω̂_j).  ``None`` for
+    cases with Krook collisions, whose scaled function is formed one k at a time.
+    """
+    if krook.collisional(case.plasma):
+        return None
+    units = case.units
+    w_u, l_u = units.omega_unit, units.length_unit
+
+    def pairs(k: np.ndarray, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        with np.errstate(over="ignore", invalid="ignore"):
+            d, dd = dispersion_pairs(
+                case.plasma, k=np.asarray(k, dtype=float) / l_u,
+                omega=np.asarray(omega, dtype=complex) * w_u, angle_deg=case.angle_deg,
+                model=case.model, omega_ref=w_u, harmonic_tol=case.solver.harmonic_tolerance,
+            )
+        return d, dd * w_u
+
+    return pairs
+
+
 def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | None = None
            ) -> SurveyResult:
     """Every root of D in the window (or ``box``) at normalized ``k``."""
@@ -221,6 +248,7 @@ def follow_branches(
     resurvey_every: int,
     label: Callable[[float], str],
     progress: Callable[[int, int], None] | None = None,
+    pairs: PairFunction | None = None,
 ) -> tuple[list[TracedBranch], list[tuple[float, SurveyResult]], int, list[str]]:
     """Survey at the first parameter value, trace every root across ``params``.
 
@@ -245,6 +273,9 @@ def follow_branches(
         ``label(p)`` names a parameter value in notes (e.g. ``"k = 0.3"``).
     progress : callable, optional
         ``progress(done, total)`` after each parameter value.
+    pairs : callable, optional
+        ``pairs(p, z)``: ``family`` at arrays of (parameter, z) pairs; lets the tracer
+        take several parameter values at once (:class:`kinroots.roots.Tracer`).
 
     Returns
     -------
@@ -259,7 +290,12 @@ def follow_branches(
     def family_back(q: float) -> AnalyticFunction:
         return family(-q)
 
-    tracer = Tracer(family, box=box, param=params[0], rtol=rtol, order=4)
+    pairs_back = None
+    if pairs is not None:
+        def pairs_back(q: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            return pairs(-np.asarray(q), z)
+
+    tracer = Tracer(family, box=box, param=params[0], rtol=rtol, order=4, pairs=pairs)
     out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
     results: list[TracedBranch] = []
     surveys: list[tuple[float, SurveyResult]] = []
@@ -291,12 +327,10 @@ def follow_branches(
         nonlocal evaluations
         if i <= i_stop:
             return
-        back = Tracer(family_back, box=box, param=-params[i], rtol=rtol)
+        back = Tracer(family_back, box=box, param=-params[i], rtol=rtol, order=4,
+                      pairs=pairs_back)
         bb = back.add_branch(root, param=-params[i])
-        for j in range(i - 1, i_stop - 1, -1):
-            back.advance_to(-params[j])
-            if not bb.active:
-                break
+        back.advance_through([-params[j] for j in range(i - 1, i_stop - 1, -1)])
         evaluations += back.evaluations
         for q, r in bb.points[1:]:
             tb.points[-q] = r
@@ -325,22 +359,31 @@ def follow_branches(
     if progress:
         progress(1, len(params))
 
-    for i in range(1, len(params)):
-        if tracer.active:
-            tracer.advance_to(params[i])
-        else:
-            tracer.param = params[i]  # nothing to trace: keep the tracer's clock
+    i = 1
+    while i < len(params):
+        # the next survey point: every resurvey_every-th point and the last one
+        j = len(params) - 1
+        if resurvey_every > 0:
+            j = min(j, (i + resurvey_every - 1) // resurvey_every * resurvey_every)
+        first = i
+
+        def done(n: int, first: int = first) -> None:
+            if progress:
+                progress(first + n, len(params))
+
+        tracer.advance_through(params[i:j + 1], on_target=done)
         for tid, b in enumerate(tracer.branches):
             tb = out[tid]
-            if b.points and b.points[-1][0] == params[i] and b.active:
-                tb.points[params[i]] = b.points[-1][1]
-        resurvey = (resurvey_every > 0 and i % resurvey_every == 0) or i == len(params) - 1
-        if resurvey:
-            s = do_survey(i)
-            reconcile(s, i)
-            last_survey_index = i
+            for q, r in reversed(b.points):
+                if q < params[i]:
+                    break
+                tb.points[q] = r
+        s = do_survey(j)
+        reconcile(s, j)
+        last_survey_index = j
         if progress:
-            progress(i + 1, len(params))
+            progress(j + 1, len(params))
+        i = j + 1
 
     for tid, b in enumerate(tracer.branches):
         tb = out[tid]
@@ -384,6 +427,7 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> 
         resurvey_every=case.solver.resurvey_every,
         label=lambda k: f"k = {k!r}",
         progress=progress,
+        pairs=pair_function(case),
     )
     return Solution(case=case, branches=branches, surveys=surveys, evaluations=evaluations,
                     notes=notes)

@@ -227,3 +227,54 @@ def test_window_reaching_the_overflow_region_is_reported_with_a_hint():
     s = scan.survey(case, 0.3)
     assert not s.complete and s.values.size == 0
     assert any("overflows" in n for n in s.notes)
+
+
+@pytest.mark.parametrize("path", CASES, ids=[p.stem for p in CASES])
+def test_pair_function_equals_one_k_at_a_time(path):
+    """The batched evaluation (several k in one call) is the same function as
+    ``function_at(k)`` at each pair: an identity between two code paths of this project
+    (array-k builders vs one-k builders), to 1e-12 relative to the scale of D."""
+    case = load_case(path)
+    pairs = scan.pair_function(case)
+    if pairs is None:  # Krook collisions: formed one k at a time, nothing to compare
+        assert any(s.collision_frequency > 0 for s in case.plasma.species)
+        return
+    rng = np.random.default_rng(7)
+    k0, k1 = float(case.k_values[0]), float(case.k_values[-1])
+    ks = rng.uniform(min(k0, k1), max(k0, k1), 12)
+    box = scan.window(case)
+    om = rng.uniform(box[0], box[1], 12) + 1j * rng.uniform(box[2], box[3], 12)
+    d, dd = pairs(ks, om)
+    for j in range(ks.size):
+        f = scan.function_at(case, ks[j])
+        d1, dd1 = f(np.array([om[j]]))
+        scale = max(1.0, float(np.max(np.abs(f(om)[0]))))
+        assert abs(d[j] - d1[0]) <= 1e-12 * scale, (ks[j], om[j])
+        dscale = max(abs(dd1[0]), float(np.max(np.abs(f(om)[1]))))
+        assert abs(dd[j] - dd1[0]) <= 1e-12 * dscale, (ks[j], om[j])
+
+
+@pytest.mark.parametrize("name", [
+    "hydrogen_cold_ions",
+    pytest.param("weibel_hot_electrons", marks=pytest.mark.slow),
+    pytest.param("space_protons_alphas", marks=pytest.mark.slow),
+    pytest.param("ion_bernstein_perpendicular", marks=pytest.mark.slow),
+])
+def test_solve_with_blocks_equals_solve_one_k_at_a_time(monkeypatch, name):
+    """`solve` traces several k per dispersion call; switched off, it must give the same
+    branches to the root tolerance (the speculative blocks accept only what single steps
+    would).  One case per model: ES/EM unmagnetized, EM magnetized, ES magnetized k∥ = 0."""
+    case = load_case(CASES[0].parent / f"{name}.toml")
+    batched = scan.solve(case)
+    monkeypatch.setattr(scan, "pair_function", lambda case: None)
+    single = scan.solve(case)
+    assert len(batched.branches) == len(single.branches)
+    tol = 10 * case.solver.tolerance
+    for a, b in zip(batched.branches, single.branches, strict=True):
+        assert sorted(a.points) == sorted(b.points)
+        assert a.end_reason == b.end_reason
+        for k in a.points:
+            ra, rb = a.points[k], b.points[k]
+            assert ra.converged and rb.converged
+            assert abs(ra.value - rb.value) <= tol * abs(rb.value)
+    assert batched.evaluations > 0
