@@ -118,6 +118,14 @@ def _det_and_cofactors(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return det, c
 
 
+def _nan_where(bad: np.ndarray, d: np.ndarray, dd: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """D and dD with NaN where ``bad`` (non-finite or invalid inputs)."""
+    if np.any(bad):
+        d = np.where(bad, np.nan + 0j, d)
+        dd = np.where(bad, np.nan + 0j, dd)
+    return d, dd
+
+
 def _det_and_derivative(m: np.ndarray, dm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """det M and its derivative Σ_ij C_ij dM_ij (C: cofactors; exact where M is singular)."""
     d, cof = _det_and_cofactors(m)
@@ -366,11 +374,7 @@ class Dispersion:
             else:
                 chi, dchi = self._chi(om)
                 d, dd = 1.0 + chi, dchi
-            bad = ~np.isfinite(om)
-            if np.any(bad):
-                d = np.where(bad, np.nan + 0j, d)
-                dd = np.where(bad, np.nan + 0j, dd)
-        return d, dd
+            return _nan_where(~np.isfinite(om), d, dd)
 
     def value(self, omega: Any) -> np.ndarray:
         """D(ω) alone (same as ``self(omega)[0]``)."""
@@ -492,10 +496,7 @@ def dispersion_pairs(
                                   tol=harmonic_tol)
                     d = d + res.value
                     dd = dd + res.derivative
-    if np.any(bad):
-        d = np.where(bad, np.nan + 0j, d)
-        dd = np.where(bad, np.nan + 0j, dd)
-    return d, dd
+    return _nan_where(bad, d, dd)
 
 
 def _pairs_by_k(
@@ -576,10 +577,7 @@ def dispersion_in_k(
         d, dd = _dispersion_in_k_unmagnetized(
             plasma, om, ksafe, cos, sin, canonical, omega_ref
         )
-    if np.any(bad):
-        d = np.where(bad, np.nan + 0j, d)
-        dd = np.where(bad, np.nan + 0j, dd)
-    return d, dd
+    return _nan_where(bad, d, dd)
 
 
 def _dispersion_in_k_unmagnetized(

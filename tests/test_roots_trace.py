@@ -26,13 +26,18 @@ def _pair(p: float, kind: str) -> tuple[complex, complex]:
     return a + u, a - u
 
 
+@pytest.mark.parametrize("blocks", [False, True])
 @pytest.mark.parametrize("kind", ["crossing", "avoided"])
-def test_near_crossing_keeps_identities(kind: str) -> None:
+def test_near_crossing_keeps_identities(kind: str, blocks: bool) -> None:
     sep = min(abs(np.subtract(*_pair(p, kind))) for p in np.linspace(0.49, 0.51, 2001))
     assert sep < 2e-3  # the pair does come that close
-    params = np.linspace(0.0, 1.0, 21)
-    branches = trace(lambda p: product_of_linear(_pair(p, kind)), params,
-                     list(_pair(0.0, kind)), box=(-2.0, 4.0, -2.0, 2.0))
+    fam = lambda p: product_of_linear(_pair(p, kind))  # noqa: E731
+    # with speculative blocks (pairs), 201 values so that the blocks are long
+    params = np.linspace(0.0, 1.0, 201 if blocks else 21)
+    pairs = _pairs_of(fam) if blocks else None
+    branches = trace(fam, params, list(_pair(0.0, kind)), box=(-2.0, 4.0, -2.0, 2.0),
+                     pairs=pairs)
+    assert pairs is None or pairs.calls > 0
     for b in branches:
         assert b.end_reason is BranchEnd.ACTIVE
         assert np.allclose(b.params, params)
@@ -123,22 +128,6 @@ def _pairs_of(family):  # noqa: ANN001, ANN202 - test helper
 
     pairs.calls = 0
     return pairs
-
-
-@pytest.mark.parametrize("kind", ["crossing", "avoided"])
-def test_blocks_keep_identities_through_near_crossing(kind: str) -> None:
-    # the same pair as above, now with 201 values so that blocks are long
-    fam = lambda p: product_of_linear(_pair(p, kind))  # noqa: E731
-    pairs = _pairs_of(fam)
-    params = np.linspace(0.0, 1.0, 201)
-    branches = trace(fam, params, list(_pair(0.0, kind)), box=(-2.0, 4.0, -2.0, 2.0),
-                     pairs=pairs)
-    assert pairs.calls > 0
-    for b in branches:
-        assert b.end_reason is BranchEnd.ACTIVE
-        assert np.allclose(b.params, params)
-        ref = np.array([_pair(p, kind)[b.id] for p in b.params])
-        assert np.max(np.abs(b.values - ref)) < 1e-9
 
 
 def test_blocks_match_single_steps_and_count_every_evaluation() -> None:
