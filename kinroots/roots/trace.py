@@ -25,7 +25,8 @@ Speculative blocks.  Given ``pairs`` — the family evaluated at arrays of (para
 pairs in one call — :meth:`Tracer.advance_through` first tries several requested values
 at once: every branch is extrapolated to each of them, plain Newton runs on all the pairs
 together (at most :data:`BLOCK_NEWTON` corrections, each at most a tenth of the one
-before), and the points are accepted in order up to the first one where any branch fails
+before until within a hundred tolerances of the root, where rounding decides), and the
+points are accepted in order up to the first one where any branch fails
 one of the checks above (or converges slowly, or |f| grows).  From there the single-step
 path takes over, with its halving.  Blocks grow (doubling, up to ``block``) after a block
 that is accepted whole and shrink to what was accepted otherwise.  A block therefore
@@ -55,8 +56,10 @@ PairFamily = Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]]
 
 #: Newton corrections allowed per point in a speculative block.
 BLOCK_NEWTON = 2
-#: Each correction in a block must be at most this fraction of the one before.
+#: Each correction in a block must be at most this fraction of the one before ...
 _BLOCK_CONTRACTION = 0.1
+#: ... unless it is within this many tolerances (the rounding floor of f).
+_NOISE_ZONE = 100.0
 
 
 class BranchEnd(enum.Enum):
@@ -388,12 +391,17 @@ class Tracer:
             evals[todo] += 1
             with np.errstate(all="ignore"):
                 c = np.asarray(f / df, dtype=complex)
-            ok = np.isfinite(c)
-            if it > 0:  # plain Newton only while it contracts fast and |f| falls
-                ok &= (np.abs(c) <= _BLOCK_CONTRACTION * np.abs(corr[todo])) & (
-                    np.abs(f) <= np.abs(f_at[todo]))
+            finite = np.isfinite(c)
+            tol = self.atol + self.rtol * np.abs(z[todo])
+            conv = finite & (np.abs(c) <= tol)
+            ok = finite
+            if it > 0:
+                # go on with plain Newton only while it contracts fast and |f| falls, or
+                # once within _NOISE_ZONE tolerances of the root (rounding in f then
+                # decides both; there is no other root that close)
+                ok &= ((np.abs(c) <= _BLOCK_CONTRACTION * np.abs(corr[todo]))
+                       & (np.abs(f) <= np.abs(f_at[todo]))) | (np.abs(c) <= _NOISE_ZONE * tol)
             f_at[todo], corr[todo] = f, c
-            conv = ok & (np.abs(c) <= self.atol + self.rtol * np.abs(z[todo]))
             done[todo[conv]] = True
             todo = todo[ok & ~conv]
             if todo.size == 0 or it == BLOCK_NEWTON:
