@@ -15,15 +15,15 @@ functions (``scan.function_at``, built per k for both).
 
 Accuracy: every point of both is compared with a tight re-polish (Newton to 1e-15); the
 resolution of that comparison is the scatter of tight re-polishes started 1e-7 away in
-four directions (rounding in D; measured on the tightest baseline run).  The baseline's last quasi-Newton step usually overshoots its tolerance
-by orders of magnitude, so both are run at several tolerances, and for each baseline run
-the speed-up is taken against the fastest tracer run whose worst error is no larger than
-the baseline's plus that resolution (each figure is uncertain by it): "at equal or better
-accuracy".  Times are per point (a
-branch that leaves the window ends the tracer earlier than the baseline, which does not
-notice).  Both tracer modes are shown: ``single`` (one parameter value per dispersion
-call) and ``blocks`` (speculative blocks of k values evaluated in one call through
-``scan.pair_function``, as ``kinroots solve`` runs).
+four directions (rounding in D; measured on the tightest baseline run).  The baseline's
+last quasi-Newton step usually overshoots its tolerance by orders of magnitude, so both
+are run at several tolerances, and for each baseline run the speed-up is taken against
+the fastest tracer run whose worst error is no larger than the baseline's plus that
+resolution (each figure is uncertain by it): "at equal or better accuracy".  Times are
+per point (a branch that leaves the window ends the tracer earlier than the baseline,
+which does not notice).  Both tracer modes are shown: ``single`` (one parameter value
+per dispersion call) and ``blocks`` (speculative blocks of k values evaluated in one call
+through ``scan.pair_function``, as ``kinroots solve`` runs).
 
 Run: ``.venv/bin/python benchmarks/bench_solve.py``
 """
