@@ -244,3 +244,18 @@ def test_bessel_weights_array_rows_match_scalar_weights():
             outer = np.delete(row, np.arange(2 * big + 1)[inner])
             assert np.all(np.abs(outer) <= tol * np.sum(np.abs(one.gamma)))
     assert np.all(np.isnan(weights.gamma[6:])) and np.all(np.isnan(weights.g[6:]))
+
+
+def test_cached_bessel_weights_are_the_computed_ones_and_read_only():
+    """bessel_weights keeps recent results: a hit must equal a fresh computation
+    (bit for bit) and must not be writable, so no caller can change another's weights."""
+    lam, tol = 3.7 + 0.2j, 1e-14
+    first = _harmonics.bessel_weights(lam, tol)
+    again = _harmonics.bessel_weights(lam, tol)
+    fresh = _harmonics._bessel_weights(complex(lam), tol)
+    assert again is first
+    for a, b in ((first.gamma, fresh.gamma), (first.dgamma, fresh.dgamma), (first.g, fresh.g)):
+        assert np.array_equal(a, b)
+        with pytest.raises(ValueError):
+            a[0] = 1.0
+    assert first.harmonics == fresh.harmonics

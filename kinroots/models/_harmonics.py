@@ -25,6 +25,7 @@ T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 10–11 (the weights of the hot 
 from __future__ import annotations
 
 import cmath
+import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -152,11 +153,29 @@ def bessel_weights(lam: complex, tol: float) -> BesselWeights:
 
     The table is extended (doubling) until the terms beyond it are below ``tol·1e-3``
     of the kept sum, so the tail is measured, not extrapolated. Γ_{−n} = Γ_n.
+
+    The last :data:`WEIGHT_CACHE` results are kept (keyed by λ and tol): a survey or a
+    Newton polish evaluates D many times at one k. Their arrays are read-only.
     """
-    lam_c = complex(lam)
+    return _bessel_weights_cached(complex(lam), max(float(tol), 1e-300))
+
+
+#: Number of (λ, tol) whose weights :func:`bessel_weights` keeps.
+WEIGHT_CACHE = 256
+
+
+@functools.lru_cache(maxsize=WEIGHT_CACHE)
+def _bessel_weights_cached(lam_c: complex, tol: float) -> BesselWeights:
+    w = _bessel_weights(lam_c, tol)
+    for a in (w.n, w.gamma, w.dgamma, w.g):
+        a.setflags(write=False)
+    return w
+
+
+def _bessel_weights(lam_c: complex, tol: float) -> BesselWeights:
+    """:func:`bessel_weights` without the cache."""
     if not cmath.isfinite(lam_c):
         return _nan_weights(1)
-    tol = max(float(tol), 1e-300)
     a = abs(lam_c)
     guess = 24.0 + 10.0 * np.sqrt(a) + (abs(lam_c.imag) if abs(lam_c.imag) > a / 4 else 0.0)
     nmax = int(min(guess, MAX_HARMONICS))
