@@ -556,10 +556,11 @@ def dispersion_in_k(
     ∂χ_s/∂k = −(2χ_s + ω ∂χ_s/∂ω)/k.  With ∂n²/∂k = 2n²/k the derivative of M (class
     Notes) follows, and dD/dk = Σ C_ij ∂M_ij/∂k.  All k are evaluated in one call.
 
-    Magnetized models (no such homogeneity: Ω_s is fixed): one Dispersion per k and
-    dD/dk = (1/(m r)) Σ_j D(k + r e^{iφ_j}) e^{−iφ_j}, φ_j = 2π(j + 1/2)/m, m = 16,
-    r = 1e-3 |k| (Cauchy's formula for the derivative: error of order (r/R)^16 for D
-    analytic within R of k).
+    Magnetized models (no such homogeneity: Ω_s is fixed):
+    dD/dk = (1/m) Σ_j D(k + r e^{iφ_j}) e^{−iφ_j} / r, φ_j = 2π(j + 1/2)/m, m = 32,
+    r = 1e-3 |k| (Cauchy's formula for the derivative, trapezoid rule on the circle: error
+    of order (r/R)^m for D analytic within R of k; any numerical-analysis text, from
+    memory); every k and every circle point in one :func:`dispersion_pairs` call.
     """
     kk = np.asarray(k, dtype=complex)
     om = float(omega)
@@ -570,7 +571,7 @@ def dispersion_in_k(
     bad = ~np.isfinite(kk) | (kk == 0)
     ksafe = np.where(bad, 1.0, kk)
     if plasma.magnetized:
-        d, dd = _dispersion_in_k_loop(
+        d, dd = _dispersion_in_k_cauchy(
             plasma, om, ksafe, angle_deg, canonical, omega_ref, harmonic_tol
         )
     else:
@@ -622,7 +623,7 @@ def _dispersion_in_k_unmagnetized(
         return _det_and_derivative(m, dm)
 
 
-def _dispersion_in_k_loop(
+def _dispersion_in_k_cauchy(
     plasma: Plasma,
     omega: float,
     k: np.ndarray,
@@ -631,21 +632,13 @@ def _dispersion_in_k_loop(
     omega_ref: float,
     harmonic_tol: float,
 ) -> tuple[np.ndarray, np.ndarray]:
+    """D at k and dD/dk from the Cauchy circle around each k: every point of every circle
+    in one :func:`dispersion_pairs` call."""
     phase = np.exp(2j * np.pi * (np.arange(_N_CIRCLE) + 0.5) / _N_CIRCLE)
-    d = np.empty(k.shape, dtype=complex)
-    dd = np.empty(k.shape, dtype=complex)
-    make: Callable[[complex], Dispersion] = lambda kj: Dispersion(  # noqa: E731
-        plasma,
-        k=kj,
-        angle_deg=angle_deg,
-        model=model,
-        omega_ref=omega_ref,
-        harmonic_tol=harmonic_tol,
-    )
-    for idx in np.ndindex(k.shape):
-        kj = complex(k[idx])
-        d[idx] = make(kj).value(np.array([omega]))[0]
-        r = _K_FRACTION * abs(kj)
-        vals = np.array([make(kj + r * ph).value(np.array([omega]))[0] for ph in phase])
-        dd[idx] = np.mean(vals * phase.conj()) / r
+    r = _K_FRACTION * np.abs(k)[..., None]
+    ks = np.concatenate([k[..., None], k[..., None] + r * phase], axis=-1)
+    d_all, _ = dispersion_pairs(plasma, k=ks, omega=omega, angle_deg=angle_deg, model=model,
+                                omega_ref=omega_ref, harmonic_tol=harmonic_tol)
+    d = d_all[..., 0]
+    dd = np.mean(d_all[..., 1:] * phase.conj(), axis=-1) / r[..., 0]
     return d, dd
