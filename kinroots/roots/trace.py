@@ -26,8 +26,8 @@ pairs in one call — :meth:`Tracer.advance_through` first tries several request
 at once: every branch is extrapolated to each of them, plain Newton runs on all the pairs
 together (at most :data:`BLOCK_NEWTON` corrections, each at most a tenth of the one
 before until within a hundred tolerances of the root, where rounding decides), and the
-points are accepted in order up to the first one where any branch fails
-one of the checks above (or converges slowly, or |f| grows).  From there the single-step
+points are accepted in order up to the first one where any branch fails one of the
+checks above (or converges slowly, or |f| grows).  From there the single-step
 path takes over, with its halving.  Blocks grow (doubling, up to ``block``) after a block
 that is accepted whole and shrink to what was accepted otherwise.  A block therefore
 accepts only points that a single step would also have accepted from a prediction no
@@ -121,26 +121,14 @@ class Branch:
         self.end_reason, self.end_param, self.note, self.merged_with = reason, param, note, other
 
 
-def _extrapolate(path: list[tuple[float, complex]], p: float, order: int) -> complex:
-    """Lagrange polynomial through the last ``order + 1`` points of ``path``, at p."""
+def _extrapolate(path: list[tuple[float, complex]], p: float | np.ndarray, order: int
+                 ) -> complex | np.ndarray:
+    """Lagrange polynomial through the last ``order + 1`` points of ``path``, at p (a float
+    or an array of parameters)."""
     pts = path[-(order + 1):]
     total = 0j
     for i, (pi, zi) in enumerate(pts):
         w = 1.0
-        for j, (pj, _) in enumerate(pts):
-            if j != i:
-                w *= (p - pj) / (pi - pj)
-        total += w * zi
-    return total
-
-
-def _extrapolate_many(path: list[tuple[float, complex]], p: np.ndarray, order: int
-                      ) -> np.ndarray:
-    """:func:`_extrapolate` at every parameter in the array ``p``."""
-    pts = path[-(order + 1):]
-    total = np.zeros(p.shape, dtype=complex)
-    for i, (pi, zi) in enumerate(pts):
-        w = np.ones(p.shape)
         for j, (pj, _) in enumerate(pts):
             if j != i:
                 w *= (p - pj) / (pi - pj)
@@ -376,7 +364,7 @@ class Tracer:
         act = self.active
         nb, m = len(act), len(ps)
         p_arr = np.array(ps)
-        pred = np.array([_extrapolate_many(b.path, p_arr, min(self.order, len(b.path) - 1))
+        pred = np.array([_extrapolate(b.path, p_arr, min(self.order, len(b.path) - 1))
                          for b in act])
         pp = np.broadcast_to(p_arr, (nb, m)).ravel()
         z = pred.ravel().copy()
