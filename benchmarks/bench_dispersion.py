@@ -19,8 +19,8 @@ import timeit
 import numpy as np
 from scipy.special import ive, wofz
 
-from kinroots.dispersion import Dispersion
-from kinroots.plasma import AMU, M_ELECTRON, M_PROTON, Plasma, Species
+from kinroots.physics.dispersion import Dispersion
+from kinroots.physics.plasma import AMU, M_ELECTRON, M_PROTON, Plasma, Species
 
 N_OMEGA = 1000
 
@@ -49,8 +49,8 @@ def main() -> None:
     for model, magnetized in cases:
         kind = "es" if model == "electrostatic" else "em"
         name = f"{kind}_{'' if magnetized else 'un'}magnetized"
-        if magnetized and importlib.util.find_spec(f"kinroots.models.{name}") is None:
-            print(f"{model:16s} magnetized=True   skipped: kinroots.models.{name} absent")
+        if magnetized and importlib.util.find_spec(f"kinroots.physics.models.{name}") is None:
+            print(f"{model:16s} magnetized=True   skipped: kinroots.physics.models.{name} absent")
             continue
         pl = plasma(1.0 if magnetized else 0.0)
         e = pl.species[0]

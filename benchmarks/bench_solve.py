@@ -11,7 +11,7 @@ Two branches:
 Baseline: ``scipy.optimize.root`` (hybr, finite-difference Jacobian) on (Re D, Im D) as a
 function of (Re ω, Im ω), started from the previous point's root — the obvious thing to
 write by hand — at the cases' tolerance (xtol 1e-10).  Both use the same dispersion
-functions (``scan.function_at``, built per k for both).
+functions (``function_at``, built per k for both).
 
 Accuracy: every point of both is compared with a tight re-polish (Newton to 1e-15); the
 resolution of that comparison is the scatter of tight re-polishes started 1e-7 away in
@@ -23,7 +23,7 @@ resolution (each figure is uncertain by it): "at equal or better accuracy".  Tim
 per point (a branch that leaves the window ends the tracer earlier than the baseline,
 which does not notice).  Both tracer modes are shown: ``single`` (one parameter value
 per dispersion call) and ``blocks`` (speculative blocks of k values evaluated in one call
-through ``scan.pair_function``, as ``kinroots solve`` runs).
+through ``pair_function``, as ``kinroots solve`` runs).
 
 Run: ``.venv/bin/python benchmarks/bench_solve.py``
 """
@@ -36,9 +36,9 @@ import time
 import numpy as np
 from scipy.optimize import root
 
-from kinroots import scan
-from kinroots.casefile import parse_case
+from kinroots.io.case import parse_case
 from kinroots.roots import Tracer, polish
+from kinroots.study.problem import function_at, pair_function, survey, window
 
 ORDER = 4
 #: Tracer tolerances (the first is the cases' default).
@@ -81,8 +81,8 @@ def em_case():
 
 def run_tracer(case, start, rtol, batched=True):
     ks = [float(k) for k in case.k_values]
-    tr = Tracer(lambda k: scan.function_at(case, k), box=scan.window(case), param=ks[0],
-                rtol=rtol, order=ORDER, pairs=scan.pair_function(case) if batched else None)
+    tr = Tracer(lambda k: function_at(case, k), box=window(case), param=ks[0],
+                rtol=rtol, order=ORDER, pairs=pair_function(case) if batched else None)
     b = tr.add_branch(start, param=ks[0])
     tr.advance_through(ks[1:])
     return b, tr
@@ -94,7 +94,7 @@ def run_baseline(case, start, xtol):
     z = start
     evals = []
     for k in ks[1:]:
-        f = scan.function_at(case, k)
+        f = function_at(case, k)
 
         def fun(x, f=f):
             d = f(np.array([x[0] + 1j * x[1]]))[0][0]
@@ -116,7 +116,7 @@ def accuracy(case, points, scatter=False):
     for k, z in points:
         if not np.isfinite(z):
             return float("inf"), float("nan")
-        f = scan.function_at(case, k)
+        f = function_at(case, k)
         r = polish(f, z, rtol=1e-15, maxiter=20)
         worst = max(worst, abs(z - r.value) / abs(r.value))
         for d in (1e-7, -1e-7, 1e-7j, -1e-7j) if scatter else ():
@@ -130,7 +130,7 @@ def bench(name, case):
     tolerances; for each baseline run, the fastest block run at equal or better accuracy
     (worst error no larger than the baseline's plus the resolution of the measurement,
     since each error figure is uncertain by that much)."""
-    s0 = scan.survey(case, float(case.k_values[0]))
+    s0 = survey(case, float(case.k_values[0]))
     start = max((r for r in s0.roots if r.converged), key=lambda r: r.value.imag)
     print(f"== {name}")
     base_runs = []

@@ -11,8 +11,8 @@ import copy
 import sys
 import time
 
-from kinroots.casefile import load_case, parse_case
-from kinroots.sweep import run_points
+from kinroots.io.case import load_case, parse_case
+from kinroots.study.sweep import run_points
 
 FLOOR = 1.7
 

@@ -8,7 +8,7 @@ from collections.abc import Callable
 import numpy as np
 from scipy.special import wofz
 
-from kinroots.zfunc import plasma_z, plasma_z_and_prime
+from kinroots.physics.zfunc import plasma_z, plasma_z_and_prime
 
 N = 10**6
 REPEATS = 7

@@ -1,5 +1,6 @@
-"""``python -m kinroots`` runs the command line."""
+"""``python -m kinroots`` runs the command line (importing this module does not)."""
 
-from kinroots.cli import app
+if __name__ == "__main__":
+    from kinroots.cli import app
 
-app()
+    app()

@@ -1,4 +1,4 @@
-"""Case files (kinroots.casefile): validation messages name file, key path, value, expectation.
+"""Case files (kinroots.io.case): validation messages name file, key path, value, expectation.
 
 Expected values are independent of kinroots: numpy.linspace/geomspace for the k grid,
 scipy.constants for masses; the error classes come from the case-file contract in
@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 from scipy import constants
 
-from kinroots.casefile import (
+from kinroots.io.case import (
     DEFAULTS,
     Case,
     CaseError,

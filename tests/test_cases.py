@@ -17,8 +17,8 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from kinroots.casefile import load_case
 from kinroots.cli import app
+from kinroots.io.case import load_case
 
 runner = CliRunner()
 CASES_DIR = Path(__file__).resolve().parent.parent / "cases"

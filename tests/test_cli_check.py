@@ -18,8 +18,8 @@ from hypothesis import strategies as st
 from test_casefile import BASE, ERROR_CASES, mutated  # sibling test module (rootdir import)
 from typer.testing import CliRunner
 
-from kinroots.casefile import default_case_path
 from kinroots.cli import app
+from kinroots.io.case import default_case_path
 
 CASES_DIR = Path(__file__).resolve().parent.parent / "cases"
 CASE_FILES = sorted(CASES_DIR.glob("*.toml"))

@@ -9,9 +9,9 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from kinroots import scan
 from kinroots.cli import app
 from kinroots.roots import RootResult, Status
+from kinroots.study.solve import solve
 
 runner = CliRunner()
 
@@ -85,7 +85,7 @@ def test_output_path_that_is_a_file_is_bad_input(tmp_path):
 
 
 def test_failed_point_exit_1_and_flagged_with_empty_values(tmp_path, monkeypatch):
-    real_solve = scan.solve
+    real_solve = solve
 
     def solve_with_a_failure(case, *, progress=None):
         sol = real_solve(case, progress=progress)
@@ -98,7 +98,9 @@ def test_failed_point_exit_1_and_flagged_with_empty_values(tmp_path, monkeypatch
         )
         return sol
 
-    monkeypatch.setattr(scan, "solve", solve_with_a_failure)
+    import kinroots.study.solve as solve_module
+
+    monkeypatch.setattr(solve_module, "solve", solve_with_a_failure)
     res = runner.invoke(app, ["solve", "-o", str(tmp_path)])
     assert res.exit_code == 1, res.output
     assert "failed" in res.output

@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from kinroots.dispersion import Dispersion, dispersion_in_k, dispersion_pairs
-from kinroots.plasma import C_LIGHT, M_ELECTRON, M_PROTON, Plasma, Species
+from kinroots.physics.dispersion import Dispersion, dispersion_in_k, dispersion_pairs
+from kinroots.physics.plasma import C_LIGHT, M_ELECTRON, M_PROTON, Plasma, Species
 
 
 def two_species(drift: float = 0.0, t_perp: float = 2.0) -> Plasma:
@@ -228,7 +228,7 @@ def test_singular_points_unmagnetized() -> None:
 
 
 @pytest.mark.skipif(
-    importlib.util.find_spec("kinroots.models.es_magnetized") is None,
+    importlib.util.find_spec("kinroots.physics.models.es_magnetized") is None,
     reason="magnetized electrostatic builder not present yet",
 )
 def test_singular_points_perpendicular_magnetized() -> None:

@@ -8,11 +8,12 @@ import mpmath
 import numpy as np
 import pytest
 
-from kinroots import scan
-from kinroots.casefile import CaseError, load_case, parse_case
-from kinroots.models import es_magnetized, es_unmagnetized, krook
-from kinroots.plasma import AMU, M_ELECTRON, Species
+from kinroots.io.case import CaseError, load_case, parse_case
+from kinroots.physics.models import es_magnetized, es_unmagnetized, krook
+from kinroots.physics.plasma import AMU, M_ELECTRON, Species
 from kinroots.roots import polish
+from kinroots.study.problem import dispersion_at, function_at, spatial_roots, survey
+from kinroots.study.solve import solve
 
 ARGON = "cases/argon_ion_acoustic.toml"
 
@@ -59,7 +60,7 @@ def test_static_debye_value_for_any_nu(nu_over_kw):
 
 def test_against_mpmath_formula():
     # χ = (1 + ζ'Z(ζ'))/(k²λ²) / (1 + iν Z(ζ')/(k w)), Z from mpmath (Sheffield et al. 2011,
-    # from memory; re-derived in kinroots.models.krook)
+    # from memory; re-derived in kinroots.physics.models.krook)
     k = 1.5e3
     s = _electron(4e7)
     w = s.thermal_speed_par
@@ -112,14 +113,14 @@ def _with_ion_collisions(nu_over_wpi: float):
 def test_ion_acoustic_damping_grows_with_nu():
     # collisions add damping to the ion acoustic wave (common practice; BGK 1954)
     k = 0.3
-    z0 = scan.survey(load_case(ARGON), k).roots[0].value
+    z0 = survey(load_case(ARGON), k).roots[0].value
     gammas = []
     for nu in (0.0, 0.005, 0.02, 0.05):
         case = _with_ion_collisions(nu)
-        r = polish(scan.function_at(case, k), z0, rtol=1e-12)
+        r = polish(function_at(case, k), z0, rtol=1e-12)
         assert r.converged
         # the root is a zero of the unscaled D = 1 + Σχ (independent of the scaled F)
-        d = scan.dispersion_at(case, k)(np.array([r.value * case.units.omega_unit]))[0][0]
+        d = dispersion_at(case, k)(np.array([r.value * case.units.omega_unit]))[0][0]
         assert abs(d) < 1e-8
         gammas.append(r.value.imag)
         z0 = r.value
@@ -182,7 +183,7 @@ def test_magnetized_static_debye_value_for_any_nu(nu_over_kw, kpar):
 
 def test_magnetized_against_mpmath_sum():
     # χ = (1 + ζ_0 S)/(k²λ_D²)/(1 + iνS/(k∥w)), S = Σ e^{−λ}I_n(λ) Z(ζ_n) with mpmath Bessel
-    # and Z (Sheffield et al. 2011, from memory; derived in kinroots.models.krook)
+    # and Z (Sheffield et al. 2011, from memory; derived in kinroots.physics.models.krook)
     s = _iso(3e8)
     oc = s.cyclotron_frequency(B_TEST)
     kpar, kperp = 3e3, 4e3
@@ -284,13 +285,13 @@ def test_magnetized_oblique_ion_acoustic_damping_grows_with_nu():
     # collisions add damping to the ion acoustic wave (BGK 1954; common practice), here
     # at 60° to B = 0.3 T (ω ≈ 27 Ω_i)
     k = 0.3
-    z0 = scan.survey(_magnetized_argon(0.0), k).roots[0].value
+    z0 = survey(_magnetized_argon(0.0), k).roots[0].value
     gammas = []
     for nu in (0.0, 0.005, 0.02, 0.05):
         case = _magnetized_argon(nu)
-        r = polish(scan.function_at(case, k), z0, rtol=1e-12)
+        r = polish(function_at(case, k), z0, rtol=1e-12)
         assert r.converged
-        d = scan.dispersion_at(case, k)(np.array([r.value * case.units.omega_unit]))[0][0]
+        d = dispersion_at(case, k)(np.array([r.value * case.units.omega_unit]))[0][0]
         assert abs(d) < 1e-8  # a zero of the unscaled D = 1 + Σχ
         gammas.append(r.value.imag)
         z0 = r.value
@@ -299,11 +300,11 @@ def test_magnetized_oblique_ion_acoustic_damping_grows_with_nu():
         0.02, scan={"k": {"start": 0.1, "stop": 0.5, "points": 8}},
         search={"real": [0.05, 1.0], "imag": [-0.03, 0.1]},
     )
-    sol = scan.solve(case)
+    sol = solve(case)
     assert sol.failed_points == 0
     assert len(sol.branches) == 1 and len(sol.branches[0].points) == 8
     # the spatial problem of the same case: one complex k near the temporal root
-    sr = scan.spatial_roots(case, 0.29, (0.1, 0.6, -0.1, 0.1))
+    sr = spatial_roots(case, 0.29, (0.1, 0.6, -0.1, 0.1))
     assert len(sr.roots) == 1 and sr.roots[0].converged
 
 

@@ -7,22 +7,23 @@ import math
 import numpy as np
 import pytest
 
-from kinroots import launch, scan
-from kinroots.casefile import load_case, parse_case
+from kinroots.io.case import load_case, parse_case
+from kinroots.io.tables import rows_to_csv
 from kinroots.roots import RootResult, Status, polish
-from kinroots.tables import rows_to_csv
+from kinroots.study import launch
+from kinroots.study.problem import SpatialFunction, function_at
 
 CASE = "cases/lab_launched_ion_acoustic.toml"
 
 
 def _temporal(case, k: float, guess: complex) -> complex:
-    r = polish(scan.function_at(case, k), guess, rtol=1e-13)
+    r = polish(function_at(case, k), guess, rtol=1e-13)
     assert r.converged
     return r.value
 
 
 def _spatial_vs_temporal(case, omega: float, k_guess: complex) -> None:
-    r = polish(scan.SpatialFunction(case, omega), k_guess, rtol=1e-13)
+    r = polish(SpatialFunction(case, omega), k_guess, rtol=1e-13)
     assert r.converged
     kr = r.value.real
     w0 = _temporal(case, kr, omega + 0j)

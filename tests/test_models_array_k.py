@@ -5,7 +5,7 @@ result must be the scalar-k result at that element's (k∥, k⊥, ω). The two e
 differ only in rounding: the array path contracts over the harmonics in another order
 (batched products instead of one BLAS dot) and keeps the largest harmonic count any
 element needs, the extra harmonics being below the truncation tolerance (1e-14 of the
-kept sum, rule in ``kinroots.models._harmonics.bessel_weights``).
+kept sum, rule in ``kinroots.physics.models._harmonics.bessel_weights``).
 
 Comparison criterion, |a − b| ≤ rtol · max(|b|, scale):
 
@@ -25,10 +25,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from kinroots.models import _harmonics
-from kinroots.models import em_magnetized as em
-from kinroots.models import es_magnetized as es
-from kinroots.plasma import M_ELECTRON, M_PROTON, Species
+from kinroots.physics.models import _harmonics
+from kinroots.physics.models import em_magnetized as em
+from kinroots.physics.models import es_magnetized as es
+from kinroots.physics.plasma import M_ELECTRON, M_PROTON, Species
 
 M_ALPHA = 6.6446573357e-27  # alpha-particle mass [kg] (CODATA 2018)
 EPS = np.finfo(float).eps

@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 from scipy.special import iv, wofz
 
-from kinroots.models import _harmonics
-from kinroots.models import em_magnetized as em
-from kinroots.models import es_magnetized as es
-from kinroots.plasma import EPS0, M_ELECTRON, M_PROTON, Species
+from kinroots.physics.models import _harmonics
+from kinroots.physics.models import em_magnetized as em
+from kinroots.physics.models import es_magnetized as es
+from kinroots.physics.plasma import EPS0, M_ELECTRON, M_PROTON, Species
 
 M_ALPHA = 6.6446573357e-27  # alpha-particle mass [kg] (CODATA 2018)
 
@@ -126,7 +126,7 @@ def test_parallel_propagation_matches_closed_form():
     χ_± = (ω_p²/ω²)[(ω − k∥V)/(k∥w∥) Z(ζ_∓1) + (T⊥/T∥ − 1)(1 + ζ_∓1 Z(ζ_∓1))],
     ζ_n = (ω − k∥V − nΩ)/(k∥w∥); ε_xx = 1 + Σ(χ_R + χ_L)/2, ε_xy = −iΣ(χ_R − χ_L)/2
     (Stix 1992, eq. 1-19, R/L/D, from memory); χ_zz = (2ω_p²/(k∥²w∥²))(1 + ζ_0 Z(ζ_0)).
-    Z here from scipy.special.wofz (not kinroots.zfunc).
+    Z here from scipy.special.wofz (not kinroots.physics.zfunc).
     """
     k_par = 400.0
     omega = PROTON.cyclotron_frequency(B0) * np.array([0.7 + 0.05j, 1.3 - 0.02j, 2.2 + 0.3j])
@@ -168,8 +168,8 @@ def test_b_to_zero_approaches_unmagnetized():
     straight-line one as Ω → 0). EM corrections are first order in Ω/ω (gyrotropy,
     Stix's D ∝ Ω), ES corrections second order (χ_ES is even in B).
     """
-    from kinroots.models import em_unmagnetized as emu
-    from kinroots.models import es_unmagnetized as esu
+    from kinroots.physics.models import em_unmagnetized as emu
+    from kinroots.physics.models import es_unmagnetized as esu
     sp = Species("e", -1, M_ELECTRON, 1e18, 10.0, 30.0, drift=2e6)
     w, wp = sp.thermal_speed_par, sp.plasma_frequency
     omega = np.array([wp * (1.2 + 0.3j), wp * (0.4 + 0.5j)])
@@ -526,8 +526,8 @@ def test_scaled_d_near_zero_against_mpmath(k_par, k_perp):
     term of its expansion.  The former χ-times-ω² evaluation lost ~2e-3 here at 1e-5 F."""
     from itertools import permutations
 
-    from kinroots.dispersion import Dispersion
-    from kinroots.plasma import Plasma
+    from kinroots.physics.dispersion import Dispersion
+    from kinroots.physics.plasma import Plasma
 
     sps = (
         Species("e", -1, M_ELECTRON, 1.1e19, 100.0, 300.0, 2.0e5),

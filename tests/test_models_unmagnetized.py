@@ -13,9 +13,9 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from kinroots.models import em_unmagnetized, es_unmagnetized
-from kinroots.models.es_unmagnetized import landau_moments
-from kinroots.plasma import EPS0, EV, M_ELECTRON, M_PROTON, Species
+from kinroots.physics.models import em_unmagnetized, es_unmagnetized
+from kinroots.physics.models.es_unmagnetized import landau_moments
+from kinroots.physics.plasma import EPS0, EV, M_ELECTRON, M_PROTON, Species
 
 RNG_SEED = 20240611
 
@@ -457,8 +457,8 @@ def test_scaled_d_near_zero_against_mpmath(angle: float) -> None:
     # (F the slowest frequency scale), anisotropic and drifting electrons and protons.
     from itertools import permutations
 
-    from kinroots.dispersion import Dispersion
-    from kinroots.plasma import C_LIGHT, Plasma
+    from kinroots.physics.dispersion import Dispersion
+    from kinroots.physics.plasma import C_LIGHT, Plasma
 
     sps = (electron(2.0, 5.0, 4e5), proton(0.5, 0.2, -1e5))
     wpe = sps[0].plasma_frequency

@@ -7,11 +7,13 @@ import math
 import numpy as np
 import pytest
 
-from kinroots import modes, scan
-from kinroots.casefile import load_case
-from kinroots.dispersion import Dispersion
-from kinroots.plasma import E_CHARGE, EPS0, EV, M_ELECTRON, M_PROTON, Plasma, Species
+from kinroots.io.case import load_case
+from kinroots.physics import modes
+from kinroots.physics.dispersion import Dispersion
+from kinroots.physics.plasma import E_CHARGE, EPS0, EV, M_ELECTRON, M_PROTON, Plasma, Species
 from kinroots.roots import polish
+from kinroots.study.problem import survey
+from kinroots.study.rows import root_row
 
 B = 0.1
 N = 1e18
@@ -124,8 +126,8 @@ def test_langmuir_wave_is_electrostatic_in_the_em_model():
 def test_ion_acoustic_density_responses():
     case = load_case("cases/argon_ion_acoustic.toml")
     k = 0.3
-    r = scan.survey(case, k).roots[0]
-    row = scan.root_row(case, 0, k, r)
+    r = survey(case, k).roots[0]
+    row = root_row(case, 0, k, r)
     # Boltzmann electrons δn_e/n_e = eφ/T_e, φ = i|E|/k for E = k̂ (common practice);
     # corrections of order ω/(k w_e) ~ 1e-3 here
     assert row["density_abs_e"] == pytest.approx(1.0, abs=5e-3)

@@ -6,15 +6,11 @@ import math
 
 import pytest
 
-from kinroots.casefile import CaseError, load_case, parse_case
-from kinroots.parameters import (
-    ParameterError,
-    parameter_value,
-    parse_path,
-    trace_parameter,
-    with_parameter,
-)
-from kinroots.scan import survey
+from kinroots.io.case import CaseError, load_case, parse_case
+from kinroots.io.parameter_paths import ParameterError, parse_path
+from kinroots.io.parameters import parameter_value, with_parameter
+from kinroots.study.parameter_trace import trace_parameter
+from kinroots.study.problem import survey
 
 CASE = "cases/space_protons_alphas.toml"
 MU0 = 4e-7 * math.pi * 1.00000000055  # CODATA 2018 μ0 (common practice, from memory)

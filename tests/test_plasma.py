@@ -1,4 +1,4 @@
-"""Derived quantities and normalization (kinroots.plasma).
+"""Derived quantities and normalization (kinroots.physics.plasma).
 
 Reference formulas: NRL Plasma Formulary (J. D. Huba), "Fundamental plasma parameters",
 quoted from memory; coefficients are printed there to three significant figures, so each
@@ -15,7 +15,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from kinroots.plasma import (
+from kinroots.physics.plasma import (
     EV,
     M_ELECTRON,
     M_PROTON,

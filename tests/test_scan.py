@@ -16,8 +16,17 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from kinroots import scan
-from kinroots.casefile import load_case, parse_case
+from kinroots.io.case import load_case, parse_case
+from kinroots.study.problem import (
+    dispersion_at,
+    function_at,
+    pair_function,
+    spatial_roots,
+    survey,
+    window,
+)
+from kinroots.study.rows import branch_rows
+from kinroots.study.solve import solve
 
 CASES = sorted(Path(__file__).resolve().parent.parent.joinpath("cases").glob("*.toml"))
 
@@ -55,7 +64,7 @@ def mpmath_langmuir_root(k: float, guess: complex) -> complex:
 
 def test_langmuir_root_at_half_debye_wavenumber():
     case = electrons_only()
-    s = scan.survey(case, 0.5)
+    s = survey(case, 0.5)
     assert s.complete and s.count == 1
     (root,) = s.roots
     assert root.converged and root.verified
@@ -76,7 +85,7 @@ def test_langmuir_weak_damping_formula_at_small_k():
     errs = []
     for k in (0.12, 0.15, 0.2):
         case = electrons_only(k, k + 0.1, 2, (0.8, 3.0, -0.05, 0.05))
-        (root,) = scan.survey(case, k).roots
+        (root,) = survey(case, k).roots
         gamma_landau = -math.sqrt(math.pi / 8) / k**3 * math.exp(-1 / (2 * k**2) - 1.5)
         err = abs(root.value.imag / gamma_landau - 1)
         assert err < 4 * k**2
@@ -115,12 +124,12 @@ def _multistart_roots(f, box, excluded, n: int = 26, iters: int = 60):
 @pytest.mark.parametrize("path", CASES, ids=[p.stem for p in CASES])
 def test_survey_misses_no_root_that_multistart_newton_finds(path):
     case = load_case(path)
-    box = scan.window(case)
+    box = window(case)
     diam = math.hypot(box[1] - box[0], box[3] - box[2])
     ks = case.k_values
     for k in (ks[0], ks[len(ks) // 2], ks[-1]):
-        f = scan.function_at(case, float(k))
-        s = scan.survey(case, float(k))
+        f = function_at(case, float(k))
+        s = survey(case, float(k))
         assert s.complete, (k, s.notes)
         brute = _multistart_roots(f, s.box, f.excluded(s.box))
         for z in brute:
@@ -130,16 +139,16 @@ def test_survey_misses_no_root_that_multistart_newton_finds(path):
 
 def test_solve_traces_langmuir_branch_and_matches_surveys():
     case = electrons_only(0.3, 0.6, 31)
-    sol = scan.solve(case)
+    sol = solve(case)
     assert sol.failed_points == 0
     assert len(sol.branches) == 1
     b = sol.branches[0]
     assert len(b.points) == 31 and b.end_reason == "end of scan"
     # every traced point is a root to tolerance; compare a mid point with a fresh survey
     k_mid, r_mid = b.sorted_points()[15]
-    s = scan.survey(case, k_mid)
+    s = survey(case, k_mid)
     assert abs(s.values[0] - r_mid.value) < 1e-11
-    rows = scan.branch_rows(sol)
+    rows = branch_rows(sol)
     assert all(r["converged"] for r in rows)
     # SI columns follow from the normalized ones
     r0 = rows[0]
@@ -150,7 +159,7 @@ def test_solve_traces_langmuir_branch_and_matches_surveys():
 
 def test_branch_leaving_window_ends_with_that_reason():
     case = electrons_only(0.3, 0.7, 21, (0.8, 3.0, -0.2, 0.05))
-    sol = scan.solve(case)
+    sol = solve(case)
     (b,) = sol.branches
     assert b.end_reason == "left the window"
     # Langmuir damping reaches −0.2 ω_pe between kλ_D = 0.5 (−0.153) and 0.6 (−0.26)
@@ -162,7 +171,7 @@ def test_root_entering_window_later_is_found_and_backfilled():
     # scanning k downward is not possible, so scan upward in a window that excludes small
     # k roots by Re ω instead: Re ω ≥ 1.3 is reached near k λ_D ≈ 0.44.
     case = electrons_only(0.3, 0.6, 31, (1.3, 3.0, -0.5, 0.05))
-    sol = scan.solve(case)
+    sol = solve(case)
     (b,) = sol.branches
     assert b.found_at > 0.3
     ks = sorted(b.points)
@@ -176,22 +185,22 @@ def test_spatial_damping_of_ion_acoustic_wave_matches_group_velocity():
     (common practice; e.g. Stix 1992, ch. on wave energy, from memory)."""
     case = load_case(Path(__file__).resolve().parent.parent / "cases" / "argon_ion_acoustic.toml")
     k0 = 0.3
-    s = scan.survey(case, k0)
+    s = survey(case, k0)
     ia = min(s.values, key=lambda z: abs(z.imag))
     h = 1e-4
-    sp = scan.survey(case, k0 + h, box=(ia.real * 0.5, ia.real * 2, ia.imag * 3, -ia.imag))
-    sm = scan.survey(case, k0 - h, box=(ia.real * 0.5, ia.real * 2, ia.imag * 3, -ia.imag))
+    sp = survey(case, k0 + h, box=(ia.real * 0.5, ia.real * 2, ia.imag * 3, -ia.imag))
+    sm = survey(case, k0 - h, box=(ia.real * 0.5, ia.real * 2, ia.imag * 3, -ia.imag))
     wp = min(sp.values, key=lambda z: abs(z - ia))
     wm = min(sm.values, key=lambda z: abs(z - ia))
     vg = ((wp - wm) / (2 * h)).real
     box = (k0 * 0.8, k0 * 1.2, -0.05 * k0, 0.05 * k0)
-    ks = scan.spatial_roots(case, ia.real, box)
+    ks = spatial_roots(case, ia.real, box)
     assert ks.complete and len(ks.values) == 1
     kc = ks.values[0]
     assert kc.real == pytest.approx(k0, rel=2 * abs(ia.imag / ia.real))
     assert kc.imag == pytest.approx(-ia.imag / vg, rel=0.05)
     # the spatial root is an exact root of the temporal function at complex k
-    d = scan.dispersion_at(case, kc)(np.array([ia.real * case.units.omega_unit]))[0]
+    d = dispersion_at(case, kc)(np.array([ia.real * case.units.omega_unit]))[0]
     assert abs(d[0]) < 1e-8
 
 
@@ -201,15 +210,15 @@ def test_spatial_damping_in_magnetized_models_matches_group_velocity(name):
     for weak damping (common practice; corrections O((γ/ω)²), here < 1e-6 relative)."""
     case = load_case(Path(__file__).resolve().parent.parent / "cases" / f"{name}.toml")
     k0 = float(case.k_values[len(case.k_values) // 4])
-    w = min(scan.survey(case, k0).values, key=lambda z: abs(z.imag))
+    w = min(survey(case, k0).values, key=lambda z: abs(z.imag))
     assert w.imag < 0 and abs(w.imag) < 1e-4 * abs(w)
     h = 1e-4 * k0
     box = (w.real - 0.05 * abs(w), w.real + 0.05 * abs(w), w.imag - 0.05 * abs(w),
            w.imag + 0.05 * abs(w))
-    wp = min(scan.survey(case, k0 + h, box=box).values, key=lambda z: abs(z - w))
-    wm = min(scan.survey(case, k0 - h, box=box).values, key=lambda z: abs(z - w))
+    wp = min(survey(case, k0 + h, box=box).values, key=lambda z: abs(z - w))
+    wm = min(survey(case, k0 - h, box=box).values, key=lambda z: abs(z - w))
     vg = ((wp - wm) / (2 * h)).real
-    sp = scan.spatial_roots(case, w.real, (0.9 * k0, 1.1 * k0, -0.05 * k0, 0.05 * k0))
+    sp = spatial_roots(case, w.real, (0.9 * k0, 1.1 * k0, -0.05 * k0, 0.05 * k0))
     assert sp.complete and len(sp.values) == 1
     kc = sp.values[0]
     assert kc.real == pytest.approx(k0, rel=1e-6)
@@ -224,7 +233,7 @@ def test_window_reaching_the_overflow_region_is_reported_with_a_hint():
     data["species"] = [*data["species"], {"name": "H+", "charge": 1, "mass": "proton",
                                           "density": 1e18, "temperature": 1.0}]
     case = parse_case(data, "<test>")
-    s = scan.survey(case, 0.3)
+    s = survey(case, 0.3)
     assert not s.complete and s.values.size == 0
     assert any("overflows" in n for n in s.notes)
 
@@ -235,18 +244,18 @@ def test_pair_function_equals_one_k_at_a_time(path):
     ``function_at(k)`` at each pair: an identity between two code paths of this project
     (array-k builders vs one-k builders), to 1e-12 relative to the scale of D."""
     case = load_case(path)
-    pairs = scan.pair_function(case)
+    pairs = pair_function(case)
     if pairs is None:  # Krook collisions: formed one k at a time, nothing to compare
         assert any(s.collision_frequency > 0 for s in case.plasma.species)
         return
     rng = np.random.default_rng(7)
     k0, k1 = float(case.k_values[0]), float(case.k_values[-1])
     ks = rng.uniform(min(k0, k1), max(k0, k1), 12)
-    box = scan.window(case)
+    box = window(case)
     om = rng.uniform(box[0], box[1], 12) + 1j * rng.uniform(box[2], box[3], 12)
     d, dd = pairs(ks, om)
     for j in range(ks.size):
-        f = scan.function_at(case, ks[j])
+        f = function_at(case, ks[j])
         d1, dd1 = f(np.array([om[j]]))
         scale = max(1.0, float(np.max(np.abs(f(om)[0]))))
         assert abs(d[j] - d1[0]) <= 1e-12 * scale, (ks[j], om[j])
@@ -265,9 +274,11 @@ def test_solve_with_blocks_equals_solve_one_k_at_a_time(monkeypatch, name):
     branches to the root tolerance (the speculative blocks accept only what single steps
     would).  One case per model: ES/EM unmagnetized, EM magnetized, ES magnetized k∥ = 0."""
     case = load_case(CASES[0].parent / f"{name}.toml")
-    batched = scan.solve(case)
-    monkeypatch.setattr(scan, "pair_function", lambda case: None)
-    single = scan.solve(case)
+    batched = solve(case)
+    import kinroots.study.solve as solve_module
+
+    monkeypatch.setattr(solve_module, "pair_function", lambda case: None)
+    single = solve(case)
     assert len(batched.branches) == len(single.branches)
     tol = 10 * case.solver.tolerance
     for a, b in zip(batched.branches, single.branches, strict=True):

@@ -7,15 +7,15 @@ import math
 import numpy as np
 import pytest
 
-from kinroots.dispersion import Dispersion
-from kinroots.plasma import AMU, EV, M_ELECTRON, M_PROTON, Plasma, Species
-from kinroots.roots import polish
-from kinroots.spectrum import (
+from kinroots.physics.dispersion import Dispersion
+from kinroots.physics.plasma import AMU, EV, M_ELECTRON, M_PROTON, Plasma, Species
+from kinroots.physics.spectrum import (
     bragg_wavenumber,
     salpeter_form_factor,
     scattered_spectrum,
     spectral_density,
 )
+from kinroots.roots import polish
 
 
 def _plasma(te: float, ti: float, mi: float = M_PROTON, n: float = 1e19) -> Plasma:

@@ -7,7 +7,7 @@ import sqlite3
 
 import pytest
 
-from kinroots.store import PointStore, StoreMismatch
+from kinroots.io.store import PointStore, StoreMismatch
 
 
 def test_rows_round_trip_and_resume(tmp_path):

@@ -9,10 +9,10 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from kinroots.casefile import load_case, parse_case
+from kinroots.io.case import load_case, parse_case
 from kinroots.roots import polish
-from kinroots.scan import function_at, window
-from kinroots.sweep import max_growth, run_points, sweep_point
+from kinroots.study.problem import function_at, window
+from kinroots.study.sweep import max_growth, run_points, sweep_point
 
 CASE = "cases/sweep_proton_anisotropy.toml"
 

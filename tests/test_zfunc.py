@@ -1,4 +1,7 @@
-"""Tests of kinroots.zfunc against sources outside the project (each named beside its check)."""
+"""Tests of kinroots.physics.zfunc against sources outside the project.
+
+Each source is named beside its check.
+"""
 
 from __future__ import annotations
 
@@ -11,8 +14,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from kinroots import zfunc
-from kinroots.zfunc import plasma_z, plasma_z_and_prime, plasma_z_prime
+from kinroots.physics import zfunc
+from kinroots.physics.zfunc import plasma_z, plasma_z_and_prime, plasma_z_prime
 
 SQRT_PI = math.sqrt(math.pi)
 

@@ -38,8 +38,8 @@ from scipy.constants import c as C_LIGHT
 from scipy.constants import e as E_CHARGE
 from scipy.optimize import minimize_scalar
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
+from kinroots.study.problem import survey
 
 FAMILY = "Beam instabilities"
 V0 = 0.01 * C_LIGHT  # beam speed [m/s] (non-relativistic)
@@ -109,7 +109,7 @@ def kinetic_two_stream(x: float, thermal_ratio: float) -> complex:
     # Window in the upper half plane: below the real axis the Landau exponential of
     # these near-cold beams overflows.
     case = _case(species, (-0.3, 0.3, 0.05, 0.9), ("plasma:b1", "inertial:b1"))
-    s = scan.survey(case, x * math.sqrt(2) / (V0 / C_LIGHT))
+    s = survey(case, x * math.sqrt(2) / (V0 / C_LIGHT))
     assert s.complete and len(s.values) == 1, s.notes
     return complex(s.values[0]) / math.sqrt(2)
 
@@ -190,7 +190,7 @@ def kinetic_buneman(x: float, thermal_ratio: float) -> complex:
         {"name": "p", "charge": 1, "mass": "proton", "density": 1e18, "temperature": t},
     ]
     case = _case(species, (0.01, 0.1, 0.02, 0.1), ("plasma:e", "inertial:e"))
-    s = scan.survey(case, x / (V0 / C_LIGHT))
+    s = survey(case, x / (V0 / C_LIGHT))
     assert s.complete and len(s.values) == 1, s.notes
     return complex(s.values[0])
 
@@ -284,7 +284,7 @@ def bump_on_tail_checks() -> list[Check]:
     out = []
     for fraction, vb, vtb in BUMP_CASES:
         k = bump_resonance_k(vb, vtb)
-        s = scan.survey(bump_case(fraction, vb, vtb), k)
+        s = survey(bump_case(fraction, vb, vtb), k)
         assert s.complete and len(s.values) == 1, s.notes
         w = complex(s.values[0])
         tol = 1.5 * k * k + fraction / (k * vtb) ** 3

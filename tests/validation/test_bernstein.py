@@ -33,9 +33,9 @@ from scipy.constants import e as E_CHARGE
 from scipy.constants import epsilon_0, m_e
 from scipy.special import ive
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
-from kinroots.plasma import EV
+from kinroots.io.case import Case, parse_case
+from kinroots.physics.plasma import EV
+from kinroots.study.problem import survey
 
 FAMILY = "Bernstein waves"
 SOURCE = (
@@ -150,7 +150,7 @@ def reference_roots(kind: str, k_norm: float, band: int) -> tuple[float, ...]:
 def _survey(kind: str, k_norm: float) -> tuple[complex, ...]:
     """Every root kinroots finds in a rectangle straddling the real axis over the bands
     (the harmonics inside are poles, excluded by kinroots itself)."""
-    s = scan.survey(make_case(kind), k_norm, box=(BANDS[0] - 0.5, BANDS[-1] + 1.5, -0.05, 0.05))
+    s = survey(make_case(kind), k_norm, box=(BANDS[0] - 0.5, BANDS[-1] + 1.5, -0.05, 0.05))
     assert s.complete, s.notes
     return tuple(sorted((complex(v) for v in s.values), key=lambda z: z.real))
 

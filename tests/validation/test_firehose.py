@@ -45,9 +45,9 @@ from _checks import Check, assert_all, validation
 from scipy.constants import e as E_CHARGE
 from scipy.constants import epsilon_0, m_p, mu_0
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
 from kinroots.roots import polish
+from kinroots.study.problem import function_at
 
 FAMILY = "Parallel firehose"
 FLUID_SOURCE = (
@@ -101,7 +101,7 @@ def predicted_threshold(beta_par: float, kappa: float) -> float:
 
 def growing_root(beta_par: float, delta_beta: float, kappa: float, guess: complex) -> complex:
     """Polish the growing firehose root and verify that it is a simple zero."""
-    f = scan.function_at(make_case(beta_par, delta_beta), kappa)
+    f = function_at(make_case(beta_par, delta_beta), kappa)
     r = polish(f, guess, rtol=ROOT_RTOL, verify_radius=0.2 * abs(guess.imag))
     assert r.converged and r.verified, r
     return complex(r.value)

@@ -43,8 +43,8 @@ import mpmath as mp
 from _checks import Check, assert_all, validation
 from scipy.constants import atomic_mass, m_e, m_p
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
+from kinroots.study.problem import survey
 
 FAMILY = "Ion acoustic waves"
 #: ion name -> (case-file mass, mass in kg from scipy.constants)
@@ -113,7 +113,7 @@ def ion_acoustic_root(ion: str, ratio: float, k: float = K) -> complex:
     overflow region (|γ| ≳ |ω_r|) and still contains the Te/Ti = 5 root (γ/ω ≈ −0.09).
     """
     w_f = k * fluid_phase_speed(ratio, k)
-    s = scan.survey(ion_acoustic_case(ion, ratio, (0.3 * w_f, 2 * w_f, -0.3 * w_f, 0.02 * k)),
+    s = survey(ion_acoustic_case(ion, ratio, (0.3 * w_f, 2 * w_f, -0.3 * w_f, 0.02 * k)),
                     k)
     assert s.complete and len(s.values) > 0, (ion, ratio, s.notes)
     return max(s.values, key=lambda z: z.imag)

@@ -38,9 +38,9 @@ from _checks import Check, assert_all, validation
 from scipy.constants import e as E_CHARGE
 from scipy.constants import epsilon_0, m_p, mu_0
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
 from kinroots.roots import polish
+from kinroots.study.problem import function_at
 
 FAMILY = "Kinetic Alfvén wave"
 SOURCE = (
@@ -90,7 +90,7 @@ def kaw_root(k_perp_rho: float, te_ti: float) -> complex:
     k = math.hypot(K_PAR, k_perp)
     angle = math.degrees(math.atan2(k_perp, K_PAR))
     w0 = hasegawa_chen(k_perp_rho, te_ti)
-    f = scan.function_at(make_case(te_ti, angle), k)
+    f = function_at(make_case(te_ti, angle), k)
     r = polish(f, complex(w0, -0.01 * w0), rtol=ROOT_RTOL, verify_radius=0.05 * w0)
     assert r.converged and r.verified, r
     return complex(r.value)

@@ -35,8 +35,8 @@ import math
 import mpmath as mp
 from _checks import Check, assert_all, validation
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
+from kinroots.study.problem import survey
 
 FAMILY = "Langmuir waves"
 CASE_TEXT = "Maxwellian electrons, fixed ions, k ∥ z"
@@ -85,7 +85,7 @@ def electron_case(window: tuple[float, float, float, float]) -> Case:
 
 def least_damped(k: float, window: tuple[float, float, float, float]) -> complex:
     """The least-damped root in ``window`` at ``k`` (normalized), from a full survey."""
-    s = scan.survey(electron_case(window), k)
+    s = survey(electron_case(window), k)
     assert s.complete and len(s.values) > 0, (k, s.notes)
     return max(s.values, key=lambda z: z.imag)
 

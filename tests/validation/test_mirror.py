@@ -50,9 +50,9 @@ from scipy.constants import e as E_CHARGE
 from scipy.constants import epsilon_0, m_p, mu_0
 from scipy.optimize import brentq
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
 from kinroots.roots import polish
+from kinroots.study.problem import function_at, survey
 
 FAMILY = "Mirror instability"
 SOURCE = (
@@ -105,7 +105,7 @@ def kinetic_threshold(beta_par: float, te_ratio: float, angle: float, k: float) 
     a_pred = threshold_formula(beta_par, te_ratio)
     kpw = k * math.cos(math.radians(angle)) * math.sqrt(beta_par)  # k∥ w∥p / Ω_p
     a_start = 1.15 * a_pred
-    s = scan.survey(make_case(beta_par, a_start, angle, te_ratio), k,
+    s = survey(make_case(beta_par, a_start, angle, te_ratio), k,
                     box=(-0.05, 0.05, 1e-6, 0.2))
     assert s.complete and len(s.values) == 1, (s.values, s.notes)
     known = [(a_start, complex(s.values[0]))]
@@ -116,7 +116,7 @@ def kinetic_threshold(beta_par: float, te_ratio: float, angle: float, k: float) 
         if len(near) == 2 and near[0][0] != near[1][0]:
             (p1, z1), (p2, z2) = near
             guess = z1 + (z1 - z2) * (a - p1) / (p1 - p2)
-        f = scan.function_at(make_case(beta_par, a, angle, te_ratio), k)
+        f = function_at(make_case(beta_par, a, angle, te_ratio), k)
         r = polish(f, guess, rtol=ROOT_RTOL, atol=ROOT_ATOL)
         assert r.converged, r
         assert abs(r.value.real) < 1e-6 * kpw, r  # purely growing

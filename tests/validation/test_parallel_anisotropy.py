@@ -42,9 +42,9 @@ from scipy.constants import e as E_CHARGE
 from scipy.constants import epsilon_0, m_e, m_p, mu_0
 from scipy.optimize import brentq
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
 from kinroots.roots import polish
+from kinroots.study.problem import function_at, survey
 
 FAMILY = "Parallel anisotropy instabilities"
 SOURCE = (
@@ -122,14 +122,14 @@ class Follower:
 
 def growing_root(case: Case, k: float) -> complex:
     """The single growing root in the window at ``k`` (argument-principle survey)."""
-    s = scan.survey(case, k)
+    s = survey(case, k)
     assert s.complete and len(s.values) == 1, (k, s.values, s.notes)
     return complex(s.values[0])
 
 
 def marginal_point(case: Case, k0: float, dk: float = 0.1) -> tuple[float, complex, Follower]:
     """k where the growing root's γ changes sign above ``k0``, and the root there."""
-    fol = Follower(lambda k: scan.function_at(case, k), k0, growing_root(case, k0))
+    fol = Follower(lambda k: function_at(case, k), k0, growing_root(case, k0))
     k = k0
     while fol.at(k).imag > 0:
         k += dk

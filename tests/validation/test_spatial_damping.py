@@ -2,7 +2,7 @@
 
 Plasma: hydrogen, Te = 10 eV, Te/Ti = 10 and 20, electrostatic, unmagnetized.  Units
 are ω_pi and 1/λ_De.  For a wave driven at real ω the spatial root k = k_r + i k_i
-(scan.spatial_roots) is the analytic continuation of the temporal branch ω(k).
+(spatial_roots) is the analytic continuation of the temporal branch ω(k).
 
 Reference (common practice; e.g. T. H. Stix, *Waves in Plasmas*, 1992, on wave energy
 flow, from memory): k_i ≈ −γ/v_g, with v_g = dω_r/dk at the temporal root ω(k0) =
@@ -22,8 +22,8 @@ import math
 
 from _checks import Check, assert_all, validation
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
+from kinroots.study.problem import spatial_roots, survey, trace_spatial
 
 FAMILY = "Spatial damping"
 T_E = 10.0
@@ -61,13 +61,13 @@ def hydrogen_case(ratio: float) -> Case:
 
 def temporal_root_and_group_velocity(case: Case) -> tuple[complex, complex]:
     """Least-damped temporal root at K0 and complex dω/dk by central differences."""
-    s = scan.survey(case, K0)
+    s = survey(case, K0)
     assert s.complete and len(s.values) > 0, s.notes
     w0 = max(s.values, key=lambda z: z.imag)
     box = (0.7 * w0.real, 1.3 * w0.real, 2 * w0.imag, -w0.imag)
     near = []
     for k in (K0 + H, K0 - H):
-        sk = scan.survey(case, k, box=box)
+        sk = survey(case, k, box=box)
         assert sk.complete and len(sk.values) > 0, sk.notes
         near.append(min(sk.values, key=lambda z: abs(z - w0)))
     return complex(w0), complex((near[0] - near[1]) / (2 * H))
@@ -75,7 +75,7 @@ def temporal_root_and_group_velocity(case: Case) -> tuple[complex, complex]:
 
 def spatial_root(case: Case, omega: float) -> complex:
     """The single complex k (normalized) near K0 at real ω."""
-    ks = scan.spatial_roots(case, omega, (0.8 * K0, 1.2 * K0, -0.2 * K0, 0.05 * K0))
+    ks = spatial_roots(case, omega, (0.8 * K0, 1.2 * K0, -0.2 * K0, 0.05 * K0))
     assert ks.complete and len(ks.values) == 1, ks.notes
     return complex(ks.values[0])
 
@@ -118,7 +118,7 @@ def figure(path: str) -> None:
         w0, v = temporal_root_and_group_velocity(case)
         omegas = np.linspace(0.6, 1.4, 17) * w0.real
         box = (0.3 * K0, 2.0 * K0, -0.2 * K0, 0.05 * K0)
-        branches = scan.trace_spatial(case, omegas, box)
+        branches = trace_spatial(case, omegas, box)
         for b in branches:
             pts = [(p, r.value) for p, r in b.points if r.converged]
             ax.plot([p for p, _ in pts], [z.imag for _, z in pts], "-",

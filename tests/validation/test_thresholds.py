@@ -19,9 +19,9 @@ import math
 
 import pytest
 
-from kinroots.casefile import parse_case
-from kinroots.parameters import with_parameter
-from kinroots.sweep import find_threshold
+from kinroots.io.case import parse_case
+from kinroots.io.parameters import with_parameter
+from kinroots.study.sweep import find_threshold
 
 FITS = {  # Hellinger et al. (2006), from memory
     "proton_cyclotron": (0.43, 0.42, -0.0004),
@@ -48,7 +48,7 @@ def hellinger_case(kind: str, beta: float, anisotropy: float):
     kgrid, real, imag, angles = SETUP[kind]
     n, c, mu0, m_p = 1.0e6, 299792458.0, 1.25663706212e-6, 1.67262192369e-27
     B = 1e-4 * c * math.sqrt(mu0 * n * m_p)  # v_A / c = 1e-4
-    T = 2.5  # eV; β∥ is then set through B (kinroots.parameters), keeping T_e = T∥p
+    T = 2.5  # eV; β∥ is then set through B (kinroots.io.parameters), keeping T_e = T∥p
     data = {
         "title": f"Hellinger et al. (2006) conditions: {kind}",
         "magnetic_field": {"B": B},

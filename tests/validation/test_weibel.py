@@ -35,8 +35,8 @@ from scipy.constants import c as C_LIGHT
 from scipy.constants import e as E_CHARGE
 from scipy.constants import m_e
 
-from kinroots import scan
-from kinroots.casefile import Case, parse_case
+from kinroots.io.case import Case, parse_case
+from kinroots.study.problem import survey
 
 FAMILY = "Weibel instability"
 T_PAR = 1000.0  # eV: w∥ ≈ 0.063 c, non-relativistic enough for the model
@@ -81,7 +81,7 @@ def growing_roots(a: float, k: float, im_min: float = 1e-5):
     The window has a negative real edge because the root sits on Re ω = 0.  It stays
     above the real axis, so ω = 0 (a zero of the scaled D) is outside.
     """
-    return scan.survey(weibel_case(a, (-0.05, 0.05, im_min, 0.2)), k)
+    return survey(weibel_case(a, (-0.05, 0.05, im_min, 0.2)), k)
 
 
 def weibel_gamma(a: float, k: float) -> float:

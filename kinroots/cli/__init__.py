@@ -1,0 +1,16 @@
+"""Command line: typer parses, rich displays; the library does the work.
+
+Every command that reads a case goes through :func:`kinroots.cli._common.load_case_or_exit`,
+which picks the embedded default case when no file is given, prints every validation error
+(one per line, on stderr) and exits with code 2 on bad input, and prints the case's
+warnings on stderr.  Data go to stdout; messages to stderr.  Each module registers its
+commands on the one typer app.
+"""
+
+from kinroots.cli import case_commands, lab, stability, waves
+from kinroots.cli._common import app
+
+for _module in (case_commands, waves, lab, stability):
+    _module.register(app)
+
+__all__ = ["app"]

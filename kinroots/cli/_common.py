@@ -1,0 +1,102 @@
+"""What every command shares: the typer app, common options, case loading and exit codes.
+
+Every command that reads a case goes through `load_case_or_exit`, which picks the
+embedded default case when no file is given, prints every validation error (one per line,
+on stderr) and exits with code 2 on bad input, and prints the case's warnings on stderr.
+Data go to stdout; messages to stderr.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from kinroots.io.case import Case, CaseError, default_case_path, load_case
+
+#: Exit code for bad input (see DESIGN.md, "User-facing contract").
+EXIT_BAD_INPUT = 2
+
+app = typer.Typer(
+    name="kinroots",
+    help="Roots of the linear Vlasov dispersion relation of multi-species plasmas.",
+    no_args_is_help=True,
+    add_completion=False,
+)
+
+CaseArg = Annotated[
+    Path | None,
+    typer.Argument(
+        help="Case file (TOML). Omit it to use the embedded default case.",
+        show_default=False,
+        dir_okay=True,
+        exists=False,
+    ),
+]
+DefaultOpt = Annotated[
+    bool,
+    typer.Option("--default", help="Use the embedded default case (instead of CASE)."),
+]
+
+
+def err(message: str) -> None:
+    typer.echo(message, err=True)
+
+
+def load_case_or_exit(case: Path | None, use_default: bool = False) -> Case:
+    """Load ``case`` (or the embedded default), print its warnings; exit 2 on bad input.
+
+    Parameters
+    ----------
+    case : Path or None
+        Case file; ``None`` selects the embedded default case (said on stderr).
+    use_default : bool
+        ``--default`` given: must not be combined with a case file.
+    """
+    if use_default and case is not None:
+        err(f"kinroots: give either a case file or --default, not both (got {case})")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    if case is None:
+        case = default_case_path()
+        err(f"kinroots: no case file given; using the embedded default case ({case})")
+    try:
+        loaded = load_case(case)
+    except CaseError as exc:
+        for line in exc.errors:
+            err(f"error: {line}")
+        n = len(exc.errors)
+        err(f"kinroots: {n} problem{'s' if n != 1 else ''} in {case}; nothing done")
+        raise typer.Exit(EXIT_BAD_INPUT) from None
+    for line in loaded.warnings:
+        err(f"warning: {case}: {line}")
+    return loaded
+
+
+def case_summary(case: Case) -> str:
+    """One line: title, species, model, B, angle and the k scan."""
+    ks = case.scan
+    n = len(case.plasma.species)
+    return (
+        f'"{case.title}": {n} species, {case.model}, B = {case.plasma.B:g} T, '
+        f"angle {case.angle_deg:g}°, k = {ks.start:g} to {ks.stop:g} "
+        f"/{case.units.length_label} ({ks.points} points, {ks.spacing})"
+    )
+
+
+# ----------------------------------------------------------------- solve and roots
+
+OutOpt = Annotated[
+    Path,
+    typer.Option("--output", "-o", help="Folder for the tables and the figure (created).",
+                 file_okay=False),
+]
+
+
+def check_output_dir(out: Path) -> None:
+    """Refuse an output path that exists and is not a folder (before any work)."""
+    if out.exists() and not out.is_dir():
+        err(f"error: output {out}: exists and is not a folder; expected a folder path")
+        raise typer.Exit(EXIT_BAD_INPUT)
+
+

@@ -1,0 +1,305 @@
+"""Commands ``kinroots sweep`` and ``kinroots threshold`` (registered by kinroots.cli).
+
+Both commit every finished point to ``DIR/points.sqlite`` as it completes; running the
+same command again resumes (finished points are skipped); a changed case is refused
+(exit 2).  Tables and figures are written atomically once every point is done.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Annotated, Any
+
+import numpy as np
+import typer
+from rich.console import Console
+
+from kinroots.cli._common import EXIT_BAD_INPUT, CaseArg, DefaultOpt, load_case_or_exit
+from kinroots.io.case import Case
+
+__all__ = ["register"]
+
+OutOpt = Annotated[Path, typer.Option("--output", "-o", help="Folder for tables, figures "
+                                      "and the points database (created).", file_okay=False)]
+WorkersOpt = Annotated[int, typer.Option("--workers", min=0, help="Local worker processes "
+                                         "(0: one per core; 1: this process only).")]
+SchedulerOpt = Annotated[str | None, typer.Option(
+    "--scheduler", help="Address of a running Dask distributed scheduler "
+    "(e.g. tcp://10.0.0.5:8786); the points run there instead of locally.")]
+
+
+def _err(message: str) -> None:
+    typer.echo(message, err=True)
+
+
+def _prepare(case: Path | None, default: bool, output: Path, table: str) -> Case:
+    loaded = load_case_or_exit(case, default)
+    src = str(loaded.source) if loaded.source else "case"
+    if getattr(loaded, table) is None:
+        _err(f"error: {src}: {table}: missing; expected a [{table}] table "
+             f"(see kinroots {table} --help)")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    from kinroots.study.sweep import check_ranges
+
+    errors = check_ranges(loaded)
+    if errors:
+        for e in errors:
+            _err(f"error: {e}")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    if output.exists() and not output.is_dir():
+        _err(f"error: output {output}: exists and is not a folder; expected a folder path")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    return loaded
+
+
+def _run(loaded: Case, kind: str, total: int, output: Path, workers: int,
+         scheduler: str | None) -> list[dict[str, Any]]:
+    """Open the store, solve the missing points with a progress bar, return all rows."""
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    from kinroots.io.store import STORE_NAME, PointStore, StoreMismatch
+    from kinroots.study.sweep import case_hash, run_points
+
+    src = str(loaded.source) if loaded.source else "case"
+    try:
+        store = PointStore(output / STORE_NAME, case_hash(loaded), src)
+    except StoreMismatch as exc:
+        _err(f"error: {exc}")
+        raise typer.Exit(EXIT_BAD_INPUT) from None
+    console = Console(stderr=True)
+    with store:
+        done = store.done(kind)
+        todo = [i for i in range(total) if i not in done]
+        if done:
+            console.print(f"resuming: {len(done)} of {total} points already in "
+                          f"{output / STORE_NAME}")
+        where = scheduler or f"{workers or 'all'} local worker(s)"
+        with Progress(TextColumn(f"[bold]{kind}[/bold] {{task.description}}"), BarColumn(),
+                      TextColumn("{task.completed}/{task.total} points"),
+                      TimeElapsedColumn(), console=console, transient=False) as bar:
+            task = bar.add_task(where, total=total, completed=len(done))
+
+            def commit(index: int, row: dict[str, Any]) -> None:
+                store.commit(kind, index, row)
+                bar.advance(task)
+
+            try:
+                run_points(loaded, kind, todo, commit, workers=workers or None,
+                           scheduler=scheduler)
+            except ConnectionError as exc:
+                _err(f"error: option --scheduler: {exc}")
+                raise typer.Exit(EXIT_BAD_INPUT) from None
+        return store.rows(kind)
+
+
+def _sweep_dataset(loaded: Case, rows: list[dict[str, Any]]) -> Any:
+    """xarray Dataset of the sweep: labelled dims, units attributes."""
+    import xarray as xr
+
+    from kinroots.study.sweep import SWEEP_COLUMNS
+
+    spec = loaded.sweep
+    axes = spec.axes
+    dims = tuple(a.path.safe_name for a in axes)
+    coords = {a.path.safe_name: (a.path.safe_name, np.asarray(a.values),
+                                 {"long_name": a.path.text, "units": a.path.unit})
+              for a in axes}
+    unit = loaded.units.frequency_label_ascii
+    lunit = loaded.units.length_label_ascii
+    units = {
+        "growth_max": unit, "growth_omega_real": unit, "growth_k": f"1/{lunit}",
+        "growth_angle": "degree", "growth_per_s": "1/s", "growth_freq_hz": "Hz",
+        "growth_k_per_m": "1/m", "least_damped_omega_real": unit,
+        "least_damped_omega_imag": unit, "least_damped_k": f"1/{lunit}",
+        "least_damped_angle": "degree", "roots_found": "1", "evaluations": "1",
+    }
+    data = {}
+    for col in SWEEP_COLUMNS:
+        if col in ("i", "j", "x", "y", "reason"):
+            continue
+        arr = np.full(spec.shape, np.nan)
+        for r in rows:
+            idx = (r["i"],) if spec.y is None else (r["i"], r["j"])
+            v = r.get(col)
+            if isinstance(v, bool):
+                v = float(v)
+            if col in units and not r.get("converged", False) and col.startswith("growth"):
+                v = math.nan
+            arr[idx] = math.nan if v is None else float(v)
+        data[col] = (dims, arr, {"units": units.get(col, "1")})
+    return xr.Dataset(data, coords=coords, attrs={
+        "title": loaded.title,
+        "conventions": "exp(i k.x - i omega t); growth > 0 grows",
+        "frequency_unit": f"{unit} of the case at each grid point",
+        "length_unit": lunit,
+    })
+
+
+def sweep_command(
+    case: CaseArg = None,
+    output: OutOpt = Path("kinroots-sweep"),
+    workers: WorkersOpt = 0,
+    scheduler: SchedulerOpt = None,
+    default: DefaultOpt = False,
+) -> None:
+    """Solve every grid point of the case's [sweep] table (maximum growth over k and angle,
+    least-damped root); write sweep.csv, sweep.nc, sweep.json and sweep.png (growth map
+    with contours at growth_levels).
+
+    Finished points go to DIR/points.sqlite as they complete: run the same command again
+    to resume. Exit code 0 when every point converged, 1 when some failed (flagged,
+    value cells empty), 2 on bad input or a case changed since the points were stored.
+
+    Example: kinroots sweep cases/sweep_proton_anisotropy.toml -o out/sweep --workers 2
+    """
+    from kinroots.io.tables import atomic_write_bytes, write_csv, write_json
+    from kinroots.plots.maps import plot_growth_map
+    from kinroots.study.sweep import SWEEP_COLUMNS, blank_failed
+
+    loaded = _prepare(case, default, output, "sweep")
+    spec = loaded.sweep
+    total = int(np.prod(spec.shape))
+    rows = _run(loaded, "sweep", total, output, workers, scheduler)
+    write_csv(output / "sweep.csv", blank_failed(rows, "sweep"), SWEEP_COLUMNS)
+    ds = _sweep_dataset(loaded, rows)
+    atomic_write_bytes(output / "sweep.nc", ds.to_netcdf(engine="scipy"))
+    _draw_map(loaded, rows, output)
+    failed = [r for r in rows if not r.get("converged")]
+    write_json(output / "sweep.json", _summary(loaded, "sweep", rows, failed))
+    _ = plot_growth_map  # imported for the figure in _draw_map
+    console = Console(stderr=True)
+    best = max((r for r in rows if r.get("converged") and r.get("growth_max") is not None
+                and math.isfinite(r["growth_max"])), key=lambda r: r["growth_max"],
+               default=None)
+    if best is not None:
+        console.print(f"largest growth: γ = {best['growth_max']:.6g} "
+                      f"{loaded.units.frequency_label} ({best['growth_per_s']:.4g} 1/s) at "
+                      f"{spec.x.path.text} = {best['x']:.6g}"
+                      + (f", {spec.y.path.text} = {best['y']:.6g}" if spec.y else "")
+                      + f", k = {best['growth_k']:.4g}, angle {best['growth_angle']:.4g}°")
+    console.print(f"wrote {output / 'sweep.csv'}, {output / 'sweep.nc'}, "
+                  f"{output / 'sweep.json'}, {output / 'sweep.png'}")
+    if failed:
+        console.print(f"[red]{len(failed)} point(s) failed[/red]: flagged in sweep.csv")
+        raise typer.Exit(1)
+
+
+def _draw_map(loaded: Case, rows: list[dict[str, Any]], output: Path,
+              threshold_rows: list[dict[str, Any]] | None = None) -> None:
+    from kinroots.plots.maps import plot_growth_map
+
+    spec = loaded.sweep
+    g = np.full(spec.shape, np.nan)
+    for r in rows:
+        idx = (r["i"],) if spec.y is None else (r["i"], r["j"])
+        v = r.get("growth_max")
+        if r.get("converged") and v is not None:
+            g[idx] = v
+    curve = None
+    label = ""
+    t = loaded.threshold
+    if threshold_rows and t is not None and spec.y is not None:
+        ok = [r for r in threshold_rows if r.get("converged")]
+        xs = np.array([r["across"] for r in ok])
+        ts = np.array([r["threshold"] for r in ok])
+        if t.across.path.text == spec.x.path.text and t.path.text == spec.y.path.text:
+            curve = (xs, ts)
+        elif t.across.path.text == spec.y.path.text and t.path.text == spec.x.path.text:
+            curve = (ts, xs)
+        label = f"γ_max = {t.growth:g} {loaded.units.frequency_label}"
+    plot_growth_map(output / "sweep.png", spec.x.values,
+                    spec.y.values if spec.y is not None else None, g,
+                    x_label=spec.x.path.label, y_label=spec.y.path.label if spec.y else "",
+                    growth_label=f"γ_max / {loaded.units.frequency_label}",
+                    levels=spec.growth_levels, threshold=curve, threshold_label=label,
+                    title=loaded.title)
+
+
+def _summary(loaded: Case, kind: str, rows: list[dict[str, Any]],
+             failed: list[dict[str, Any]]) -> dict[str, Any]:
+    from kinroots import __version__
+    from kinroots.physics.plasma import CONVENTIONS
+    from kinroots.study.sweep import case_hash
+
+    u = loaded.units
+    out: dict[str, Any] = {
+        "kinroots_version": __version__,
+        "title": loaded.title,
+        "source": str(loaded.source) if loaded.source else None,
+        "case": loaded.raw,
+        "case_hash": case_hash(loaded),
+        "conventions": CONVENTIONS,
+        "units": {"growth": f"{u.frequency_label_ascii} (of the case at each point)",
+                  "k": f"1/{u.length_label_ascii}", "angle": "degree"},
+        "method": (
+            "survey of the search window at every k of [scan] and every angle; the largest "
+            "Im(omega) refined by bounded Brent on k (nested in bounded Brent on angle)"
+            + ("; threshold by brentq on gamma_max(p) - level" if kind == "threshold" else "")
+        ),
+        "points": len(rows),
+        "failed_points": len(failed),
+        "failed": [{k: r.get(k) for k in ("i", "j", "reason")} for r in failed],
+    }
+    return out
+
+
+def threshold_command(
+    case: CaseArg = None,
+    output: OutOpt = Path("kinroots-sweep"),
+    workers: WorkersOpt = 0,
+    scheduler: SchedulerOpt = None,
+    default: DefaultOpt = False,
+) -> None:
+    """Marginal-stability curve of the case's [threshold] table: for each value of the
+    'across' parameter, the value of 'parameter' in 'bracket' where the maximum growth
+    rate equals 'growth' (Brent root bracketing); write threshold.csv, threshold.json and
+    threshold.png, and draw the curve on sweep.png when the sweep of the same case is done
+    in the same folder.
+
+    Resumable like sweep. Exit code 0 when every value converged, 1 when some did not
+    (no crossing in the bracket, flagged), 2 on bad input.
+
+    Example: kinroots threshold cases/sweep_proton_anisotropy.toml -o out/sweep
+    """
+    from kinroots.io.tables import write_csv, write_json
+    from kinroots.plots.maps import plot_threshold
+    from kinroots.study.sweep import THRESHOLD_COLUMNS, blank_failed
+
+    loaded = _prepare(case, default, output, "threshold")
+    t = loaded.threshold
+    rows = _run(loaded, "threshold", t.across.points, output, workers, scheduler)
+    write_csv(output / "threshold.csv", blank_failed(rows, "threshold"), THRESHOLD_COLUMNS)
+    failed = [r for r in rows if not r.get("converged")]
+    write_json(output / "threshold.json", _summary(loaded, "threshold", rows, failed))
+    ok = [r for r in rows if r.get("converged")]
+    plot_threshold(output / "threshold.png", np.array([r["across"] for r in ok]),
+                   np.array([r["threshold"] for r in ok]), x_label=t.across.path.label,
+                   y_label=t.path.label,
+                   label=f"γ_max = {t.growth:g} {loaded.units.frequency_label}",
+                   title=loaded.title)
+    console = Console(stderr=True)
+    if loaded.sweep is not None:
+        from kinroots.io.store import STORE_NAME, PointStore
+        from kinroots.study.sweep import case_hash
+
+        with PointStore(output / STORE_NAME, case_hash(loaded)) as store:
+            srows = store.rows("sweep")
+        if len(srows) == int(np.prod(loaded.sweep.shape)):
+            _draw_map(loaded, srows, output, rows)
+            console.print(f"threshold drawn on {output / 'sweep.png'}")
+    for r in ok:
+        console.print(f"{t.across.path.text} = {r['across']:.6g}: {t.path.text} = "
+                      f"{r['threshold']:.6g}")
+    console.print(f"wrote {output / 'threshold.csv'}, {output / 'threshold.json'}, "
+                  f"{output / 'threshold.png'}")
+    if failed:
+        console.print(f"[red]{len(failed)} value(s) without a threshold[/red]: "
+                      + "; ".join(str(r.get("reason")) for r in failed))
+        raise typer.Exit(1)
+
+
+def register(app: typer.Typer) -> None:
+    """Add ``sweep`` and ``threshold`` to the kinroots command line."""
+    app.command("sweep")(sweep_command)
+    app.command("threshold")(threshold_command)

@@ -1,0 +1,177 @@
+"""The main job: ``solve`` (trace every branch across k) and ``roots`` (all roots at one k)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+from rich.console import Console
+
+from kinroots.cli._common import (
+    EXIT_BAD_INPUT,
+    CaseArg,
+    DefaultOpt,
+    OutOpt,
+    check_output_dir,
+    err,
+    load_case_or_exit,
+)
+from kinroots.io.case import Case
+
+
+def _describe_root(row: dict[str, Any] | None, case: Case) -> str:
+    if row is None:
+        return "none"
+    from kinroots.study.rows import GROWTH_RESOLUTION
+
+    lbl = case.units.frequency_label
+    w = complex(row["omega_real"], row["omega_imag"])
+    floor = GROWTH_RESOLUTION * case.solver.tolerance * abs(w)
+    if abs(w.imag) <= floor:
+        return (
+            f"branch {row['branch']} at k = {row['k']:.4g}: ω = {w.real:.6g} {lbl}, "
+            f"|γ| < {floor:.1g} {lbl} (below the root tolerance; f = {row['freq_hz']:.4g} Hz)"
+        )
+    return (
+        f"branch {row['branch']} at k = {row['k']:.4g}: ω = {w.real:.6g} "
+        f"{'+' if w.imag >= 0 else '−'} {abs(w.imag):.4g}i {lbl} "
+        f"(f = {row['freq_hz']:.4g} Hz, γ = {row['gamma_per_s']:.4g} 1/s)"
+    )
+
+
+def solve(
+    case: CaseArg = None,
+    output: OutOpt = Path("kinroots-out"),
+    default: DefaultOpt = False,
+) -> None:
+    """Find every root in the search window at the first k and trace each branch across
+    the scan; write branches.csv, summary.json and branches.png to the output folder.
+
+    Exit code 0 when every point converged, 1 when some points failed (they are flagged
+    in the table: converged = false, value cells empty), 2 on bad input.
+
+    Example: kinroots solve cases/hydrogen_cold_ions.toml -o out/hydrogen
+    """
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    from kinroots.io.tables import write_csv, write_json
+    from kinroots.plots.branches import BranchCurve, plot_branches
+    from kinroots.study.rows import GROWTH_RESOLUTION, branch_rows
+    from kinroots.study.solve import solution_summary
+    from kinroots.study.solve import solve as solve_case
+
+    loaded = load_case_or_exit(case, default)
+    check_output_dir(output)
+    console = Console(stderr=True)
+    with Progress(
+        TextColumn("[bold]tracing[/bold] {task.description}"), BarColumn(),
+        TextColumn("{task.completed}/{task.total} k"), TimeElapsedColumn(),
+        console=console, transient=True,
+    ) as bar:
+        task = bar.add_task(loaded.title, total=len(loaded.k_values))
+        sol = solve_case(loaded, progress=lambda done, total: bar.update(task, completed=done))
+    rows = branch_rows(sol)
+    summary = solution_summary(sol, rows)
+    write_csv(output / "branches.csv", rows)
+    write_json(output / "summary.json", summary)
+    curves = []
+    for b in sol.branches:
+        pts = b.sorted_points()
+        curves.append(BranchCurve(
+            label=f"branch {b.id}",
+            k=[k for k, _ in pts],
+            omega=[r.value if r.converged else complex("nan") for _, r in pts],
+        ))
+    units = loaded.units
+    plot_branches(output / "branches.png", curves, k_label=units.length_label,
+                  omega_label=units.frequency_label, title=loaded.title,
+                  growth_floor=GROWTH_RESOLUTION * loaded.solver.tolerance)
+    console.print(f"{len(sol.branches)} branch(es) traced over {len(loaded.k_values)} k "
+                  f"points; {sol.evaluations} dispersion evaluations")
+    console.print(f"fastest growing: {_describe_root(summary['fastest_growing'], loaded)}")
+    console.print(f"least damped:    {_describe_root(summary['least_damped'], loaded)}")
+    for note in sol.notes:
+        console.print(f"note: {note}")
+    console.print(f"wrote {output / 'branches.csv'}, {output / 'summary.json'}, "
+                  f"{output / 'branches.png'}")
+    if sol.failed_points:
+        console.print(f"[red]{sol.failed_points} point(s) failed[/red]: flagged in the table "
+                      "(converged = false) and in summary.json")
+        raise typer.Exit(1)
+
+
+def roots(
+    case: CaseArg = None,
+    at: Annotated[float, typer.Option("--at", help="Normalized wavenumber k (units of the "
+                                      "case's [units] length).")] = float("nan"),
+    output: OutOpt = Path("kinroots-out"),
+    default: DefaultOpt = False,
+) -> None:
+    """Every root in the search window at one wavenumber; write roots.csv, summary.json
+    and map.png (log|D| over the window, roots marked).
+
+    Exit code 0 when the survey is complete, 1 when some root could not be isolated or
+    polished (flagged in the table), 2 on bad input.
+
+    Example: kinroots roots cases/argon_ion_acoustic.toml --at 0.5 -o out/argon
+    """
+    import math
+
+    from kinroots.io.tables import write_csv, write_json
+    from kinroots.plots.branches import plot_root_map
+    from kinroots.study.problem import function_at, survey, window
+    from kinroots.study.rows import metadata, root_row
+
+    loaded = load_case_or_exit(case, default)
+    if math.isnan(at):
+        at = float(loaded.k_values[0])
+        err(f"kinroots: no --at given; using the first scan point k = {at:g}")
+    if not (math.isfinite(at) and at > 0):
+        err(f"error: option --at: {at!r}: expected a finite wavenumber > 0")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    check_output_dir(output)
+    console = Console(stderr=True)
+    with console.status(f"surveying the window at k = {at:g}"):
+        s = survey(loaded, at)
+    rows = [root_row(loaded, i, at, r) for i, r in enumerate(s.roots)]
+    if not s.complete:
+        rows.append({"branch": "", "k": at, "converged": False, "verified": False,
+                     "k_per_m": float(loaded.units.k_to_si(at)), "status": "incomplete",
+                     "reason": f"counted {s.count} zeros, found {len(s.values)}: "
+                               + "; ".join(s.notes)})
+    f = function_at(loaded, at)
+    summary = metadata(loaded, rows=rows, extra={
+        "model": loaded.model,
+        "k": at,
+        "dispersion_scaling": f.dispersion.scaling,
+        "window": list(window(loaded)),
+        "window_used": list(s.box),
+        "count": s.count,
+        "complete": s.complete,
+        "evaluations": s.evaluations,
+        "notes": list(s.notes),
+        "harmonics": f.dispersion.harmonics,
+    })
+    write_csv(output / "roots.csv", rows)
+    write_json(output / "summary.json", summary)
+    plot_root_map(output / "map.png", f.value, window(loaded), list(s.values),
+                  omega_label=loaded.units.frequency_label,
+                  title=f"{loaded.title}: k = {at:g} /{loaded.units.length_label}")
+    for r in rows:
+        if r.get("converged"):
+            console.print(_describe_root(r, loaded))
+    console.print(f"{len(s.values)} root(s) in the window (argument principle: {s.count}); "
+                  f"{s.evaluations} evaluations; wrote {output / 'roots.csv'}, "
+                  f"{output / 'summary.json'}, {output / 'map.png'}")
+    if not s.complete:
+        console.print("[red]survey incomplete[/red]: " + "; ".join(s.notes))
+        raise typer.Exit(1)
+
+
+
+
+def register(app: typer.Typer) -> None:
+    """Add ``solve`` and ``roots`` to ``app``."""
+    app.command("solve")(solve)
+    app.command("roots")(roots)

@@ -1,0 +1,610 @@
+"""Case files: TOML → validated, immutable `Case`.
+
+This is the only module that reads case files.  Every problem found is collected and
+reported at once in `CaseError.errors`, one line per problem, each naming the file, the
+key path, the value found and what was expected.
+
+Key paths count ``[[species]]`` tables from 1 in file order: ``species[2].density`` is
+the density of the second ``[[species]]`` table.
+
+Which keys are required and what the optional ones default to is stated in one place,
+`DEFAULTS` (echoed in the README).  Unknown keys are errors (with a "did you mean"
+suggestion) so that a typo never silently falls back to a default.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from kinroots.io.checker import Checker, _show
+from kinroots.io.species_tables import _check_species
+from kinroots.io.study_tables import check_study_tables
+from kinroots.physics.plasma import (
+    C_LIGHT,
+    E_CHARGE,
+    FREQUENCY_KINDS,
+    LENGTH_KINDS,
+    Normalization,
+    NormalizationError,
+    Plasma,
+    default_unit_species,
+)
+
+__all__ = [
+    "DEFAULTS",
+    "REQUIRED",
+    "Case",
+    "CaseError",
+    "LaunchSpec",
+    "ScanSpec",
+    "SolverOptions",
+    "default_case_path",
+    "load_case",
+    "parse_case",
+]
+
+#: Keys that must be present (key paths; ``species[]`` means every species table).
+REQUIRED: tuple[str, ...] = (
+    "title",
+    "species",
+    "species[].name",
+    "species[].charge",
+    "species[].mass",
+    "species[].density",
+    "species[].temperature  (or temperature_par and temperature_perp)",
+    "wave.model",
+    "scan.k.start",
+    "scan.k.stop",
+    "scan.k.points",
+    "search.real",
+    "search.imag",
+)
+
+#: Optional keys and their defaults: the one place where defaults are decided.
+DEFAULTS: dict[str, Any] = {
+    "magnetic_field.B": 0.0,
+    "species[].drift": 0.0,
+    "wave.angle": 0.0,
+    "scan.k.spacing": "linear",
+    "units.frequency": "plasma:<first electron species, else first species>",
+    "units.length": "debye:<same species>",
+    "solver.tolerance": 1e-10,
+    "solver.harmonic_tolerance": 1e-14,
+    "solver.resurvey_every": 10,
+    "species[].collision_frequency": 0.0,
+    "launch.k_real": "[0.01, 2.0] (normalized k, see [units])",
+    "launch.k_imag": "[-0.01, 0.5] (normalized k)",
+    "launch.frequency.spacing": "linear",
+    # [sweep] and [threshold] (optional tables; see kinroots.io.parameters)
+    "sweep.x.spacing": "linear",
+    "sweep.y": "<none: one-parameter sweep>",
+    "sweep.growth_levels": [],
+    "sweep.angles": "<[wave.angle]>",
+    "threshold.across": "<the [sweep] axis that is not threshold.parameter>",
+    "threshold.angles": "<sweep.angles, else [wave.angle]>",
+}
+
+#: Relative tolerance of the quasi-neutrality and zero-current checks (warnings).
+NEUTRALITY_RTOL: float = 1e-6
+#: Thermal or drift speeds above this fraction of c earn a warning (non-relativistic).
+RELATIVISTIC_WARNING: float = 0.1
+
+_TOP_KEYS = (
+    "title", "magnetic_field", "species", "wave", "scan", "units", "search", "solver", "launch",
+    "sweep", "threshold",
+)
+_TABLE_KEYS: dict[str, tuple[str, ...]] = {
+    "magnetic_field": ("B",),
+    "wave": ("model", "angle"),
+    "scan": ("k",),
+    "scan.k": ("start", "stop", "points", "spacing"),
+    "units": ("frequency", "length"),
+    "search": ("real", "imag"),
+    "solver": ("tolerance", "harmonic_tolerance", "resurvey_every"),
+    "launch": ("frequency", "k_real", "k_imag"),
+    "launch.frequency": ("start", "stop", "points", "spacing"),
+}
+_MODELS = ("electrostatic", "electromagnetic")
+_SPACINGS = ("linear", "log")
+
+
+
+class CaseError(Exception):
+    """A case file that cannot be used.
+
+    Attributes
+    ----------
+    errors : list of str
+        Every problem found, one self-contained message each.
+    """
+
+    def __init__(self, errors: list[str]) -> None:
+        self.errors = list(errors)
+        super().__init__("\n".join(self.errors))
+
+
+@dataclass(frozen=True)
+class ScanSpec:
+    """The wavenumber scan as written: normalized k from start to stop."""
+
+    start: float
+    stop: float
+    points: int
+    spacing: str = "linear"
+
+
+@dataclass(frozen=True)
+class SolverOptions:
+    """Numerical options of the ``[solver]`` table.
+
+    Attributes
+    ----------
+    tolerance : float
+        Relative tolerance on a root ω.
+    harmonic_tolerance : float
+        Relative size below which cyclotron-harmonic terms are dropped.
+    resurvey_every : int
+        Re-survey the search window every this many scan points while tracing
+        (0: never).
+    """
+
+    tolerance: float = 1e-10
+    harmonic_tolerance: float = 1e-14
+    resurvey_every: int = 10
+
+
+@dataclass(frozen=True)
+class LaunchSpec:
+    """The ``[launch]`` table: real driving frequencies [Hz] and a complex-k search box.
+
+    Attributes
+    ----------
+    frequencies_hz : tuple of float
+        Driving frequencies f [Hz], increasing.
+    k_real, k_imag : (float, float)
+        Search box of the spatial problem in normalized k (Re k > 0).
+    """
+
+    frequencies_hz: tuple[float, ...]
+    k_real: tuple[float, float] = (0.01, 2.0)
+    k_imag: tuple[float, float] = (-0.01, 0.5)
+
+
+@dataclass(frozen=True, eq=False)
+class Case:
+    """A validated case.  Numbers in ``k_values``, search windows: normalized units."""
+
+    title: str
+    plasma: Plasma
+    model: str
+    angle_deg: float
+    k_values: np.ndarray
+    scan: ScanSpec
+    units: Normalization
+    search_real: tuple[float, float]
+    search_imag: tuple[float, float]
+    solver: SolverOptions
+    source: Path | None
+    raw: dict[str, Any] = field(repr=False)
+    warnings: tuple[str, ...] = ()
+    #: ``[sweep]`` table (kinroots.io.parameters.SweepSpec) or None.
+    sweep: Any = None
+    #: ``[threshold]`` table (kinroots.io.parameters.ThresholdSpec) or None.
+    threshold: Any = None
+    launch: LaunchSpec | None = None
+
+    @property
+    def magnetized(self) -> bool:
+        """True when B ≠ 0."""
+        return self.plasma.magnetized
+
+    @property
+    def angle_rad(self) -> float:
+        """Angle between k and z [rad]."""
+        return math.radians(self.angle_deg)
+
+
+# --------------------------------------------------------------------------------------
+# Loading
+# --------------------------------------------------------------------------------------
+
+
+def default_case_path() -> Path:
+    """Path of the embedded default case, ``kinroots/data/default.toml``."""
+    return Path(str(resources.files("kinroots").joinpath("data", "default.toml")))
+
+
+def load_case(path: str | Path) -> Case:
+    """Read, parse and validate a case file.
+
+    Raises
+    ------
+    CaseError
+        The file is missing, unreadable, not UTF-8, not TOML, or not a valid case.
+    """
+    p = Path(path)
+    name = str(p)
+    try:
+        data = p.read_bytes()
+    except FileNotFoundError:
+        raise CaseError([f"{name}: file not found"]) from None
+    except IsADirectoryError:
+        raise CaseError([f"{name}: is a directory, expected a TOML case file"]) from None
+    except PermissionError:
+        raise CaseError([f"{name}: cannot read the file (permission denied)"]) from None
+    except OSError as exc:
+        raise CaseError([f"{name}: cannot read the file ({exc.strerror or exc})"]) from None
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise CaseError(
+            [f"{name}: not UTF-8 text (bad byte at offset {exc.start}); expected a TOML file"]
+        ) from None
+    try:
+        parsed = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise CaseError([f"{name}: not valid TOML: {exc}"]) from None
+    case = parse_case(parsed, name)
+    return _with_source(case, p)
+
+
+def _with_source(case: Case, path: Path) -> Case:
+    return replace(case, source=path)
+
+
+# --------------------------------------------------------------------------------------
+# Validation
+# --------------------------------------------------------------------------------------
+
+
+
+
+def _check_unit_spec(
+    chk: Checker, value: Any, path: str, kinds: tuple[str, ...], names: list[str] | None
+) -> bool:
+    expected = " or ".join(f'"{k}:<species>"' for k in kinds)
+    if not isinstance(value, str):
+        chk.bad(path, value, expected)
+        return False
+    kind, sep, name = value.partition(":")
+    if not sep or kind not in kinds:
+        close = difflib.get_close_matches(kind, kinds, n=1, cutoff=0.5)
+        hint = f" (did you mean '{close[0]}:{name}'?)" if close and sep else ""
+        chk.bad(path, value, expected + hint)
+        return False
+    if names is None:  # no readable species: reported elsewhere
+        return False
+    if name not in names:
+        close = difflib.get_close_matches(name, names, n=1, cutoff=0.5)
+        hint = (
+            f"did you mean {close[0]!r}?"
+            if close
+            else "species: " + ", ".join(repr(n) for n in names)
+        )
+        chk.error(path, f"got {_show(value)}: unknown species {name!r} ({hint})")
+        return False
+    return True
+
+
+def parse_case(data: dict[str, Any], source: str) -> Case:
+    """Validate a parsed TOML document and build the `Case`.
+
+    Parameters
+    ----------
+    data : dict
+        The document as returned by ``tomllib``.
+    source : str
+        Name used in messages (normally the file name).
+
+    Raises
+    ------
+    CaseError
+        With every problem found.
+    """
+    chk = Checker(source)
+    if not isinstance(data, dict):
+        raise CaseError([f"{source}: expected a TOML document (a table of keys)"])
+    chk.unknown_keys(data, _TOP_KEYS, "")
+
+    title = data.get("title")
+    if "title" not in data:
+        chk.missing("title", "a non-empty string")
+    elif not isinstance(title, str) or not title.strip():
+        chk.bad("title", title, "a non-empty string")
+
+    mf = chk.table(data, "magnetic_field", "magnetic_field", required=False) or {}
+    chk.unknown_keys(mf, _TABLE_KEYS["magnetic_field"], "magnetic_field")
+    B = chk.number(
+        mf,
+        "B",
+        "magnetic_field.B",
+        "a number >= 0 (tesla)",
+        default=0.0,
+        required=False,
+        check=lambda x: x >= 0,
+    )
+
+    species = _check_species(chk, data)
+
+    wave = chk.table(data, "wave", "wave", required=True) or {}
+    chk.unknown_keys(wave, _TABLE_KEYS["wave"], "wave")
+    model = chk.choice(wave, "model", "wave.model", _MODELS) if "wave" in data else None
+    angle = chk.number(
+        wave,
+        "angle",
+        "wave.angle",
+        "a number of degrees in [0, 180]",
+        default=0.0,
+        required=False,
+        check=lambda x: 0 <= x <= 180,
+    )
+
+    scan_spec = _check_scan(chk, data)
+
+    search = chk.table(data, "search", "search", required=True) or {}
+    chk.unknown_keys(search, _TABLE_KEYS["search"], "search")
+    real = chk.window(search, "real", "search.real") if "search" in data else None
+    imag = chk.window(search, "imag", "search.imag") if "search" in data else None
+
+    solver = _check_solver(chk, data)
+    launch = _check_launch(chk, data)
+    for i, s in enumerate(species, start=1):
+        if s is None or not s.collision_frequency > 0:
+            continue
+        magnetized = B is not None and B != 0.0
+        if model == "electromagnetic":
+            chk.error(
+                f"species[{i}].collision_frequency",
+                f"got {s.collision_frequency!r}, but collisions (Krook model) are available "
+                "only for the electrostatic model; expected 0 here, or "
+                'wave.model = "electrostatic"',
+            )
+        elif magnetized and s.temperature_par != s.temperature_perp:
+            chk.error(
+                f"species[{i}].collision_frequency",
+                f"got {s.collision_frequency!r}, but with magnetic_field.B != 0 the Krook "
+                "model needs an isotropic species (its relaxation target is the isotropic "
+                f"Maxwellian); temperature_par = {s.temperature_par!r} and temperature_perp "
+                f"= {s.temperature_perp!r} differ; expected 0 here, or one 'temperature'",
+            )
+        elif magnetized and angle is not None and float(angle) == 90.0:
+            chk.error(
+                f"species[{i}].collision_frequency",
+                f"got {s.collision_frequency!r}, but with magnetic_field.B != 0 and "
+                "wave.angle = 90 (k_par = 0) the collisional dispersion function has poles "
+                "at the shifted harmonics n*Omega - i*nu that the root finder cannot "
+                "exclude; expected 0 here, or wave.angle != 90",
+            )
+
+    # units: need the species names (validated or not) and B
+    units_tab = chk.table(data, "units", "units", required=False) or {}
+    chk.unknown_keys(units_tab, _TABLE_KEYS["units"], "units")
+    names = (
+        [
+            e["name"]
+            for e in data.get("species", [])
+            if isinstance(e, dict) and isinstance(e.get("name"), str)
+        ]
+        if isinstance(data.get("species"), list)
+        else []
+    )
+    for key, kinds in (("frequency", FREQUENCY_KINDS), ("length", LENGTH_KINDS)):
+        if key in units_tab and _check_unit_spec(
+            chk, units_tab[key], f"units.{key}", kinds, names or None
+        ):
+            kind = units_tab[key].partition(":")[0]
+            if kind in ("cyclotron", "gyroradius") and B == 0.0:
+                chk.error(
+                    f"units.{key}",
+                    f"got {_show(units_tab[key])}, which needs a magnetic field, but "
+                    "magnetic_field.B = 0; expected "
+                    + (
+                        '"plasma:<species>"'
+                        if key == "frequency"
+                        else '"debye:<species>" or "inertial:<species>"'
+                    ),
+                )
+
+    # [sweep] / [threshold]: kinroots.io.study_tables
+
+    sweep_spec, threshold_spec = check_study_tables(chk, data, names)
+
+    if chk.errors:
+        raise CaseError(chk.errors)
+
+    assert B is not None and model is not None and angle is not None
+    assert scan_spec is not None and real is not None and imag is not None
+    plasma = Plasma(tuple(s for s in species if s is not None), B)
+    default_name = _default_unit_name(plasma)
+    fspec = units_tab.get("frequency", f"plasma:{default_name}")
+    lspec = units_tab.get("length", f"debye:{default_name}")
+    try:
+        units = Normalization(fspec, lspec, plasma)
+    except NormalizationError as exc:  # only reachable for degenerate species data
+        raise CaseError([f"{source}: units: {exc}"]) from None
+
+    if scan_spec.spacing == "log":
+        k_values = np.geomspace(scan_spec.start, scan_spec.stop, scan_spec.points)
+    else:
+        k_values = np.linspace(scan_spec.start, scan_spec.stop, scan_spec.points)
+    k_values.setflags(write=False)
+
+    return Case(
+        title=str(title).strip(),
+        plasma=plasma,
+        model=model,
+        angle_deg=angle,
+        k_values=k_values,
+        scan=scan_spec,
+        units=units,
+        search_real=real,
+        search_imag=imag,
+        solver=solver,
+        source=None,
+        raw=data,
+        warnings=tuple(_physics_warnings(plasma)),
+        launch=launch,
+        sweep=sweep_spec,
+        threshold=threshold_spec,
+    )
+
+
+def _default_unit_name(plasma: Plasma) -> str:
+    return default_unit_species(plasma).name
+
+
+def _check_scan(chk: Checker, data: Mapping[str, Any]) -> ScanSpec | None:
+    scan = chk.table(data, "scan", "scan", required=True)
+    if scan is None:
+        return None
+    chk.unknown_keys(scan, _TABLE_KEYS["scan"], "scan")
+    k = chk.table(scan, "k", "scan.k", required=True)
+    if k is None:
+        return None
+    chk.unknown_keys(k, _TABLE_KEYS["scan.k"], "scan.k")
+    start = chk.number(
+        k, "start", "scan.k.start", "a number > 0 (normalized k)", check=lambda x: x > 0
+    )
+    stop = chk.number(
+        k, "stop", "scan.k.stop", "a number > 0 (normalized k)", check=lambda x: x > 0
+    )
+    points = chk.integer(k, "points", "scan.k.points", "an integer >= 1", minimum=1)
+    spacing = chk.choice(
+        k, "spacing", "scan.k.spacing", _SPACINGS, default="linear", required=False
+    )
+    if start is not None and stop is not None and not start < stop:
+        chk.error("scan.k", f"got start = {start!r}, stop = {stop!r}, expected start < stop")
+        return None
+    if start is None or stop is None or points is None or spacing is None:
+        return None
+    return ScanSpec(start, stop, points, spacing)
+
+
+def _check_launch(chk: Checker, data: Mapping[str, Any]) -> LaunchSpec | None:
+    """The optional ``[launch]`` table (driving frequencies in Hz, complex-k box)."""
+    tab = chk.table(data, "launch", "launch", required=False)
+    if tab is None:
+        return None
+    chk.unknown_keys(tab, _TABLE_KEYS["launch"], "launch")
+    expected = (
+        "a table { start = ..., stop = ..., points = ... } in Hz, or an array of "
+        "frequencies > 0 in Hz"
+    )
+    freqs: list[float] | None = None
+    if "frequency" not in tab:
+        chk.missing("launch.frequency", expected)
+    elif isinstance(tab["frequency"], list):
+        values = tab["frequency"]
+        good = values and all(
+            not isinstance(v, bool) and isinstance(v, int | float) and math.isfinite(v) and v > 0
+            for v in values
+        )
+        if not good:
+            chk.bad("launch.frequency", values, expected)
+        elif any(b <= a for a, b in zip(values, values[1:], strict=False)):
+            chk.bad("launch.frequency", values, "frequencies in increasing order")
+        else:
+            freqs = [float(v) for v in values]
+    elif isinstance(tab["frequency"], dict):
+        f = tab["frequency"]
+        p = "launch.frequency"
+        chk.unknown_keys(f, _TABLE_KEYS["launch.frequency"], p)
+        start = chk.number(f, "start", f"{p}.start", "a number > 0 (Hz)", check=lambda x: x > 0)
+        stop = chk.number(f, "stop", f"{p}.stop", "a number > 0 (Hz)", check=lambda x: x > 0)
+        points = chk.integer(f, "points", f"{p}.points", "an integer >= 1", minimum=1)
+        spacing = chk.choice(f, "spacing", f"{p}.spacing", _SPACINGS, default="linear",
+                             required=False)
+        if start is not None and stop is not None and points is not None and spacing:
+            if points > 1 and not start < stop:
+                chk.error(p, f"got start = {start!r}, stop = {stop!r}, expected start < stop")
+            else:
+                grid = np.geomspace if spacing == "log" else np.linspace
+                freqs = [float(x) for x in grid(start, stop, points)] if points > 1 else [start]
+    else:
+        chk.bad("launch.frequency", tab["frequency"], expected)
+    boxes = []
+    for key, default in (("k_real", (0.01, 2.0)), ("k_imag", (-0.01, 0.5))):
+        boxes.append(chk.window(tab, key, f"launch.{key}") if key in tab else default)
+    if boxes[0] is not None and boxes[0][0] <= 0:
+        chk.error("launch.k_real", f"got {list(boxes[0])!r}, expected 0 < min < max "
+                  "(the spatial search box lies in Re k > 0)")
+        return None
+    if freqs is None or boxes[0] is None or boxes[1] is None:
+        return None
+    return LaunchSpec(tuple(freqs), boxes[0], boxes[1])
+
+
+def _check_solver(chk: Checker, data: Mapping[str, Any]) -> SolverOptions:
+    tab = chk.table(data, "solver", "solver", required=False) or {}
+    chk.unknown_keys(tab, _TABLE_KEYS["solver"], "solver")
+    d = SolverOptions()
+    tol = chk.number(
+        tab,
+        "tolerance",
+        "solver.tolerance",
+        "a number in (0, 1)",
+        default=d.tolerance,
+        required=False,
+        check=lambda x: 0 < x < 1,
+    )
+    htol = chk.number(
+        tab,
+        "harmonic_tolerance",
+        "solver.harmonic_tolerance",
+        "a number in (0, 1)",
+        default=d.harmonic_tolerance,
+        required=False,
+        check=lambda x: 0 < x < 1,
+    )
+    every = chk.integer(
+        tab,
+        "resurvey_every",
+        "solver.resurvey_every",
+        "an integer >= 0 (0: never re-survey)",
+        minimum=0,
+        default=d.resurvey_every,
+        required=False,
+    )
+    return SolverOptions(
+        tolerance=d.tolerance if tol is None else tol,
+        harmonic_tolerance=d.harmonic_tolerance if htol is None else htol,
+        resurvey_every=d.resurvey_every if every is None else every,
+    )
+
+
+def _physics_warnings(plasma: Plasma) -> list[str]:
+    """Quasi-neutrality, zero net current and non-relativistic speeds (returned as data)."""
+    out: list[str] = []
+    charge = sum(s.charge_number * s.density for s in plasma.species)
+    scale = sum(abs(s.charge_number) * s.density for s in plasma.species)
+    if abs(charge) > NEUTRALITY_RTOL * scale:
+        out.append(
+            "not quasi-neutral: Σ Z_s n_s = "
+            f"{charge:.6g} m^-3, {abs(charge) / scale:.3g} of Σ |Z_s| n_s "
+            f"(tolerance {NEUTRALITY_RTOL:g})"
+        )
+    current = sum(s.charge_number * s.density * s.drift for s in plasma.species)
+    cscale = sum(abs(s.charge_number) * s.density * abs(s.drift) for s in plasma.species)
+    if cscale > 0 and abs(current) > NEUTRALITY_RTOL * cscale:
+        out.append(
+            "net current along z: Σ q_s n_s V_s = "
+            f"{current * E_CHARGE:.6g} A/m^2, {abs(current) / cscale:.3g} of "
+            f"Σ |q_s| n_s |V_s| (tolerance {NEUTRALITY_RTOL:g})"
+        )
+    for s in plasma.species:
+        fastest = max(s.thermal_speed_par, s.thermal_speed_perp, abs(s.drift))
+        if fastest > RELATIVISTIC_WARNING * C_LIGHT:
+            out.append(
+                f"species {s.name!r}: speed {fastest / C_LIGHT:.3g} c (thermal or drift); "
+                "the model is non-relativistic"
+            )
+    return out

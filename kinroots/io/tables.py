@@ -1,0 +1,186 @@
+"""Table and metadata writers: CSV and JSON, written atomically.
+
+Numbers carry full double precision (Python's shortest round-trip ``repr``); rounding
+for reports belongs to a separate export.  A failed point keeps its row, with
+``converged = false`` and empty value cells, so it can never be read as a valid number.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import tempfile
+from collections.abc import Iterable, Mapping, Sequence
+from pathlib import Path
+from typing import Any
+
+from kinroots.physics.modes import MODE_COLUMNS
+
+#: How each root was obtained: the columns every root table ends its fixed part with.
+RESULT_COLUMNS: tuple[str, ...] = (
+    "residual",
+    "converged",
+    "verified",
+    "multiplicity",
+    "iterations",
+    "evaluations",
+    "status",
+    "reason",
+)
+
+#: Columns of ``branches.csv`` and ``roots.csv``, in order.  The first ten are the
+#: contract of DESIGN.md; then how each root was obtained; then the mode identity
+#: (kinroots.physics.modes), followed by one ``density_abs_<s>``, ``density_phase_deg_<s>`` pair
+#: per species, appended by rows_to_csv (see PER_SPECIES_PREFIXES).
+ROOT_COLUMNS: tuple[str, ...] = (
+    "branch",
+    "k",
+    "omega_real",
+    "omega_imag",
+    "k_per_m",
+    "freq_hz",
+    "gamma_per_s",
+    *RESULT_COLUMNS,
+    *MODE_COLUMNS,
+)
+
+#: Row keys with these prefixes are appended (in first-seen order) after the columns of
+#: :data:`ROOT_COLUMNS` when that default column set is used: per-species columns whose
+#: names depend on the case.
+PER_SPECIES_PREFIXES: tuple[str, ...] = ("density_abs_", "density_phase_deg_")
+
+#: Cells left empty when a point did not converge.
+VALUE_COLUMNS: frozenset[str] = frozenset(
+    {"omega_real", "omega_imag", "freq_hz", "gamma_per_s", "residual"}
+)
+
+
+def format_cell(value: Any) -> str:
+    """Format one CSV cell.
+
+    Floats use the shortest repr that round-trips (full double precision); booleans are
+    ``true``/``false``; ``None`` and non-finite numbers become an empty cell only where
+    the caller passes ``None`` — non-finite floats are written as ``nan``/``inf`` so they
+    are never mistaken for a missing value.
+    """
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, float):
+        if math.isnan(value):
+            return "nan"
+        if math.isinf(value):
+            return "inf" if value > 0 else "-inf"
+        return repr(value)
+    return str(value)
+
+
+def atomic_write_bytes(path: Path, data: bytes) -> None:
+    """Write ``data`` to ``path`` atomically (temporary file in the same folder, flushed
+    to disk, then ``os.replace``), so a reader never sees a half-written file."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+
+
+def atomic_write_text(path: Path, text: str) -> None:
+    """Text (UTF-8) counterpart of :func:`atomic_write_bytes`."""
+    atomic_write_bytes(path, text.encode("utf-8"))
+
+
+def rows_to_csv(rows: Iterable[Mapping[str, Any]], columns: Sequence[str] = ROOT_COLUMNS) -> str:
+    """Render rows (mappings from column name to value) as CSV text.
+
+    Rows with ``converged`` false get empty cells in :data:`VALUE_COLUMNS`.  With the
+    default columns, per-species keys (:data:`PER_SPECIES_PREFIXES`) are appended.
+    """
+    if columns is ROOT_COLUMNS:
+        rows = list(rows)
+        extra: dict[str, None] = {}
+        for row in rows:
+            for key in row:
+                if key.startswith(PER_SPECIES_PREFIXES) and key not in columns:
+                    extra[key] = None
+        columns = (*columns, *extra)
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(columns)
+    for row in rows:
+        failed = row.get("converged") is False
+        cells = []
+        for col in columns:
+            value = row.get(col)
+            if failed and col in VALUE_COLUMNS:
+                value = None
+            cells.append(format_cell(value))
+        writer.writerow(cells)
+    return buf.getvalue()
+
+
+def write_csv(
+    path: Path, rows: Iterable[Mapping[str, Any]], columns: Sequence[str] = ROOT_COLUMNS
+) -> None:
+    """Write rows as CSV atomically; see :func:`rows_to_csv`."""
+    atomic_write_text(path, rows_to_csv(rows, columns))
+
+
+def _json_default(obj: Any) -> Any:
+    if isinstance(obj, complex):
+        return {"real": obj.real, "imag": obj.imag}
+    if isinstance(obj, Path):
+        return str(obj)
+    try:
+        import numpy as np
+
+        if isinstance(obj, np.generic):
+            return obj.item()
+        if isinstance(obj, np.ndarray):
+            return obj.tolist()
+    except ImportError:  # pragma: no cover - numpy is a dependency
+        pass
+    raise TypeError(f"cannot write {type(obj).__name__} to JSON")
+
+
+def _finite_json(obj: Any) -> Any:
+    """Replace non-finite floats by None: JSON has no NaN."""
+    import numpy as np
+
+    if isinstance(obj, np.ndarray):
+        obj = obj.tolist()
+    elif isinstance(obj, np.generic):
+        obj = obj.item()
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    if isinstance(obj, Mapping):
+        return {str(k): _finite_json(v) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [_finite_json(v) for v in obj]
+    if isinstance(obj, complex):
+        return {"real": _finite_json(obj.real), "imag": _finite_json(obj.imag)}
+    return obj
+
+
+def to_json(data: Mapping[str, Any]) -> str:
+    """Serialize metadata to JSON text (floats in shortest round-trip form)."""
+    return json.dumps(_finite_json(data), indent=2, default=_json_default, allow_nan=False) + "\n"
+
+
+def write_json(path: Path, data: Mapping[str, Any]) -> None:
+    """Write metadata as JSON atomically."""
+    atomic_write_text(path, to_json(data))

@@ -1,0 +1,644 @@
+"""The dispersion function D(ω; k, plasma) and its derivatives, vectorized over ω.
+
+Conventions: perturbations ∝ exp(i k·x − i ω t); B (or the drift axis) along z;
+k = k (sin θ, 0, cos θ), so k_par = k cos θ, k_perp = k sin θ; SI units (ω in rad/s,
+k in 1/m).  The susceptibility builders live in :mod:`kinroots.physics.models`; this module
+sums them, assembles D, scales it to be entire in ω and supplies dD/dω (and dD/dk for
+the spatial problem, complex k at real ω).
+"""
+
+from __future__ import annotations
+
+import importlib
+import math
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from kinroots.physics.models.base import Builder, Susceptibility
+from kinroots.physics.plasma import C_LIGHT, EV, Plasma
+
+__all__ = [
+    "Dispersion",
+    "MODELS",
+    "builder_for",
+    "dispersion_in_k",
+    "dispersion_pairs",
+    "scaled_builder_for",
+]
+
+#: Canonical model names and the spellings accepted for them.
+MODELS: dict[str, str] = {
+    "electrostatic": "electrostatic",
+    "es": "electrostatic",
+    "electromagnetic": "electromagnetic",
+    "em": "electromagnetic",
+}
+
+#: (model, magnetized) -> module holding the builder ``susceptibility`` (imported lazily).
+_REGISTRY: dict[tuple[str, bool], str] = {
+    ("electrostatic", False): "kinroots.physics.models.es_unmagnetized",
+    ("electromagnetic", False): "kinroots.physics.models.em_unmagnetized",
+    ("electrostatic", True): "kinroots.physics.models.es_magnetized",
+    ("electromagnetic", True): "kinroots.physics.models.em_magnetized",
+}
+
+#: Points on the Cauchy circles used for dD/dk of magnetized models.
+_N_CIRCLE = 32
+#: Radius of the Cauchy circle for dD/dk (magnetized models), as a fraction of |k|.
+_K_FRACTION = 1e-3
+
+
+def _canonical_model(model: str) -> str:
+    try:
+        return MODELS[model.strip().lower()]
+    except (KeyError, AttributeError):
+        raise ValueError(
+            f"unknown model {model!r}: expected one of {sorted(set(MODELS))}"
+        ) from None
+
+
+def builder_for(model: str, magnetized: bool) -> Builder:
+    """The susceptibility builder registered for ``(model, magnetized)``.
+
+    Parameters
+    ----------
+    model : str
+        ``"electrostatic"`` / ``"es"`` or ``"electromagnetic"`` / ``"em"``.
+    magnetized : bool
+        Whether B ≠ 0.
+
+    Returns
+    -------
+    Builder
+        The module's ``susceptibility`` function (imported on first use, so that a
+        model module that is absent only matters when it is asked for).
+    """
+    key = (_canonical_model(model), bool(magnetized))
+    module = importlib.import_module(_REGISTRY[key])
+    builder: Builder = module.susceptibility
+    return builder
+
+
+def scaled_builder_for(magnetized: bool) -> Builder:
+    """The electromagnetic ``scaled_susceptibility`` for ``magnetized`` (see its module).
+
+    It returns S_s = diag(w, w, 1) χ'_s diag(w, w, 1), w = ω/ω_ref, χ'_s in the wave frame
+    (e₁, e₂, k̂) of :class:`Dispersion`, entire in ω and formed without cancellation, and
+    takes ``omega_ref`` as an extra keyword.
+    """
+    module = importlib.import_module(_REGISTRY[("electromagnetic", bool(magnetized))])
+    builder: Builder = module.scaled_susceptibility
+    return builder
+
+
+def _cos_sin_deg(angle_deg: float) -> tuple[float, float]:
+    """cos θ, sin θ with exact zeros at multiples of 90° (so that k∥ = 0 is exact)."""
+    a = float(angle_deg)
+    if not math.isfinite(a):
+        raise ValueError(f"angle_deg must be finite, got {angle_deg!r}")
+    r = a % 360.0
+    exact = {0.0: (1.0, 0.0), 90.0: (0.0, 1.0), 180.0: (-1.0, 0.0), 270.0: (0.0, -1.0)}
+    if r in exact:
+        return exact[r]
+    t = math.radians(a)
+    return math.cos(t), math.sin(t)
+
+
+def _det_and_cofactors(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """det M and the cofactor matrix C (C_ij = ∂ det M / ∂M_ij) of stacked 3×3 M."""
+    c = np.empty_like(m)
+    for i in range(3):
+        i1, i2 = (i + 1) % 3, (i + 2) % 3
+        for j in range(3):
+            j1, j2 = (j + 1) % 3, (j + 2) % 3
+            c[..., i, j] = m[..., i1, j1] * m[..., i2, j2] - m[..., i1, j2] * m[..., i2, j1]
+    det = np.sum(m[..., 0, :] * c[..., 0, :], axis=-1)
+    return det, c
+
+
+def _nan_where(bad: np.ndarray, d: np.ndarray, dd: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """D and dD with NaN where ``bad`` (non-finite or invalid inputs)."""
+    if np.any(bad):
+        d = np.where(bad, np.nan + 0j, d)
+        dd = np.where(bad, np.nan + 0j, dd)
+    return d, dd
+
+
+def _det_and_derivative(m: np.ndarray, dm: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """det M and its derivative Σ_ij C_ij dM_ij (C: cofactors; exact where M is singular)."""
+    d, cof = _det_and_cofactors(m)
+    return d, np.sum(cof * dm, axis=(-2, -1))
+
+
+def _scaled_matrix(
+    plasma: Plasma,
+    builder: Builder,
+    omega: np.ndarray,
+    *,
+    k: Any,
+    k_par: Any,
+    k_perp: Any,
+    omega_ref: float,
+    tol: float,
+) -> tuple[np.ndarray, np.ndarray, dict[str, int]]:
+    """S and dS/dω of :class:`Dispersion` (its Notes), summed over species.
+
+    ``k``, ``k_par``, ``k_perp`` are scalars or arrays broadcast against ``omega``; the
+    builders are the models' ``scaled_susceptibility``.  Returns S, dS/dω (shaped
+    ``shape + (3, 3)``) and the harmonics kept per species.
+    """
+    total = dtotal = None
+    harmonics: dict[str, int] = {}
+    for s in plasma.species:
+        res: Susceptibility = builder(
+            omega, s, k_par=k_par, k_perp=k_perp, B=plasma.B, tol=tol, omega_ref=omega_ref,
+        )
+        harmonics[s.name] = int(res.harmonics)
+        v, d = np.asarray(res.value), np.asarray(res.derivative)
+        total = v if total is None else total + v
+        dtotal = d if dtotal is None else dtotal + d
+    assert total is not None and dtotal is not None
+    shape = np.broadcast_shapes(np.shape(omega), np.shape(k)) + (3, 3)
+    total = np.broadcast_to(total, shape).copy()
+    dtotal = np.broadcast_to(dtotal, shape).copy()
+    w = omega / omega_ref
+    n2ref = (k * C_LIGHT / omega_ref) ** 2
+    for i in range(2):
+        total[..., i, i] += w * w - n2ref
+        dtotal[..., i, i] += 2.0 * w / omega_ref
+    total[..., 2, 2] += 1.0
+    return total, dtotal, harmonics
+
+
+class Dispersion:
+    """D(ω) and dD/dω at fixed k for one plasma and one model.
+
+    Parameters
+    ----------
+    plasma : Plasma
+        Species and magnetic field B [T] (B = 0 selects the unmagnetized builders).
+    k : complex
+        Wavenumber |k| [1/m]; non-zero and finite.  A complex k (spatial problem) is
+        accepted: the builders continue analytically from Re k > 0.
+    angle_deg : float
+        Angle θ between k and z [degrees]; multiples of 90° are exact (k∥ = 0 at 90°).
+    model : str
+        ``"electrostatic"`` (``"es"``) or ``"electromagnetic"`` (``"em"``).
+    omega_ref : float
+        Frequency [rad/s] that makes the scale factors of D dimensionless (e.g. ω_pe).
+    harmonic_tol : float
+        Truncation tolerance passed to magnetized builders as ``tol``.
+
+    Attributes
+    ----------
+    harmonics : dict[str, int]
+        Species name → cyclotron harmonics kept at the last evaluation (0 unmagnetized).
+    scaling : str
+        Plain-text description of the normalization of D.
+    electromagnetic : bool
+        Model kind.
+
+    Notes
+    -----
+    Electrostatic: D = ε_L = 1 + Σ_s χ_s (no scaling).  Entire in ω for unmagnetized
+    plasmas and for magnetized ones with k∥ ≠ 0; with k∥ = 0 it has poles at the
+    cyclotron harmonics n Ω_s, reported by :meth:`singular_points`.
+
+    Electromagnetic: Λ = ε − n²(I − k̂k̂), ε = I + Σ_s χ_s, n² = k²c²/ω².  In the frame
+    e₁ = (cos θ, 0, −sin θ), e₂ = ŷ, e₃ = k̂ (R with these rows, det R = 1)::
+
+        M = diag((ω/ω_ref)², (ω/ω_ref)², 1) · R Λ Rᵀ,
+        D = det M = (ω/ω_ref)⁴ det Λ.
+
+    Why this is entire.  The poles of χ at ω = 0: (i) χ_ij = (iσ_ij/ε0ω) with the force
+    of δB = k×E/ω in σ, so every entry has order ≤ 2 and ω²(Λ_TT) is entire (T: e₁, e₂);
+    (ii) a longitudinal E makes no δB, so the column χ_{·L} has order ≤ 1 and the
+    entries ω²Λ_{TL} = O(ω); (iii) by charge continuity k̂·χ = iρ/(ε0 k E), whose 1/ω
+    pole comes only from the charge moved by the magnetic force on a drifting or
+    anisotropic species: Λ_{LT} = O(1/ω), Λ_LL = ε_L entire.  Expanding det M along the
+    longitudinal row, Λ_{LT} multiplies cofactors that contain a factor ω²Λ_{TL} = O(ω),
+    so D has no pole: the 1/ω of the longitudinal row needs no factor of its own.
+    Multiplying that row by ω/ω_ref too (as first planned for drifting or anisotropic
+    plasmas) would put a spurious simple zero at ω = 0 in every such case (D(0) ≠ 0
+    otherwise; both verified in tests/test_dispersion.py by the argument principle).
+    The power 4 is minimal since D(0) ≠ 0 in general.  ω = 0 is still listed by
+    :meth:`singular_points` so that the root finder checks it itself.
+
+    Evaluation.  D is computed as det S with the similar matrix
+    S = diag(1, 1, w) M diag(1, 1, 1/w) = diag(w, w, 1) R Λ Rᵀ diag(w, w, 1), w = ω/ω_ref
+    (same determinant).  Its entries w²Λ_TT, wΛ_TL, wΛ_LT and Λ_LL are each entire, and the
+    builders' ``scaled_susceptibility`` forms every species' share of them in closed forms
+    without the small-ω cancellations of χ (one power of ω is removed exactly from each
+    contraction with k by charge continuity; see the builder modules).  So D and dD/dω
+    are evaluated directly at every ω, ω = 0 included, with an accuracy that does not
+    degrade as ω → 0 (tested against mpmath at ω = 1e-3 and 1e-5 of the slowest
+    frequency scale in tests/test_models_*.py).  With this scaling D(−ω*) = D(ω)* for
+    non-drifting plasmas (reality condition).
+
+    dD/dω: electrostatic from the builders' analytic ∂χ/∂ω; electromagnetic from the
+    cofactor form dD/dω = Σ_ij C_ij dM_ij/dω (C the cofactor matrix of M), which
+    stays exact where M is singular.  Non-finite ω gives NaN.
+
+    References
+    ----------
+    T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 1 and 10 (wave equation, Λ);
+    N. A. Krall and A. W. Trivelpiece, *Principles of Plasma Physics* (1973), ch. 9.
+    """
+
+    def __init__(
+        self,
+        plasma: Plasma,
+        *,
+        k: complex,
+        angle_deg: float,
+        model: str,
+        omega_ref: float,
+        harmonic_tol: float = 1e-14,
+    ) -> None:
+        kc = complex(k)
+        if kc == 0 or not (math.isfinite(kc.real) and math.isfinite(kc.imag)):
+            raise ValueError(f"k must be finite and non-zero, got {k!r}")
+        if not (math.isfinite(omega_ref) and omega_ref > 0):
+            raise ValueError(f"omega_ref must be a finite positive frequency, got {omega_ref!r}")
+        if len(plasma.species) == 0:
+            raise ValueError("the plasma has no species")
+        self.plasma = plasma
+        self.k = kc
+        self.angle_deg = float(angle_deg)
+        self.model = _canonical_model(model)
+        self.omega_ref = float(omega_ref)
+        self.harmonic_tol = float(harmonic_tol)
+        self.electromagnetic = self.model == "electromagnetic"
+        self.magnetized = plasma.magnetized
+        self._builder = builder_for(self.model, self.magnetized)
+        cos, sin = _cos_sin_deg(angle_deg)
+        self._cos, self._sin = cos, sin
+        self.k_par = kc * cos
+        self.k_perp = kc * sin
+        self._rot = np.array([[cos, 0.0, -sin], [0.0, 1.0, 0.0], [sin, 0.0, cos]])
+        self.harmonics: dict[str, int] = {s.name: 0 for s in plasma.species}
+        #: Slowest frequency scale of the susceptibilities [rad/s]: |k| w_k, and |Ω_s|,
+        #: |k∥| w∥ when magnetized (D varies on this scale near ω = 0).
+        self.frequency_scale = self._slowest_scale()
+        self._scaled_builder = (
+            scaled_builder_for(self.magnetized) if self.electromagnetic else None
+        )
+        #: Electrostatic models whose module offers ``SpeciesSum`` (constants per species
+        #: cached here, since k is fixed; every species in one pass): Σχ_s from it.
+        self._species_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
+        if not self.electromagnetic:
+            module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
+            factory = getattr(module, "SpeciesSum", None)
+            if factory is not None:
+                self._species_sum = factory.for_species(
+                    tuple(plasma.species), k_par=self.k_par, k_perp=self.k_perp
+                )
+        if self.electromagnetic:
+            self.scaling = (
+                f"D = (omega/omega_ref)^4 det(Lambda), omega_ref = {self.omega_ref!r} rad/s: "
+                "the two rows of Lambda transverse to k times (omega/omega_ref)^2; "
+                "entire in omega, finite at omega = 0"
+            )
+        else:
+            self.scaling = "D = 1 + sum_s chi_s (longitudinal dielectric), unscaled"
+
+    # ------------------------------------------------------------------ helpers
+    def _slowest_scale(self) -> float:
+        scales = []
+        for s in self.plasma.species:
+            wpar2 = 2.0 * s.temperature_par * EV / s.mass
+            wperp2 = 2.0 * s.temperature_perp * EV / s.mass
+            scales.append(abs(self.k_perp**2 * wperp2 + self.k_par**2 * wpar2) ** 0.5)
+            if self.magnetized:
+                scales.append(abs(s.cyclotron_frequency(self.plasma.B)))
+                if self.k_par != 0:
+                    scales.append(abs(self.k_par) * math.sqrt(wpar2))
+        good = [x for x in scales if math.isfinite(x) and x > 0]
+        return min(good) if good else self.omega_ref
+
+    def _chi(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Σ_s χ_s and Σ_s ∂χ_s/∂ω at the given ω (builders' frame)."""
+        if self._species_sum is not None:
+            return self._species_sum(omega)
+        total = dtotal = None
+        for s in self.plasma.species:
+            res: Susceptibility = self._builder(
+                omega,
+                s,
+                k_par=self.k_par,
+                k_perp=self.k_perp,
+                B=self.plasma.B,
+                tol=self.harmonic_tol,
+            )
+            self.harmonics[s.name] = int(res.harmonics)
+            v, d = np.asarray(res.value), np.asarray(res.derivative)
+            total = v if total is None else total + v
+            dtotal = d if dtotal is None else dtotal + d
+        assert total is not None and dtotal is not None
+        return total, dtotal
+
+    def _scaled(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """S and dS/dω (class Notes), summed over species, in the frame (e₁, e₂, k̂)."""
+        total, dtotal, harmonics = _scaled_matrix(
+            self.plasma, self._scaled_builder, omega, k=self.k, k_par=self.k_par,
+            k_perp=self.k_perp, omega_ref=self.omega_ref, tol=self.harmonic_tol,
+        )
+        self.harmonics.update(harmonics)
+        return total, dtotal
+
+    def _d_em(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """D = det S and dD/dω = Σ C_ij dS_ij/dω (C: cofactors of S), any finite ω."""
+        return _det_and_derivative(*self._scaled(omega))
+
+    # ------------------------------------------------------------------ public
+    def __call__(self, omega: Any) -> tuple[np.ndarray, np.ndarray]:
+        """D(ω) and dD/dω.
+
+        Parameters
+        ----------
+        omega : array_like of complex
+            Frequencies [rad/s], any shape.
+
+        Returns
+        -------
+        D, dD_domega : ndarray of complex
+            Shaped like ``omega`` (see the class Notes for the scaling); NaN where ω is
+            not finite.
+        """
+        om = np.asarray(omega, dtype=complex)
+        with np.errstate(all="ignore"):
+            if self.electromagnetic:
+                d, dd = self._d_em(om)
+            else:
+                chi, dchi = self._chi(om)
+                d, dd = 1.0 + chi, dchi
+            return _nan_where(~np.isfinite(om), d, dd)
+
+    def value(self, omega: Any) -> np.ndarray:
+        """D(ω) alone (same as ``self(omega)[0]``)."""
+        return self(omega)[0]
+
+    def tensor(self, omega: Any) -> np.ndarray:
+        """The unscaled dielectric object.
+
+        Returns
+        -------
+        ndarray of complex
+            Electromagnetic: Λ = ε − n²(I − k̂k̂) in the (x, y, z) frame, shaped
+            ``omega.shape + (3, 3)`` (ω = 0 is a pole: non-finite there).
+            Electrostatic: the scalar ε_L = D, shaped like ``omega``.
+        """
+        om = np.asarray(omega, dtype=complex)
+        with np.errstate(all="ignore"):
+            chi, _ = self._chi(om)
+            if not self.electromagnetic:
+                return 1.0 + chi
+            khat = np.array([self._sin, 0.0, self._cos])
+            proj = np.eye(3) - np.outer(khat, khat)
+            n2 = (self.k * C_LIGHT / om) ** 2
+            return np.eye(3) + chi - n2[..., None, None] * proj
+
+    def singular_points(
+        self, re_min: float, re_max: float, im_min: float, im_max: float
+    ) -> list[complex]:
+        """Points [rad/s] inside the closed box that the root finder must exclude.
+
+        ω = 0 for electromagnetic models (a zero that the scaling may introduce); for
+        magnetized plasmas with k∥ = 0 exactly, the cyclotron harmonics n Ω_s (n ≠ 0,
+        every species), which are poles of D.  Sorted by real part, without repeats.
+        """
+        pts: set[complex] = set()
+        on_axis = im_min <= 0.0 <= im_max
+        if self.electromagnetic and on_axis and re_min <= 0.0 <= re_max:
+            pts.add(0j)
+        if self.magnetized and self.k_par == 0 and on_axis:
+            for s in self.plasma.species:
+                om_c = abs(s.cyclotron_frequency(self.plasma.B))
+                if om_c == 0:
+                    continue
+                n_lo = math.ceil(re_min / om_c)
+                n_hi = math.floor(re_max / om_c)
+                for n in range(n_lo, n_hi + 1):
+                    if n != 0:
+                        pts.add(complex(n * om_c, 0.0))
+        return sorted(pts, key=lambda z: (z.real, z.imag))
+
+
+def dispersion_pairs(
+    plasma: Plasma,
+    *,
+    k: Any,
+    omega: Any,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float = 1e-14,
+) -> tuple[np.ndarray, np.ndarray]:
+    """D and dD/dω at the pairs (k_j, ω_j), element by element, in one vectorized call.
+
+    The same function as ``Dispersion(plasma, k=k_j, ...)(ω_j)``, for tracing several
+    wavenumbers at once (:class:`kinroots.roots.Tracer` with ``pairs``).
+
+    Parameters
+    ----------
+    plasma : Plasma
+        Species and B.
+    k : array_like of complex
+        Wavenumbers [1/m], broadcast against ``omega``.
+    omega : array_like of complex
+        Frequencies [rad/s].
+    angle_deg, model, omega_ref, harmonic_tol
+        As for :class:`Dispersion`.
+
+    Returns
+    -------
+    D, dD_domega : ndarray of complex
+        Shaped like the broadcast of ``k`` and ``omega``; NaN where k is zero or either
+        is not finite.
+
+    Notes
+    -----
+    The builders take array wave-vector components directly (the magnetized ones sum
+    every element to the largest harmonic any element needs, so values agree with the
+    one-k evaluation to the truncation tolerance).  Collisional (Krook) species are
+    evaluated one distinct k at a time through :class:`Dispersion`.
+    """
+    kk, om = np.broadcast_arrays(np.asarray(k, dtype=complex), np.asarray(omega, dtype=complex))
+    bad = ~(np.isfinite(kk) & np.isfinite(om)) | (kk == 0)
+    kk = np.where(bad, 1.0, kk)
+    om = np.where(bad, 1.0, om)
+    canonical = _canonical_model(model)
+    if len(plasma.species) == 0:
+        raise ValueError("the plasma has no species")
+    if any(s.collision_frequency > 0.0 for s in plasma.species):
+        d, dd = _pairs_by_k(plasma, kk, om, angle_deg, canonical, omega_ref, harmonic_tol)
+    else:
+        cos, sin = _cos_sin_deg(angle_deg)
+        kpar, kperp = kk * cos, kk * sin
+        with np.errstate(all="ignore"):
+            if canonical == "electromagnetic":
+                d, dd = _det_and_derivative(*_scaled_matrix(
+                    plasma, scaled_builder_for(plasma.magnetized), om, k=kk, k_par=kpar,
+                    k_perp=kperp, omega_ref=omega_ref, tol=harmonic_tol,
+                )[:2])
+            elif not plasma.magnetized:
+                chi, dd = importlib.import_module(_REGISTRY[(canonical, False)]).species_sum(
+                    om, tuple(plasma.species), k_par=kpar, k_perp=kperp)
+                d = 1.0 + chi
+            else:
+                builder = builder_for(canonical, plasma.magnetized)
+                d = np.ones(om.shape, dtype=complex)
+                dd = np.zeros(om.shape, dtype=complex)
+                for s in plasma.species:
+                    res = builder(om, s, k_par=kpar, k_perp=kperp, B=plasma.B,
+                                  tol=harmonic_tol)
+                    d = d + res.value
+                    dd = dd + res.derivative
+    return _nan_where(bad, d, dd)
+
+
+def _pairs_by_k(
+    plasma: Plasma,
+    k: np.ndarray,
+    omega: np.ndarray,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`dispersion_pairs` one distinct k at a time (models without array k)."""
+    d = np.empty(k.shape, dtype=complex)
+    dd = np.empty(k.shape, dtype=complex)
+    for kj in np.unique(k):
+        sel = k == kj
+        disp = Dispersion(plasma, k=complex(kj), angle_deg=angle_deg, model=model,
+                          omega_ref=omega_ref, harmonic_tol=harmonic_tol)
+        d[sel], dd[sel] = disp(omega[sel])
+    return d, dd
+
+
+def dispersion_in_k(
+    plasma: Plasma,
+    *,
+    omega: float,
+    k: Any,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float = 1e-14,
+) -> tuple[np.ndarray, np.ndarray]:
+    """D and dD/dk at one real frequency, vectorized over complex k (spatial problem).
+
+    Parameters
+    ----------
+    plasma : Plasma
+        Species and B.
+    omega : float
+        Real frequency [rad/s], finite and non-zero.
+    k : array_like of complex
+        Wavenumbers [1/m], any shape; the builders continue analytically from Re k > 0
+        (at Re k ≤ 0 the value is that of the principal branch, not the continuation).
+    angle_deg, model, omega_ref, harmonic_tol
+        As for :class:`Dispersion`; D is the same function as ``Dispersion(...)(omega)``.
+
+    Returns
+    -------
+    D, dD_dk : ndarray of complex
+        Shaped like ``k``; NaN where k is zero or not finite.
+
+    Notes
+    -----
+    Unmagnetized models: every χ_s depends on (ω, k) through ζ = (ω − k∥V)/κ, which is
+    homogeneous of degree 0, times ω⁻² (electromagnetic) or k⁻² (electrostatic), so
+    χ_s is homogeneous of degree −2 and Euler's relation gives, exactly,
+    ∂χ_s/∂k = −(2χ_s + ω ∂χ_s/∂ω)/k.  With ∂n²/∂k = 2n²/k the derivative of M (class
+    Notes) follows, and dD/dk = Σ C_ij ∂M_ij/∂k.  All k are evaluated in one call.
+
+    Magnetized models (no such homogeneity: Ω_s is fixed):
+    dD/dk = (1/m) Σ_j D(k + r e^{iφ_j}) e^{−iφ_j} / r, φ_j = 2π(j + 1/2)/m, m = 32,
+    r = 1e-3 |k| (Cauchy's formula for the derivative, trapezoid rule on the circle: error
+    of order (r/R)^m for D analytic within R of k; any numerical-analysis text, from
+    memory); every k and every circle point in one :func:`dispersion_pairs` call.
+    """
+    kk = np.asarray(k, dtype=complex)
+    om = float(omega)
+    if not math.isfinite(om) or om == 0.0:
+        raise ValueError(f"omega must be finite and non-zero, got {omega!r}")
+    cos, sin = _cos_sin_deg(angle_deg)
+    canonical = _canonical_model(model)
+    bad = ~np.isfinite(kk) | (kk == 0)
+    ksafe = np.where(bad, 1.0, kk)
+    if plasma.magnetized:
+        d, dd = _dispersion_in_k_cauchy(
+            plasma, om, ksafe, angle_deg, canonical, omega_ref, harmonic_tol
+        )
+    else:
+        d, dd = _dispersion_in_k_unmagnetized(
+            plasma, om, ksafe, cos, sin, canonical, omega_ref
+        )
+    return _nan_where(bad, d, dd)
+
+
+def _dispersion_in_k_unmagnetized(
+    plasma: Plasma,
+    omega: float,
+    k: np.ndarray,
+    cos: float,
+    sin: float,
+    model: str,
+    omega_ref: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    builder = builder_for(model, False)
+    om = np.full(k.shape, omega, dtype=complex)
+    with np.errstate(all="ignore"):
+        chi = dchi_dk = None
+        for s in plasma.species:
+            res = builder(om, s, k_par=k * cos, k_perp=k * sin, B=0.0)
+            v, dw = np.asarray(res.value), np.asarray(res.derivative)
+            kb = k.reshape(k.shape + (1,) * (v.ndim - k.ndim))
+            dk = -(2.0 * v + omega * dw) / kb
+            chi = v if chi is None else chi + v
+            dchi_dk = dk if dchi_dk is None else dchi_dk + dk
+        assert chi is not None and dchi_dk is not None
+        if model == "electrostatic":
+            return 1.0 + chi, dchi_dk
+        rot = np.array([[cos, 0.0, -sin], [0.0, 1.0, 0.0], [sin, 0.0, cos]])
+        eps = rot @ chi @ rot.T
+        deps = rot @ dchi_dk @ rot.T
+        idx = np.arange(3)
+        eps[..., idx, idx] += 1.0
+        w = omega / omega_ref
+        m = np.empty_like(eps)
+        dm = np.empty_like(eps)
+        m[..., :2, :] = w**2 * eps[..., :2, :]
+        dm[..., :2, :] = w**2 * deps[..., :2, :]
+        m[..., 0, 0] -= (k * C_LIGHT / omega_ref) ** 2
+        m[..., 1, 1] -= (k * C_LIGHT / omega_ref) ** 2
+        dm[..., 0, 0] -= 2.0 * k * (C_LIGHT / omega_ref) ** 2
+        dm[..., 1, 1] -= 2.0 * k * (C_LIGHT / omega_ref) ** 2
+        m[..., 2, :] = eps[..., 2, :]
+        dm[..., 2, :] = deps[..., 2, :]
+        return _det_and_derivative(m, dm)
+
+
+def _dispersion_in_k_cauchy(
+    plasma: Plasma,
+    omega: float,
+    k: np.ndarray,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    """D at k and dD/dk from the Cauchy circle around each k: every point of every circle
+    in one :func:`dispersion_pairs` call."""
+    phase = np.exp(2j * np.pi * (np.arange(_N_CIRCLE) + 0.5) / _N_CIRCLE)
+    r = _K_FRACTION * np.abs(k)[..., None]
+    ks = np.concatenate([k[..., None], k[..., None] + r * phase], axis=-1)
+    d_all, _ = dispersion_pairs(plasma, k=ks, omega=omega, angle_deg=angle_deg, model=model,
+                                omega_ref=omega_ref, harmonic_tol=harmonic_tol)
+    d = d_all[..., 0]
+    dd = np.mean(d_all[..., 1:] * phase.conj(), axis=-1) / r[..., 0]
+    return d, dd

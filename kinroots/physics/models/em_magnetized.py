@@ -1,0 +1,506 @@
+r"""Hot-plasma susceptibility tensor of a magnetized drifting bi-Maxwellian species.
+
+Frame: B along z, k = (k_perp, 0, k_par), perturbations ∝ exp(i k·x − i ω t), tensor
+index order x, y, z. SI throughout (ω in rad/s, k in 1/m, B in T, temperatures of
+:class:`~kinroots.physics.plasma.Species` in eV). Ω_s = q_s B/m_s is signed.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from kinroots.physics.models._harmonics import (
+    BesselWeights,
+    SpeciesSetup,
+    evaluate,
+    harmonic_sums,
+    landau_sign,
+    landau_z,
+)
+from kinroots.physics.models.base import Susceptibility
+from kinroots.physics.plasma import Species
+from kinroots.physics.zfunc import plasma_z_and_prime
+
+__all__ = ["scaled_susceptibility", "susceptibility"]
+
+
+def susceptibility(
+    omega: np.ndarray,
+    species: Species,
+    /,
+    *,
+    k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray,
+    B: float,
+    tol: float = 1e-14,
+) -> Susceptibility:
+    r"""Susceptibility tensor χ_s(ω, k) of a magnetized drifting bi-Maxwellian, any angle.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        Angular frequency ω [rad/s], any shape.
+    species : Species
+        Drifting bi-Maxwellian (drift V along B, T∥, T⊥ > 0 in eV).
+    k_par, k_perp : complex or array_like of complex
+        Wave-vector components along and across B [1/m]; may be complex.  Scalars (the
+        fast path) or arrays broadcast against ``omega``: every (k∥, k⊥, ω) element is
+        then evaluated as by a scalar-k call, with one harmonic count N for all (the
+        largest any element needs; the extra harmonics are below ``tol``).
+    B : float
+        Magnetic field [T], non-zero; its sign enters through the signed Ω = qB/m.
+    tol : float
+        Relative truncation tolerance of the cyclotron-harmonic sums (rule in
+        :func:`kinroots.physics.models._harmonics.bessel_weights`).
+
+    Returns
+    -------
+    Susceptibility
+        ``value`` = χ_s and ``derivative`` = dχ_s/dω, each ``shape + (3, 3)`` with
+        ``shape`` = ``omega.shape`` (scalar k) or the broadcast of ``omega``, ``k_par``
+        and ``k_perp``; ``harmonics`` = N (harmonics −N … N kept).
+
+    Raises
+    ------
+    ValueError
+        If ``B == 0`` (use the unmagnetized model).
+
+    Notes
+    -----
+    Symbols: w∥,⊥ = sqrt(2T∥,⊥/m), τ = T⊥/T∥, P = ω_p²/ω², a = k∥w∥, c_n = ω − nΩ,
+    ζ_n = (ω − k∥V − nΩ)/a, Z_n = Z(ζ_n), F_n = 1 + ζ_nZ_n = −Z'(ζ_n)/2,
+    λ = k⊥²w⊥²/(2Ω²), Γ_n = e^{−λ}I_n(λ), Γ_n' = dΓ_n/dλ, g_n = nΓ_n/λ, κ = k⊥/(k∥Ω).
+    Coded (sums over n = −N … N)::
+
+        Φ_n = 1 − (nΩ/a) Z_n − τ F_n                      (= −[(ω−k∥V)/a Z_n + (τ−1) F_n])
+        Y_n = (τ c_n + nΩ) F_n + nΩ (V/w∥) Z_n
+        M_n = c_n (c_n + nΩ/τ) F_n + (nΩ k∥V/τ)(F_n + (V/w∥) Z_n)
+
+        χ_xx = −P Σ n g_n Φ_n           χ_xy = −iP Σ nΓ_n' Φ_n = −χ_yx
+        χ_yy = −P Σ (n g_n − 2λΓ_n') Φ_n
+        χ_xz = χ_zx = P κ Σ g_n Y_n      χ_yz = −iP κ Σ Γ_n' Y_n = −χ_zy
+        χ_zz = (2P/a²) Σ Γ_n M_n
+
+    Derived here from the general gyrotropic form (Stix 1992, eqs. 10-48 and 10-57, from
+    memory: χ_s = (ω_p²/ω) Σ_n ∫d³v S_n/(ω − k∥v∥ − nΩ), with U and W operators on f)
+    for f = F⊥(v⊥)F∥(v∥ − V), using ⟨J_n²⟩ = Γ_n, ⟨v⊥J_nJ_n'⟩ = (k⊥w⊥²/2Ω)Γ_n',
+    ⟨v⊥²J_n'²⟩ = (w⊥²/2)(n²Γ_n/λ − 2λΓ_n') over F⊥ and the parallel moments
+    ⟨1, t, t²⟩/(t − ζ) → Z, F, ζF. It agrees with the drifting bi-Maxwellian tensor of
+    Gary (1993, ch. 7, from memory) and reduces to Stix (1992, eq. 11-? ) for V = 0; the
+    form Φ_n above shows the textbook bracket ξZ_n + A(1 + ζ_nZ_n), A = T⊥/T∥ − 1.
+    χ_zx = χ_xz and χ_zy = −χ_yz hold term by term up to Σ_nΓ_n' = 0 (exact identity),
+    even with drift. dχ/dω follows by differentiating each factor (dZ/dζ = Z',
+    dF/dζ = Z + ζZ', dP/dω = −2P/ω).
+
+    Landau continuation for Re k∥ < 0: Z is replaced by ``sZ(sζ)`` with s = −1 (see
+    :func:`kinroots.physics.models._harmonics.landau_sign`), so that χ(k∥, V) =
+    M χ(−k∥, −V) M with M = diag(1, 1, −1).
+
+    Exact k∥ = 0: the ζ_n → ∞ limits are taken analytically (Z → −1/ζ, F → −1/(2ζ²)),
+    giving rational terms with poles at ω = nΩ::
+
+        Φ_n → ω/(ω − nΩ),   κ Y_n → −(k⊥/Ω) nΩV/(ω − nΩ),
+        χ_zz → −P Σ Γ_n [1 + nΩ (w∥² + 2V²)/(w⊥² (ω − nΩ))].
+
+    The anisotropy enters only χ_zz there, as T∥/T⊥ (Stix 1992, ch. 11, the ordinary
+    mode of a bi-Maxwellian, from memory); the drift enters as the parallel energy 2V².
+
+    k⊥ = 0 (parallel) needs no special case: g_{±1} = ±1/2, Γ'_{±1} = 1/2 at λ = 0.
+
+    Non-finite ω, k or B and non-positive temperatures give NaN; overflow gives inf/NaN.
+    The relative accuracy of dχ/dω degrades like ε|ζ_n|² for |ζ_n| ≫ 1 (cancellation in
+    Z + ζZ'); χ itself does not (1 + ζZ is formed without cancellation by zfunc).
+
+    References
+    ----------
+    T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 10–11, from memory.
+    S. P. Gary, *Theory of Space Plasma Microinstabilities* (Cambridge, 1993), ch. 7,
+    from memory.
+    D. G. Swanson, *Plasma Waves*, 2nd ed. (IOP, 2003), ch. 4, from memory.
+    """
+    return evaluate(
+        omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="em_magnetized",
+        tail=(3, 3), parts=lambda om, setup, perp: _tensor_parts(om, setup, perp, species),
+    )
+
+
+def _tensor_parts(
+    om: np.ndarray, setup: SpeciesSetup, perpendicular: bool, species: Species
+) -> tuple[np.ndarray, np.ndarray]:
+    """χ_s and dχ_s/dω from the formulas of :func:`susceptibility` (errors not checked).
+
+    ``om`` has the result shape: any shape with scalar k, an (E, 1) column with array k
+    (``setup`` then holds (E, 1) columns and per-element weights); ``perpendicular``
+    selects the exact k∥ = 0 limit.  Returns arrays shaped ``om.shape + (3, 3)``.
+    """
+    kpar, kperp, wpar, wperp = setup.k_par, setup.k_perp, setup.w_par, setup.w_perp
+    V, omega_c, lam, w = setup.drift, setup.omega_c, setup.lam, setup.weights
+    sums = harmonic_sums(om, w)
+    n_om = w.n * omega_c
+    tau = species.temperature_perp / species.temperature_par
+    # Weight matrices: columns (xx, xy, yy) for Φ, (xz, yz) for Y, (zz) for M.
+    w_phi = np.stack([w.n * w.g, w.n * w.dgamma, w.n * w.g - 2.0 * lam * w.dgamma], axis=-1)
+    w_y = np.stack([w.g, w.dgamma], axis=-1)
+    w_all = np.concatenate([w_phi, w_y, w.gamma[..., None]], axis=-1)  # (…, 2N+1, 6)
+    om1 = sums.omega
+    if perpendicular:
+        r = 1.0 / (om1 - n_om)
+        r2 = r * r
+        nr = sums.dot(r, w.n[:, None] * w_all)  # Σ n w_n/(ω − nΩ)
+        nr2 = sums.dot(r2, w.n[:, None] * w_all)
+        # Φ = ω r = 1 + nΩ r;  Y = −nΩV r;  M = 1 + β nΩ r
+        beta = (wpar * wpar + 2.0 * V * V) / (wperp * wperp)
+        s_phi = sums.total(w_phi) + omega_c * nr[..., 0:3]
+        ds_phi = -omega_c * nr2[..., 0:3]
+        s_y = -(omega_c * V) * nr[..., 3:5]
+        ds_y = (omega_c * V) * nr2[..., 3:5]
+        s_z = sums.total(w.gamma) + (beta * omega_c) * nr[..., 5]
+        ds_z = -(beta * omega_c) * nr2[..., 5]
+        kappa = kperp / omega_c
+        zfac = -1.0
+    else:
+        s = landau_sign(kpar)
+        a = kpar * wpar
+        cn = om1 - n_om
+        zt = (cn - kpar * V) * (1.0 / (s * a))
+        zf, zp = plasma_z_and_prime(zt)
+        # Z_eff(ζ_n) = sZ(sζ_n); q = dF/dζ = Z_eff + ζ Z_eff', F = 1 + ζZ_eff = −Z'(sζ)/2
+        zf, q = landau_z(zt, zf, zp, s)
+        # Every element is linear in Z, Z', F = −Z'/2, F' = q with coefficients
+        # polynomial in c_n = ω − nΩ and n: contract the few full arrays once.
+        wn = w.n[:, None] * w_all
+        wb = np.concatenate([w_all, wn], axis=-1)  # columns: w_all (6), n·w_all (6)
+
+        # one product for all seven arrays: Z, Z', F', c Z', c F', c² Z', c² F'
+        buf = np.empty((7,) + zt.shape, dtype=complex)
+        buf[0] = zf
+        buf[1] = zp
+        buf[2] = q
+        np.multiply(cn, zp, out=buf[3])
+        np.multiply(cn, q, out=buf[4])
+        np.multiply(cn, buf[3], out=buf[5])
+        np.multiply(cn, buf[4], out=buf[6])
+        red = np.moveaxis(sums.dot(buf.reshape(7, -1, zt.shape[-1]), wb), 0, -2)
+        red = red.reshape(om.shape + (7, wb.shape[-1]))
+        a_zf, a_zp, a_q, a_czp, a_cq, a_c2zp, a_c2q = (red[..., i, :] for i in range(7))
+        vw = V / wpar
+        # a against the column blocks below: (E, 1, 1) for array k
+        ab = a[..., None] if isinstance(a, np.ndarray) else a
+        om_a = omega_c / ab
+        # column blocks of wb: [0:3] Φ weights, [3:5] Y weights, [5] Γ; +6 for n·(…)
+        s_phi = (
+            sums.total(w_phi) - om_a * a_zf[..., 6:9] + (0.5 * tau) * a_zp[..., 0:3]
+        )
+        ds_phi = -(om_a / ab) * a_zp[..., 6:9] - (tau / ab) * a_q[..., 0:3]
+        s_y = (
+            -(0.5 * tau) * a_czp[..., 3:5]
+            - (0.5 * omega_c) * a_zp[..., 9:11]
+            + (omega_c * vw) * a_zf[..., 9:11]
+        )
+        ds_y = (
+            -(0.5 * tau) * a_zp[..., 3:5]
+            + (tau / ab) * a_cq[..., 3:5]
+            + om_a * a_q[..., 9:11]
+            + (om_a * vw) * a_zp[..., 9:11]
+        )
+        u = omega_c * kpar * V / tau
+        s_z = (
+            -0.5 * a_c2zp[..., 5]
+            - (0.5 * omega_c / tau) * a_czp[..., 11]
+            + u * (-0.5 * a_zp[..., 11] + vw * a_zf[..., 11])
+        )
+        ds_z = (
+            -a_czp[..., 5]
+            - (0.5 * omega_c / tau) * a_zp[..., 11]
+            + a_c2q[..., 5] / a
+            + (omega_c / (tau * a)) * a_cq[..., 11]
+            + (u / a) * (a_q[..., 11] + vw * a_zp[..., 11])
+        )
+        kappa = kperp / (kpar * omega_c)
+        zfac = 2.0 / (a * a)
+    p = species.plasma_frequency**2 / (om * om)
+    dp = -2.0 * p / om
+
+    core = _tensor(s_phi, s_y, s_z, kappa, zfac)
+    dcore = _tensor(ds_phi, ds_y, ds_z, kappa, zfac)
+    value = p[..., None, None] * core
+    derivative = dp[..., None, None] * core + p[..., None, None] * dcore
+    return value, derivative
+
+
+def _frame(
+    kpar: complex | np.ndarray, kperp: complex | np.ndarray
+) -> tuple[complex | np.ndarray, complex | np.ndarray, complex | np.ndarray]:
+    """k = √(k∥² + k⊥²) and the frame cosines k∥/k, k⊥/k (e₁ = (c, 0, −s), k̂ = (s, 0, c)).
+
+    Scalars for scalar k∥, k⊥; elementwise arrays for arrays.
+    """
+    k = np.sqrt(kpar * kpar + kperp * kperp)
+    if not isinstance(k, np.ndarray):
+        k = complex(k)
+    return k, kpar / k, kperp / k
+
+
+def _project(core: np.ndarray, h_row: np.ndarray, c: complex | np.ndarray,
+             s: complex | np.ndarray) -> np.ndarray:
+    """Wave-frame tensor from the xyz ``core`` (TT block) and the row k·core/ω (L row/col).
+
+    ``c``, ``s`` are scalars or arrays shaped like ``core.shape[:-2]`` (array k).
+    """
+    out = np.empty(core.shape, dtype=complex)
+    xx, xy, xz = core[..., 0, 0], core[..., 0, 1], core[..., 0, 2]
+    yx, yy, yz = core[..., 1, 0], core[..., 1, 1], core[..., 1, 2]
+    zx, zy, zz = core[..., 2, 0], core[..., 2, 1], core[..., 2, 2]
+    out[..., 0, 0] = c * c * xx - c * s * (xz + zx) + s * s * zz
+    out[..., 0, 1] = c * xy - s * zy
+    out[..., 1, 0] = c * yx - s * yz
+    out[..., 1, 1] = yy
+    hx, hy, hz = h_row[..., 0], h_row[..., 1], h_row[..., 2]
+    out[..., 2, 0] = c * hx - s * hz  # row: (k·core)·e₁/ω
+    out[..., 2, 1] = hy
+    out[..., 0, 2] = c * hx - s * hz  # column: e₁·(core·k)/ω, (core·k)_y = −(k·core)_y
+    out[..., 1, 2] = -hy
+    return out
+
+
+def scaled_susceptibility(
+    omega: np.ndarray,
+    species: Species,
+    /,
+    *,
+    k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray,
+    B: float,
+    tol: float = 1e-14,
+    omega_ref: float = 1.0,
+) -> Susceptibility:
+    r"""χ_s in the wave frame, scaled so that it is entire in ω and finite at ω = 0.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        Angular frequency ω [rad/s], any shape; ω = 0 is allowed.
+    species, k_par, k_perp, B, tol
+        As for :func:`susceptibility`.
+    omega_ref : float
+        Reference frequency [rad/s] of w = ω/ω_ref.
+
+    Returns
+    -------
+    Susceptibility
+        ``value`` = S_s = diag(w, w, 1) χ'_s diag(w, w, 1), ``derivative`` = dS_s/dω,
+        each ``shape + (3, 3)`` (``shape`` as for :func:`susceptibility`: scalar or array
+        k), χ'_s = χ_s in the frame e₁ = (k∥, 0, −k⊥)/k, e₂ = ŷ, e₃ = k̂ = (k⊥, 0, k∥)/k;
+        ``harmonics`` as for :func:`susceptibility`.
+
+    Notes
+    -----
+    χ = P·T with P = ω_p²/ω² and T the sums of :func:`susceptibility` (same symbols).
+    Three rewritings remove every cancellation that grows as ω → 0 (this module's own
+    algebra from the formulas there, using Σ_n g_n = Σ_n Γ_n' = Σ_n nΓ_n = 0):
+
+    1. Φ_n = −[u Z_n + (τ − 1) F_n], u = (ω − k∥V)/a, instead of 1 − (nΩ/a)Z_n − τF_n
+       (equal because F_n − 1 = ζ_n Z_n): it is O(ω) for an isotropic, non-drifting
+       species and is now a sum of products, not a difference of O(1) terms.
+    2. Contraction with k (charge continuity) gives one factor ω exactly::
+
+           (k·T)_x = −ω (k⊥/Ω) Σ g_n Φ_n,     (k·T)_y = −iω (k⊥/Ω) Σ Γ_n' Φ_n,
+           (k·T)_z = (2ω/(k∥w∥²)) [ω Σ Γ_n F_n + (Ω/τ) Σ nΓ_n((1 − τ)F_n + (V/w∥)Z_n)],
+           (T·k)_x,z = (k·T)_x,z,   (T·k)_y = −(k·T)_y,
+
+       (from Y_n/Ω − nΦ_n = (ω/Ω)(1 − Φ_n) and nΩY_n/τ + M_n = ω c_n F_n +
+       (nΩ/τ)[ω(F_n + (V/w∥)Z_n) + k∥V]), so that S_3a = (ω_p²/(ω_ref k²)) (k·T)·e_a/ω·k
+       and S_a3 likewise carry no 1/ω.
+    3. A second contraction gives the longitudinal element as the electrostatic form::
+
+           S_33 = χ_LL = (2ω_p²/(k²w∥²)) Σ Γ_n [F_n + (nΩ/(τa)) Z_n]
+
+       (isotropic: (2ω_p²/(k²w²))[1 + (ω/a) Σ Γ_n Z_n], Stix 1992, ch. 11, from memory).
+
+    The transverse block is S_ab = (ω_p²/ω_ref²) e_a·T·e_b.  Exact k∥ = 0 uses the
+    rational limits of :func:`susceptibility` with the harmonics ±n paired analytically,
+    1/(ω − nΩ) ± 1/(ω + nΩ) = {2ω, 2nΩ}/(ω² − n²Ω²), so that ω = 0 is finite there too.
+
+    What is not rewritten: the sums over ±n of the remaining terms are added harmonic
+    by harmonic, so a transverse entry whose genuine value is O(ω²/Ω²) of its terms
+    (the cold-limit χ_xx of a species at ω ≪ |Ω|) carries an absolute error of about
+    ε·(ω/Ω) times those terms; that error does not grow as ω → 0.
+
+    References
+    ----------
+    T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 10–11, from memory.
+    """
+    return evaluate(
+        omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="em_magnetized",
+        tail=(3, 3),
+        parts=lambda om, setup, perp: _scaled_parts(om, setup, perp, species, omega_ref),
+    )
+
+
+def _scaled_parts(
+    om: np.ndarray, setup: SpeciesSetup, perpendicular: bool, species: Species,
+    omega_ref: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    """S_s and dS_s/dω from the formulas of :func:`scaled_susceptibility`.
+
+    ``om`` has the result shape: any shape with scalar k, an (E, 1) column with array k
+    (``setup`` then holds (E, 1) columns and per-element weights); ``perpendicular``
+    selects the exact k∥ = 0 limit.  Returns arrays shaped ``om.shape + (3, 3)``.
+    """
+    kpar, kperp, wpar, wperp = setup.k_par, setup.k_perp, setup.w_par, setup.w_perp
+    V, omega_c, lam, w = setup.drift, setup.omega_c, setup.lam, setup.weights
+    k, cth, sth = _frame(kpar, kperp)
+    wp2 = species.plasma_frequency**2
+    tau = species.temperature_perp / species.temperature_par
+    if perpendicular:
+        core, dcore, h, dh, s33, ds33 = _perpendicular_parts(om, w, lam, kperp, omega_c, V,
+                                                             wpar, wperp)
+    else:
+        core, dcore, h, dh, s33, ds33 = _oblique_parts(om, w, lam, kpar, kperp, omega_c,
+                                                       V, wpar, tau)
+    value = _project(core, h, cth, sth)
+    deriv = _project(dcore, dh, cth, sth)
+    s_t = wp2 / omega_ref**2
+    s_l = wp2 / (omega_ref * k)
+    if isinstance(s_l, np.ndarray):
+        s_l = s_l[..., None]  # against the (…, 2) row and column slices
+    value[..., :2, :2] *= s_t
+    deriv[..., :2, :2] *= s_t
+    value[..., 2, :2] *= s_l
+    value[..., :2, 2] *= s_l
+    deriv[..., 2, :2] *= s_l
+    deriv[..., :2, 2] *= s_l
+    value[..., 2, 2] = (wp2 / (k * k)) * s33
+    deriv[..., 2, 2] = (wp2 / (k * k)) * ds33
+    return value, deriv
+
+
+def _tensor(sp: np.ndarray, sy: np.ndarray, sz: np.ndarray, kappa: complex | np.ndarray,
+            zfac: float | complex | np.ndarray) -> np.ndarray:
+    """T from the Φ sums (xx, xy, yy), the Y sums (xz, yz) and the M sum (zz).
+
+    ``kappa`` and ``zfac`` are scalars or arrays broadcast against ``sz`` (array k).
+    """
+    t = np.empty(sz.shape + (3, 3), dtype=complex)
+    t[..., 0, 0] = -sp[..., 0]
+    t[..., 0, 1] = -1j * sp[..., 1]
+    t[..., 1, 0] = 1j * sp[..., 1]
+    t[..., 1, 1] = -sp[..., 2]
+    t[..., 0, 2] = kappa * sy[..., 0]
+    t[..., 2, 0] = t[..., 0, 2]
+    t[..., 1, 2] = -1j * kappa * sy[..., 1]
+    t[..., 2, 1] = -t[..., 1, 2]
+    t[..., 2, 2] = zfac * sz
+    return t
+
+
+_FrameParts = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+
+def _oblique_parts(
+    om: np.ndarray, w: BesselWeights, lam: complex | np.ndarray, kpar: complex | np.ndarray,
+    kperp: complex | np.ndarray, omega_c: float, V: float, wpar: float, tau: float,
+) -> _FrameParts:
+    """k∥ ≠ 0: T, dT/dω, h = k·T/ω, dh/dω, Σ-form of S_33·k²/ω_p² and its derivative.
+
+    Scalar k with weights shared by every ω, or (E, 1) columns ``om``, ``lam``, ``kpar``,
+    ``kperp`` with per-element weights (array k); results shaped ``om.shape + …``.
+    """
+    sums = harmonic_sums(om, w)
+    dot = sums.dot
+    s = landau_sign(kpar)
+    a = kpar * wpar
+    om1 = sums.omega
+    nw = w.n * omega_c
+    cn = om1 - nw
+    zt = (cn - kpar * V) * (1.0 / (s * a))
+    zf, zp = plasma_z_and_prime(zt)
+    f = -0.5 * zp  # F = 1 + ζZ_eff = −Z'(sζ)/2
+    zf, fp = landau_z(zt, zf, zp, s)
+    u = (om1 - kpar * V) / a
+    vw = V / wpar
+    # per-harmonic factors and their ω-derivatives (d/dω = (1/a) d/dζ)
+    phi = -(u * zf + (tau - 1.0) * f)
+    dphi = -(zf + u * zp + (tau - 1.0) * fp) / a
+    y = (tau * cn + nw) * f + nw * vw * zf
+    dy = tau * f + ((tau * cn + nw) * fp + nw * vw * zp) / a
+    cm = cn * (cn + nw / tau)
+    mm = cm * f + (nw * kpar * V / tau) * (f + vw * zf)
+    dmm = (2.0 * cn + nw / tau) * f + (cm * fp + (nw * kpar * V / tau) * (fp + vw * zp)) / a
+    w_phi = np.stack([w.n * w.g, w.n * w.dgamma, w.n * w.g - 2.0 * lam * w.dgamma], axis=-1)
+    w_y = np.stack([w.g, w.dgamma], axis=-1)
+    kappa = kperp / (kpar * omega_c)
+    zfac = 2.0 / (a * a)
+    core = _tensor(dot(phi, w_phi), dot(y, w_y), dot(mm, w.gamma), kappa, zfac)
+    dcore = _tensor(dot(dphi, w_phi), dot(dy, w_y), dot(dmm, w.gamma), kappa, zfac)
+    gx, dgx = dot(phi, w.g), dot(dphi, w.g)
+    gy, dgy = dot(phi, w.dgamma), dot(dphi, w.dgamma)
+    rest = dot((1.0 - tau) * f + vw * zf, w.n * w.gamma)
+    drest = dot((1.0 - tau) * fp + vw * zp, w.n * w.gamma) / a
+    fg, fpg = dot(f, w.gamma), dot(fp, w.gamma)
+    dfg = fpg / a
+    gz = om * fg + (omega_c / tau) * rest
+    dgz = fg + om * dfg + (omega_c / tau) * drest
+    pre = kperp / omega_c
+    zpre = 2.0 / (kpar * wpar * wpar)
+    h = np.stack([-pre * gx, -1j * pre * gy, zpre * gz], axis=-1)
+    dh = np.stack([-pre * dgx, -1j * pre * dgy, zpre * dgz], axis=-1)
+    nz = (w.n * w.gamma) * (omega_c / (tau * a))
+    s33 = (2.0 / (wpar * wpar)) * (fg + dot(zf, nz))
+    ds33 = (2.0 / (wpar * wpar)) * (fpg + dot(zp, nz)) / a
+    return core, dcore, h, dh, s33, ds33
+
+
+def _perpendicular_parts(
+    om: np.ndarray, w: BesselWeights, lam: complex | np.ndarray, kperp: complex | np.ndarray,
+    omega_c: float, V: float, wpar: float, wperp: float,
+) -> _FrameParts:
+    """k∥ = 0: the same parts from the rational limits, harmonics ±n paired.
+
+    Shapes as for :func:`_oblique_parts` (scalar k, or (E, 1) columns for array k).
+    """
+    sums = harmonic_sums(om, w)
+    dot = sums.dot
+    pos = w.n > 0
+    n = w.n[pos]
+    g, dg, gam = w.g[..., pos], w.dgamma[..., pos], w.gamma[..., pos]
+    dg0 = w.dgamma[..., w.n == 0]  # Γ_0': (1,) for shared weights, (E, 1) per element
+    if dg0.ndim == 1:
+        dg0 = dg0[0]
+    om1 = sums.omega
+    dn = 1.0 / (om1 * om1 - (n * omega_c) ** 2)  # 1/(ω² − n²Ω²)
+    ddn = -2.0 * om1 * dn * dn
+    beta = (wpar * wpar + 2.0 * V * V) / (wperp * wperp)
+    ng = n * g
+    n2dg = n * n * dg
+    n2gam = n * n * gam
+    e_ng, de_ng = dot(dn, ng), dot(ddn, ng)
+    e_n2dg, de_n2dg = dot(dn, n2dg), dot(ddn, n2dg)
+    e_yy, de_yy = dot(dn, ng - 2.0 * lam * dg), dot(ddn, ng - 2.0 * lam * dg)
+    e_zz, de_zz = dot(dn, n2gam), dot(ddn, n2gam)
+    o2 = om * om
+    t = np.empty(om.shape + (3, 3), dtype=complex)
+    dt = np.empty_like(t)
+    t[..., 0, 0] = -2.0 * o2 * e_ng
+    dt[..., 0, 0] = -4.0 * om * e_ng - 2.0 * o2 * de_ng
+    t[..., 0, 1] = -2j * omega_c * om * e_n2dg
+    dt[..., 0, 1] = -2j * omega_c * (e_n2dg + om * de_n2dg)
+    t[..., 1, 0] = -t[..., 0, 1]
+    dt[..., 1, 0] = -dt[..., 0, 1]
+    t[..., 1, 1] = -2.0 * o2 * e_yy + 2.0 * lam * dg0
+    dt[..., 1, 1] = -4.0 * om * e_yy - 2.0 * o2 * de_yy
+    t[..., 0, 2] = t[..., 2, 0] = -2.0 * kperp * V * om * e_ng
+    dt[..., 0, 2] = dt[..., 2, 0] = -2.0 * kperp * V * (e_ng + om * de_ng)
+    t[..., 1, 2] = 2j * kperp * V * omega_c * e_n2dg
+    dt[..., 1, 2] = 2j * kperp * V * omega_c * de_n2dg
+    t[..., 2, 1] = -t[..., 1, 2]
+    dt[..., 2, 1] = -dt[..., 1, 2]
+    t[..., 2, 2] = -sums.total(w.gamma) - 2.0 * beta * omega_c**2 * e_zz
+    dt[..., 2, 2] = -2.0 * beta * omega_c**2 * de_zz
+    h = np.stack([-2.0 * kperp * om * e_ng, -2j * kperp * omega_c * e_n2dg,
+                  -2.0 * kperp * kperp * V * e_ng], axis=-1)
+    dh = np.stack([-2.0 * kperp * (e_ng + om * de_ng), -2j * kperp * omega_c * de_n2dg,
+                   -2.0 * kperp * kperp * V * de_ng], axis=-1)
+    s33 = -2.0 * kperp * kperp * e_ng
+    ds33 = -2.0 * kperp * kperp * de_ng
+    return t, dt, h, dh, s33, ds33

@@ -1,0 +1,1 @@
+"""Figures for every table (matplotlib imported inside the functions, Agg backend)."""

@@ -1,0 +1,249 @@
+"""Bind a case to the root layer: survey the window, trace every branch across k.
+
+Everything here works in the case's normalized units: ω̂ = ω / ω_u and k̂ = k L_u
+(see :class:`kinroots.physics.plasma.Normalization`).  The dispersion function handed to the
+root layer is ``f(ω̂) = D(ω̂ ω_u)`` with ``f'(ω̂) = ω_u D'(ω̂ ω_u)``; D is the scaled,
+entire dispersion function of :class:`kinroots.physics.dispersion.Dispersion`.
+
+Re-survey rule (documented in DEVELOPERS.md and in every summary.json): the window is
+surveyed at the first scan point, then again every ``solver.resurvey_every`` scan points
+and at the last point.  A surveyed root that no traced branch accounts for (farther than
+``match_tol`` from every active branch) starts a new branch; that branch is traced
+*backwards* from the survey point to the previous survey point (or until it leaves the
+window), so a root that entered the window between surveys is tabulated from where it
+entered.  At every survey point each active branch is checked against the survey:
+branches matched to a surveyed root are marked ``verified``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from kinroots.io.case import Case
+from kinroots.physics.dispersion import Dispersion, dispersion_in_k, dispersion_pairs
+from kinroots.physics.models import krook
+from kinroots.roots import (
+    Branch,
+    SurveyResult,
+    Tracer,
+    find_roots,
+)
+
+AnalyticFunction = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
+
+#: Relative distance (to the window diameter) under which a surveyed root is taken to be
+#: a root already being traced.
+MATCH_FRACTION = 1e-6
+
+
+def window(case: Case) -> tuple[float, float, float, float]:
+    """The search window ``(re_min, re_max, im_min, im_max)`` in normalized ω."""
+    return (*case.search_real, *case.search_imag)
+
+
+def dispersion_at(case: Case, k: float | complex) -> Dispersion:
+    """The SI dispersion function of ``case`` at normalized wavenumber ``k``."""
+    units = case.units
+    return Dispersion(
+        case.plasma,
+        k=complex(k) / units.length_unit if isinstance(k, complex) else k / units.length_unit,
+        angle_deg=case.angle_deg,
+        model=case.model,
+        omega_ref=units.omega_unit,
+        harmonic_tol=case.solver.harmonic_tolerance,
+    )
+
+
+@dataclass
+class NormalizedDispersion:
+    """``f(ω̂) -> (D, dD/dω̂)`` at one normalized k, with its excluded points.
+
+    Attributes
+    ----------
+    k : float
+        Normalized wavenumber.
+    dispersion : Dispersion
+        The SI function it wraps.
+    """
+
+    k: float
+    dispersion: Dispersion
+
+    def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        # Newton steps may leave the window into regions where D overflows: the
+        # non-finite values are handled (reported) by the root layer, not warned about.
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self._call(omega)
+
+    def _call(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        disp = self.dispersion
+        w_u = disp.omega_ref
+        krook_es = self.__dict__.get("_krook_es")
+        if krook_es is None:  # fixed for the wrapped function: decided on the first call
+            krook_es = self.__dict__["_krook_es"] = (
+                krook.collisional(disp.plasma) and not disp.electromagnetic
+            )
+        if krook_es and disp.magnetized:
+            # same scaling, magnetized χ_s = N_s/Q_s; at k∥ = 0 F has poles (nΩ − iν), which
+            # the case file rejects: NaN makes such a point fail visibly if reached otherwise
+            om = np.asarray(omega, dtype=complex)
+            if disp.k_par == 0:
+                nan = np.full(om.shape, np.nan + 0j)
+                return nan, nan.copy()
+            f, fw = krook.magnetized_scaled_dispersion(
+                om * w_u, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
+                B=disp.plasma.B, tol=disp.harmonic_tol,
+            )
+            return f, fw * w_u
+        if krook_es:
+            # Krook χ_s has poles: hand the root layer F = (Π_s Q_s) D, entire, same zeros
+            cos, sin = disp._cos, disp._sin
+            f, fw, _ = krook.scaled_dispersion(
+                np.asarray(omega, dtype=complex) * w_u, disp.plasma.species,
+                k=disp.k, cos_theta=cos, sin_theta=sin,
+            )
+            return f, fw * w_u
+        d, dd = disp(np.asarray(omega, dtype=complex) * w_u)
+        return d, dd * w_u
+
+    def value(self, omega: np.ndarray) -> np.ndarray:
+        """D only (for maps)."""
+        return self(omega)[0]
+
+    def excluded(self, box: tuple[float, float, float, float]) -> list[complex]:
+        """Points the survey must exclude (poles, scaling zeros), normalized."""
+        w_u = self.dispersion.omega_ref
+        pts = self.dispersion.singular_points(*(v * w_u for v in box))
+        return [p / w_u for p in pts]
+
+
+def function_at(case: Case, k: float) -> NormalizedDispersion:
+    """The normalized dispersion function of ``case`` at normalized ``k``."""
+    return NormalizedDispersion(float(k), dispersion_at(case, float(k)))
+
+
+#: ``f(k̂, ω̂) -> (D, dD/dω̂)`` at arrays of normalized (k, ω) pairs.
+PairFunction = Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]]
+
+
+def pair_function(case: Case) -> PairFunction | None:
+    """``f(k̂, ω̂) -> (D, dD/dω̂)`` at arrays of normalized (k, ω) pairs, for batched tracing.
+
+    Element by element the same function as :func:`function_at` (k̂_j)(ω̂_j).  ``None`` for
+    cases with Krook collisions, whose scaled function is formed one k at a time.
+    """
+    if krook.collisional(case.plasma):
+        return None
+    units = case.units
+    w_u, l_u = units.omega_unit, units.length_unit
+
+    def pairs(k: np.ndarray, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        with np.errstate(over="ignore", invalid="ignore"):
+            d, dd = dispersion_pairs(
+                case.plasma, k=np.asarray(k, dtype=float) / l_u,
+                omega=np.asarray(omega, dtype=complex) * w_u, angle_deg=case.angle_deg,
+                model=case.model, omega_ref=w_u, harmonic_tol=case.solver.harmonic_tolerance,
+            )
+        return d, dd * w_u
+
+    return pairs
+
+
+def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | None = None
+           ) -> SurveyResult:
+    """Every root of D in the window (or ``box``) at normalized ``k``."""
+    f = function_at(case, k)
+    b = window(case) if box is None else box
+    # The root layer may shift an edge outward (a root or pole on it): list the excluded
+    # points of a margin around the box too, so a shifted edge never swallows an unlisted
+    # pole.
+    dr, di = 0.05 * (b[1] - b[0]), 0.05 * (b[3] - b[2])
+    wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
+    res = find_roots(f, b, excluded=f.excluded(wide), rtol=case.solver.tolerance)
+    if any("is not finite" in n for n in res.notes):
+        res.notes.append(
+            "D overflows there: the Landau term exp(-zeta^2) of a cold species exceeds "
+            "double precision deep in the lower half-plane; keep Im(omega) above about "
+            "-|Re(omega)| on the frequency scale k*w of the coldest species (README, limits)"
+        )
+    return res
+
+
+
+# ----------------------------------------------------------------------- spatial problem
+
+
+@dataclass
+class SpatialFunction:
+    """``g(k̂) -> (D, dD/dk̂)`` at one real normalized frequency (spatial problem)."""
+
+    case: Case
+    omega: float
+
+    def __call__(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        # overflow far from the window gives non-finite values, reported by the root layer
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self._call(k)
+
+    def _call(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        units = self.case.units
+        L = units.length_unit
+        plasma = self.case.plasma
+        if krook.collisional(plasma) and self.case.model == "electrostatic" and plasma.B:
+            theta = math.radians(self.case.angle_deg)
+            f, fk = krook.magnetized_scaled_dispersion_in_k(
+                self.omega * units.omega_unit, plasma.species,
+                k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
+                sin_theta=math.sin(theta), B=plasma.B, tol=self.case.solver.harmonic_tolerance,
+            )
+            return f, fk / L
+        if krook.collisional(plasma) and self.case.model == "electrostatic" and not plasma.B:
+            theta = math.radians(self.case.angle_deg)
+            f, _, fk = krook.scaled_dispersion(
+                self.omega * units.omega_unit, plasma.species,
+                k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
+                sin_theta=math.sin(theta),
+            )
+            return f, fk / L
+        d, dd = dispersion_in_k(
+            self.case.plasma,
+            omega=self.omega * units.omega_unit,
+            k=np.asarray(k, dtype=complex) / L,
+            angle_deg=self.case.angle_deg,
+            model=self.case.model,
+            omega_ref=units.omega_unit,
+            harmonic_tol=self.case.solver.harmonic_tolerance,
+        )
+        return d, dd / L
+
+
+def spatial_roots(case: Case, omega: float, box: tuple[float, float, float, float]
+                  ) -> SurveyResult:
+    """Every complex wavenumber (normalized) in ``box`` at real normalized ``omega``.
+
+    The box must lie in Re k > 0, away from k = 0 (the continuation is built there).
+    """
+    if box[0] <= 0:
+        raise ValueError("the spatial search box must lie in Re k > 0")
+    return find_roots(SpatialFunction(case, float(omega)), box, rtol=case.solver.tolerance)
+
+
+def trace_spatial(case: Case, omegas: np.ndarray, box: tuple[float, float, float, float]
+                  ) -> list[Branch]:
+    """Survey complex k at the first frequency and trace each root across ``omegas``."""
+    om = [float(w) for w in omegas]
+    s = spatial_roots(case, om[0], box)
+    tracer = Tracer(lambda w: SpatialFunction(case, w), box=box, param=om[0],
+                    rtol=case.solver.tolerance)
+    for r in s.roots:
+        if r.converged:
+            tracer.add_branch(r, param=om[0])
+    for w in om[1:]:
+        if not tracer.active:
+            break
+        tracer.advance_to(w)
+    return tracer.branches

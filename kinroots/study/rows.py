@@ -1,0 +1,140 @@
+"""Table rows and summary metadata of root tables (branches.csv, roots.csv, launch.csv)."""
+
+from __future__ import annotations
+
+import math
+from typing import TYPE_CHECKING, Any
+
+from kinroots import __version__
+from kinroots.io.case import Case
+from kinroots.physics import modes
+from kinroots.physics.plasma import CONVENTIONS, derived_quantities
+from kinroots.roots import (
+    RootResult,
+)
+from kinroots.study.problem import MATCH_FRACTION
+
+if TYPE_CHECKING:
+    from kinroots.study.solve import Solution
+
+
+def root_row(case: Case, branch: int | str, k: float, r: RootResult,
+             verified: bool | None = None) -> dict[str, Any]:
+    """One table row (columns of :data:`kinroots.io.tables.ROOT_COLUMNS`).
+
+    Converged roots also carry their mode identity (polarization, handedness, δB/δE,
+    electrostatic fraction, per-species δn_s/n_s): see :mod:`kinroots.physics.modes`.
+    """
+    units = case.units
+    w_si = complex(units.omega_to_si(r.value))
+    if r.converged:
+        identity = modes.mode_columns(
+            case.plasma, omega=w_si, k=float(units.k_to_si(k)), angle_deg=case.angle_deg,
+            model=case.model, omega_ref=units.omega_unit,
+            harmonic_tol=case.solver.harmonic_tolerance,
+        )
+    else:
+        identity = dict.fromkeys(modes.MODE_COLUMNS + modes.density_columns(case.plasma))
+    return {
+        "branch": branch,
+        "k": float(k),
+        "omega_real": float(r.value.real),
+        "omega_imag": float(r.value.imag),
+        "k_per_m": float(units.k_to_si(k)),
+        "freq_hz": w_si.real / (2.0 * math.pi),
+        "gamma_per_s": w_si.imag,
+        "residual": float(r.residual),
+        "converged": bool(r.converged),
+        "verified": bool(r.verified if verified is None else verified),
+        "multiplicity": int(r.multiplicity),
+        "iterations": int(r.iterations),
+        "evaluations": int(r.evaluations),
+        "status": r.status.name.lower(),
+        "reason": r.reason,
+        **identity,
+    }
+
+
+def branch_rows(sol: Solution) -> list[dict[str, Any]]:
+    """Rows of branches.csv, branch by branch, k increasing."""
+    rows = []
+    for b in sol.branches:
+        for k, r in b.sorted_points():
+            rows.append(root_row(sol.case, b.id, k, r, verified=k in b.verified_at))
+    return rows
+
+
+#: A root counts as growing only when γ exceeds this multiple of the root tolerance
+#: times |ω|: below that, the sign of γ is not resolved by the root finder.
+GROWTH_RESOLUTION = 10.0
+
+
+def is_growing(omega: complex, rtol: float) -> bool:
+    """True when Im ω > 0 by more than the root finder's resolution."""
+    return omega.imag > GROWTH_RESOLUTION * rtol * abs(omega)
+
+
+def extreme_roots(rows: list[dict[str, Any]], rtol: float = 1e-10) -> dict[str, Any]:
+    """The fastest-growing (largest γ) and least-damped roots among converged rows.
+
+    A root is growing only if ``γ > GROWTH_RESOLUTION · rtol · |ω|``; a root with
+    |γ| below that is neutral to the accuracy of the tables and counts as least damped.
+    """
+    good = [r for r in rows if r["converged"]]
+    if not good:
+        return {"fastest_growing": None, "least_damped": None}
+
+    def grows(r: dict[str, Any]) -> bool:
+        return is_growing(complex(r["omega_real"], r["omega_imag"]), rtol)
+
+    top = max(good, key=lambda r: r["omega_imag"])
+    growing = top if grows(top) else None
+    damped = [r for r in good if not grows(r)]
+    least = max(damped, key=lambda r: r["omega_imag"]) if damped else None
+    keep = ("branch", "k", "omega_real", "omega_imag", "k_per_m", "freq_hz", "gamma_per_s")
+    return {
+        "fastest_growing": {k: growing[k] for k in keep} if growing else None,
+        "least_damped": {k: least[k] for k in keep} if least else None,
+    }
+
+
+def metadata(case: Case, *, rows: list[dict[str, Any]], extra: dict[str, Any]) -> dict[str, Any]:
+    """summary.json content shared by ``solve`` and ``roots``."""
+    units = case.units
+    return {
+        "kinroots_version": __version__,
+        "title": case.title,
+        "source": str(case.source) if case.source else None,
+        "case": case.raw,
+        "conventions": CONVENTIONS,
+        "units": {
+            "omega": units.frequency_label_ascii,
+            "omega_unit_rad_per_s": units.omega_unit,
+            "k": f"1/{units.length_label_ascii}",
+            "length_unit_m": units.length_unit,
+            "table_columns": {
+                "k": f"k * {units.length_label_ascii}",
+                "omega_real": f"Re(omega) / {units.frequency_label_ascii}",
+                "omega_imag": f"Im(omega) / {units.frequency_label_ascii}",
+                "k_per_m": "k [1/m]",
+                "freq_hz": "Re(omega) / (2 pi) [Hz]",
+                "gamma_per_s": "Im(omega) [1/s]; > 0 grows",
+                "residual": "|D| at the root (D as scaled in 'dispersion_scaling')",
+            },
+        },
+        "derived": derived_quantities(case.plasma, units),
+        "tolerances": {
+            "root_rtol": case.solver.tolerance,
+            "harmonic_tolerance": case.solver.harmonic_tolerance,
+            "resurvey_every": case.solver.resurvey_every,
+            "match_fraction_of_window": MATCH_FRACTION,
+        },
+        "warnings": list(case.warnings),
+        "growth_resolution": (
+            f"a root counts as growing when gamma > {GROWTH_RESOLUTION:g} * root_rtol * |omega|"
+        ),
+        **extreme_roots(rows, case.solver.tolerance),
+        **extra,
+    }
+
+

@@ -1,0 +1,326 @@
+"""Maximum growth over k (and angle), parameter sweeps and marginal-stability thresholds.
+
+Three layers, each a pure function of its inputs:
+
+* :func:`max_growth` — for one case: survey the search window at every k of the case's
+  scan (and every angle of a list), take the root with the largest γ, then maximize γ
+  locally (bounded Brent on γ(k) between the neighbouring grid points, nested in a
+  bounded Brent on the angle when angles are given) from roots polished by Newton's
+  method, each start taken from the nearest point already solved.  The least-damped
+  root (largest γ among the non-growing roots) is read off the grid.
+* :func:`sweep_point` / :func:`threshold_point` — one grid point of a ``[sweep]`` or one
+  value of ``threshold.across``: a pure function of (case, index), so local pool and Dask
+  give identical rows.
+* :func:`run_points` — executes the points not yet in the store, on a local process pool
+  or an existing Dask cluster, committing each row as it finishes.
+
+Order in which swept values are applied: in axis order, except that ``beta_par`` paths
+(which set B from the species' T∥ and density) are applied last, so that the β∥ written
+in the table is the β∥ of the case solved.
+
+Growth values are in the case's normalized frequency unit *at that grid point* (for
+B or beta_par sweeps with a cyclotron unit the unit follows B); SI columns accompany them.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+from collections.abc import Callable, Iterable, Sequence
+from typing import Any
+
+import numpy as np
+
+from kinroots.io.case import Case, parse_case
+from kinroots.io.parameters import ParameterError, ParameterPath, parameter_value, with_parameter
+from kinroots.io.study_tables import SweepAxis
+from kinroots.study.growth import max_growth
+from kinroots.study.threshold import find_threshold
+
+__all__ = [
+    "SWEEP_COLUMNS",
+    "THRESHOLD_COLUMNS",
+    "case_hash",
+    "check_ranges",
+    "run_points",
+    "sweep_point",
+    "threshold_point",
+]
+
+#: Columns of sweep.csv.
+SWEEP_COLUMNS: tuple[str, ...] = (
+    "i", "j", "x", "y",
+    "growth_max", "growth_omega_real", "growth_k", "growth_angle",
+    "growth_per_s", "growth_freq_hz", "growth_k_per_m", "growing",
+    "k_at_edge", "angle_at_edge",
+    "least_damped_omega_real", "least_damped_omega_imag", "least_damped_k",
+    "least_damped_angle",
+    "roots_found", "evaluations", "converged", "reason",
+)
+#: Columns of threshold.csv.
+THRESHOLD_COLUMNS: tuple[str, ...] = (
+    "j", "across", "threshold", "growth_level",
+    "growth_k", "growth_angle", "growth_omega_real", "growth_omega_imag",
+    "growth_at_low", "growth_at_high", "bracket_low", "bracket_high",
+    "brent_iterations", "converged", "reason",
+)
+_SWEEP_VALUES = ("growth_max", "growth_omega_real", "growth_k", "growth_angle",
+                 "growth_per_s", "growth_freq_hz", "growth_k_per_m")
+_THRESHOLD_VALUES = ("threshold", "growth_k", "growth_angle", "growth_omega_real",
+                     "growth_omega_imag")
+
+
+
+# ----------------------------------------------------------------------- grid points
+
+
+def _apply(case: Case, settings: Iterable[tuple[ParameterPath, float]]) -> Case:
+    """Apply parameter settings; ``beta_par`` paths last (they read T∥ and n)."""
+    items = list(settings)
+    items.sort(key=lambda t: t[0].quantity == "beta_par")
+    for path, value in items:
+        case = with_parameter(case, path, value)
+    return case
+
+
+def grid_index(shape: tuple[int, ...], index: int) -> tuple[int, int]:
+    """Flat index → (i, j) (j = 0 for a one-parameter sweep); x runs slowest."""
+    if len(shape) == 1:
+        return index, 0
+    return divmod(index, shape[1])
+
+
+def sweep_point(case: Case, index: int) -> dict[str, Any]:
+    """The row of grid point ``index`` (flat, x slowest) of the case's ``[sweep]``.
+
+    A pure function of (case, index).  A point whose parameter values make an invalid
+    case, or whose search fails, is recorded (``converged = false`` with the reason).
+    """
+    spec = case.sweep
+    i, j = grid_index(spec.shape, index)
+    xv = float(spec.x.values[i])
+    yv = float(spec.y.values[j]) if spec.y is not None else math.nan
+    row: dict[str, Any] = {"i": i, "j": j, "x": xv, "y": yv}
+    settings = [(spec.x.path, xv)] + ([(spec.y.path, yv)] if spec.y is not None else [])
+    try:
+        c = _apply(case, settings)
+    except ParameterError as exc:
+        return {**row, "converged": False, "reason": str(exc), "roots_found": 0,
+                "evaluations": 0, "growing": False}
+    g = max_growth(c, spec.angles)
+    units = c.units
+    w_si = complex(units.omega_to_si(g.omega))
+    ld = g.least_damped
+    row.update({
+        "growth_max": g.growth,
+        "growth_omega_real": g.omega.real,
+        "growth_k": g.k,
+        "growth_angle": g.angle,
+        "growth_per_s": w_si.imag,
+        "growth_freq_hz": w_si.real / (2 * math.pi),
+        "growth_k_per_m": float(units.k_to_si(g.k)),
+        "growing": g.growing,
+        "k_at_edge": g.k_at_edge,
+        "angle_at_edge": g.angle_at_edge,
+        "least_damped_omega_real": ld.real if ld is not None else math.nan,
+        "least_damped_omega_imag": ld.imag if ld is not None else math.nan,
+        "least_damped_k": g.least_damped_k,
+        "least_damped_angle": g.least_damped_angle,
+        "roots_found": g.roots_found,
+        "evaluations": g.evaluations,
+        "converged": g.complete,
+        "reason": "; ".join(g.notes) if g.notes else
+        ("" if g.roots_found else "no root in the search window"),
+    })
+    return row
+
+
+
+def threshold_point(case: Case, index: int) -> dict[str, Any]:
+    """Row ``index`` of the ``[threshold]`` curve: pure function of (case, index)."""
+    spec = case.threshold
+    v = float(spec.across.values[index])
+    row: dict[str, Any] = {"j": index, "across": v, "growth_level": spec.growth,
+                           "bracket_low": spec.bracket[0], "bracket_high": spec.bracket[1]}
+    try:
+        c = _apply(case, [(spec.across.path, v)])
+    except ParameterError as exc:
+        return {**row, "converged": False, "reason": str(exc), "brent_iterations": 0}
+    t = find_threshold(c, spec.path, spec.bracket, spec.growth, spec.angles)
+    at = t.at
+    row.update({
+        "threshold": t.value,
+        "growth_k": at.k if at else math.nan,
+        "growth_angle": at.angle if at else math.nan,
+        "growth_omega_real": at.omega.real if at else math.nan,
+        "growth_omega_imag": at.omega.imag if at else math.nan,
+        "growth_at_low": t.growth_low,
+        "growth_at_high": t.growth_high,
+        "brent_iterations": t.iterations,
+        "converged": t.converged,
+        "reason": t.reason,
+    })
+    return row
+
+
+def blank_failed(rows: list[dict[str, Any]], kind: str) -> list[dict[str, Any]]:
+    """Rows for the CSV: value cells emptied (None) where ``converged`` is false."""
+    cols = _SWEEP_VALUES if kind == "sweep" else _THRESHOLD_VALUES
+    out = []
+    for r in rows:
+        r = dict(r)
+        if r.get("converged") is False:
+            for c in cols:
+                r[c] = None
+        out.append(r)
+    return out
+
+
+def check_ranges(case: Case) -> list[str]:
+    """Messages for swept or bracketed values that make an invalid case (before any work).
+
+    Each message names the key path of the table and the value refused.
+    """
+    errors: list[str] = []
+    src = str(case.source) if case.source else "case"
+    checks: list[tuple[str, SweepAxis | None, tuple[float, ...]]] = []
+    if case.sweep is not None:
+        for name, ax in (("sweep.x", case.sweep.x), ("sweep.y", case.sweep.y)):
+            if ax is not None:
+                checks.append((name, ax, (ax.start, ax.stop)))
+    if case.threshold is not None:
+        t = case.threshold
+        checks.append(("threshold.across", t.across, (t.across.start, t.across.stop)))
+        checks.append(("threshold.bracket", None, t.bracket))
+    for where, ax, ends in checks:
+        path = ax.path if ax is not None else case.threshold.path
+        for v in ends:
+            try:
+                with_parameter(case, path, v)
+            except ParameterError as exc:
+                errors.append(f"{src}: {where}: value {v!r} refused: {exc}")
+    return errors
+
+
+def case_hash(case: Case) -> str:
+    """SHA-256 of the case's TOML data in a normalized form (sorted keys, repr floats)."""
+    text = json.dumps(case.raw, sort_keys=True, separators=(",", ":"), default=str)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+# ------------------------------------------------------------------------- execution
+
+_CASE_CACHE: dict[str, Case] = {}
+
+
+def _case_from(raw: dict[str, Any], source: str) -> Case:
+    key = hashlib.sha256(json.dumps(raw, sort_keys=True, default=str).encode()).hexdigest()
+    key += source
+    if key not in _CASE_CACHE:
+        _CASE_CACHE.clear()
+        _CASE_CACHE[key] = parse_case(raw, source)
+    return _CASE_CACHE[key]
+
+
+def compute_point(raw: dict[str, Any], source: str, kind: str, index: int
+                  ) -> tuple[int, dict[str, Any]]:
+    """Worker entry: rebuild the case from its TOML data and solve one point."""
+    case = _case_from(raw, source)
+    if kind == "sweep":
+        return index, sweep_point(case, index)
+    return index, threshold_point(case, index)
+
+
+def run_points(
+    case: Case,
+    kind: str,
+    indices: Sequence[int],
+    on_result: Callable[[int, dict[str, Any]], None],
+    *,
+    workers: int | None = None,
+    scheduler: str | None = None,
+) -> None:
+    """Solve grid points and hand each row to ``on_result(index, row)`` as it completes.
+
+    Parameters
+    ----------
+    case : Case
+        Case with a ``[sweep]`` (kind "sweep") or ``[threshold]`` (kind "threshold").
+    kind : str
+        ``"sweep"`` or ``"threshold"``.
+    indices : sequence of int
+        Points to solve (the caller leaves out finished ones).
+    on_result : callable
+        Called in this process, once per point, in completion order.
+    workers : int, optional
+        Local worker processes (default: the number of cores); 1 runs in this process.
+    scheduler : str, optional
+        Address of a running Dask distributed scheduler; overrides ``workers``.
+
+    Raises
+    ------
+    ConnectionError
+        The scheduler cannot be reached (raised before any point is solved).
+    """
+    source = str(case.source) if case.source is not None else "case"
+    todo = list(indices)
+    if not todo:
+        return
+    if scheduler:
+        _run_dask(case.raw, source, kind, todo, on_result, scheduler)
+        return
+    n = workers or os.cpu_count() or 1
+    if n <= 1 or len(todo) == 1:
+        for i in todo:
+            on_result(*compute_point(case.raw, source, kind, i))
+        return
+    import multiprocessing as mp
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+
+    with ProcessPoolExecutor(max_workers=min(n, len(todo)),
+                             mp_context=mp.get_context("spawn")) as pool:
+        pending = {pool.submit(compute_point, case.raw, source, kind, i) for i in todo}
+        try:
+            while pending:
+                done, pending = wait(pending, return_when=FIRST_COMPLETED)
+                for fut in sorted(done, key=lambda f: f.result()[0]):
+                    on_result(*fut.result())
+        except BaseException:
+            for fut in pending:
+                fut.cancel()
+            raise
+
+
+def _run_dask(raw: dict[str, Any], source: str, kind: str, todo: list[int],
+              on_result: Callable[[int, dict[str, Any]], None], scheduler: str) -> None:
+    from dask.distributed import Client, as_completed
+
+    try:
+        client = Client(scheduler, timeout="10s")
+    except (OSError, TimeoutError) as exc:
+        raise ConnectionError(f"cannot reach the Dask scheduler at {scheduler!r}: {exc}"
+                              ) from None
+    try:
+        futures = client.map(compute_point, [raw] * len(todo), [source] * len(todo),
+                             [kind] * len(todo), todo, pure=False)
+        for fut in as_completed(futures):
+            on_result(*fut.result())
+    finally:
+        client.close()
+
+
+def grid_values(case: Case) -> dict[str, np.ndarray]:
+    """Axis values of the ``[sweep]`` keyed by axis name ("x", "y")."""
+    spec = case.sweep
+    out = {"x": spec.x.values}
+    if spec.y is not None:
+        out["y"] = spec.y.values
+    return out
+
+
+def current_values(case: Case) -> dict[str, float]:
+    """The case's own values of the swept parameters (for the summary)."""
+    spec = case.sweep
+    return {a.path.text: parameter_value(case, a.path) for a in spec.axes}
