@@ -2,7 +2,7 @@
 
 Expected values are independent of kinroots: numpy.linspace/geomspace for the k grid,
 scipy.constants for masses; the error classes come from the case-file contract in
-DESIGN.md ("User-facing contract") and casefile.DEFAULTS.
+docs/design.md ("User-facing contract") and casefile.DEFAULTS.
 """
 
 from __future__ import annotations

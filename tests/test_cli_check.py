@@ -1,6 +1,6 @@
 """`kinroots check` and `kinroots plasma` through typer's CliRunner.
 
-Contract (DESIGN.md, "User-facing contract"): exit 0 done, 2 bad input with one clear
+Contract (docs/design.md, "User-facing contract"): exit 0 done, 2 bad input with one clear
 message per problem and never a traceback; data on stdout, messages on stderr.
 """
 

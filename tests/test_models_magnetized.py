@@ -84,7 +84,7 @@ def test_es_equals_longitudinal_part_of_em():
     """k̂·χ·k̂ of the tensor equals the separately derived electrostatic χ.
 
     Source: common practice (χ_ES = k·χ·k/k² from continuity and E = −ik φ; Stix 1992,
-    §11-?, from memory). Random complex ω, angles (both signs of k∥, k∥ = 0), drifts,
+    ch. 11, from memory). Random complex ω, angles (both signs of k∥, k∥ = 0), drifts,
     anisotropies, B of both signs.
     """
     rng = np.random.default_rng(20240611)

@@ -404,7 +404,7 @@ def test_nan_and_zero_k_give_non_finite() -> None:
 
 
 def test_broadcast_over_k() -> None:
-    # Source: contract (STYLE: builders broadcast ω against k).
+    # Source: builder contract (DEVELOPERS.md: builders broadcast ω against k).
     sp = electron(1.0, 2.0, 1e5)
     k = np.array([1e3, 2e3 + 10j, 5e3])
     om = np.array([1e9 + 1e8j])

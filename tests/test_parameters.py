@@ -39,7 +39,7 @@ def test_anisotropy_keeps_t_par(case):
 
 
 def test_beta_par_is_set_through_b(case):
-    # β∥ = 2 μ0 n T∥ / B² (DESIGN.md conventions): recompute by hand from the new B.
+    # β∥ = 2 μ0 n T∥ / B² (docs/design.md, conventions): recompute by hand from the new B.
     c = with_parameter(case, "species.p.beta_par", 2.0)
     n, t = 5.0e6, 10.0
     assert 2 * MU0 * n * t * EV / c.plasma.B**2 == pytest.approx(2.0, rel=1e-9)

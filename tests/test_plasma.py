@@ -64,7 +64,7 @@ def test_ion_plasma_frequency_nrl() -> None:
 def test_cyclotron_frequencies_nrl() -> None:
     # f_ce = 2.80e6 B Hz, f_ci = 1.52e3 Z μ^-1 B Hz  (NRL Plasma Formulary, from memory)
     B = 1 * GAUSS
-    assert electron().cyclotron_frequency(B) < 0  # signed (DESIGN.md convention)
+    assert electron().cyclotron_frequency(B) < 0  # signed (docs/design.md, conventions)
     printed(abs(electron().cyclotron_frequency(B)) / (2 * np.pi), 2.80e6)
     printed(ion(mu=4.0, z=2.0).cyclotron_frequency(B) / (2 * np.pi) * 4.0 / 2.0, 1.52e3)
 

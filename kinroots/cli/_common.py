@@ -15,7 +15,7 @@ import typer
 
 from kinroots.io.case import Case, CaseError, default_case_path, load_case
 
-#: Exit code for bad input (see DESIGN.md, "User-facing contract").
+#: Exit code for bad input (docs/design.md, "Exit codes").
 EXIT_BAD_INPUT = 2
 
 app = typer.Typer(

@@ -32,7 +32,7 @@ RESULT_COLUMNS: tuple[str, ...] = (
 )
 
 #: Columns of ``branches.csv`` and ``roots.csv``, in order.  The first ten are the
-#: contract of DESIGN.md; then how each root was obtained; then the mode identity
+#: contract of docs/design.md; then how each root was obtained; then the mode identity
 #: (kinroots.physics.modes), followed by one ``density_abs_<s>``, ``density_phase_deg_<s>`` pair
 #: per species, appended by rows_to_csv (see PER_SPECIES_PREFIXES).
 ROOT_COLUMNS: tuple[str, ...] = (

@@ -73,8 +73,9 @@ def susceptibility(
             = 2ω_p²/(k²w∥²) [1 + Σ_n Γ_n (ω − k∥V − nΩ(1 − T∥/T⊥))/(k∥w∥) Z(ζ_n)],
 
     derived from χ = (ω_p²/k²) Σ_n ∫d³v J_n²(k⊥v⊥/Ω)[(nΩ/v⊥)∂f/∂v⊥ + k∥∂f/∂v∥]
-    /(ω − k∥v∥ − nΩ) (Stix 1992, eq. 11-? for the electrostatic limit, from memory;
-    Gary 1993, eq. 2.? for the drifting bi-Maxwellian, from memory). The first form is
+    /(ω − k∥v∥ − nΩ) (Stix 1992, ch. 11, for the electrostatic limit, from memory;
+    Gary 1993, ch. 2, for the drifting bi-Maxwellian, from memory; equation numbers not
+    recalled). The first form is
     the one coded (1 + ζZ = −Z'/2 comes accurate from :mod:`kinroots.physics.zfunc`);
     dχ/dω uses d(1 + ζZ)/dζ = Z + ζZ' and dZ/dζ = Z'.
 
