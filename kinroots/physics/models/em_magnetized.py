@@ -86,8 +86,8 @@ def susceptibility(
     for f = F⊥(v⊥)F∥(v∥ − V), using ⟨J_n²⟩ = Γ_n, ⟨v⊥J_nJ_n'⟩ = (k⊥w⊥²/2Ω)Γ_n',
     ⟨v⊥²J_n'²⟩ = (w⊥²/2)(n²Γ_n/λ − 2λΓ_n') over F⊥ and the parallel moments
     ⟨1, t, t²⟩/(t − ζ) → Z, F, ζF. It agrees with the drifting bi-Maxwellian tensor of
-    Gary (1993, ch. 7, from memory) and reduces to Stix (1992, ch. 10–11, from memory) for V = 0; the
-    form Φ_n above shows the textbook bracket ξZ_n + A(1 + ζ_nZ_n), A = T⊥/T∥ − 1.
+    Gary (1993, ch. 7, from memory) and reduces to Stix (1992, ch. 10–11, from memory)
+    for V = 0; the form Φ_n above shows the textbook bracket ξZ_n + A(1 + ζ_nZ_n), A = T⊥/T∥ − 1.
     χ_zx = χ_xz and χ_zy = −χ_yz hold term by term up to Σ_nΓ_n' = 0 (exact identity),
     even with drift. dχ/dω follows by differentiating each factor (dZ/dζ = Z',
     dF/dζ = Z + ζZ', dP/dω = −2P/ω).
