@@ -6,7 +6,7 @@ VENV   ?= .venv
 PY     := $(VENV)/bin/python
 OUT    ?= kinroots-out
 
-.PHONY: run test lint bench validation clean
+.PHONY: run test lint docs bench validation clean
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
@@ -18,6 +18,10 @@ $(VENV)/.installed: pyproject.toml | $(PY)
 
 $(VENV)/.installed-test: pyproject.toml | $(PY)
 	$(PY) -m pip install -q -e ".[test]"
+	@touch $@ $(VENV)/.installed
+
+$(VENV)/.installed-docs: pyproject.toml | $(PY)
+	$(PY) -m pip install -q -e ".[docs]"
 	@touch $@ $(VENV)/.installed
 
 run: $(VENV)/.installed
@@ -32,6 +36,10 @@ test: $(VENV)/.installed-test
 lint: $(VENV)/.installed-test
 	$(VENV)/bin/ruff check kinroots tests benchmarks
 
+# the API reference from the docstrings (Sphinx + numpydoc), warnings are errors
+docs: $(VENV)/.installed-docs
+	$(VENV)/bin/sphinx-build -q -W --keep-going -b html docs/api docs/api/_build
+
 bench: $(VENV)/.installed-test
 	@for b in benchmarks/bench_*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
 
@@ -40,4 +48,4 @@ validation: $(VENV)/.installed-test
 	$(PY) docs/make_validation.py
 
 clean:
-	rm -rf $(OUT) build dist *.egg-info .pytest_cache .ruff_cache .hypothesis
+	rm -rf $(OUT) build dist docs/api/_build *.egg-info .pytest_cache .ruff_cache .hypothesis
