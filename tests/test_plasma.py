@@ -265,3 +265,19 @@ def test_derived_quantities_keys_and_normalized_values() -> None:
     # w_e = sqrt(2) ω_pe λ_De for w = sqrt(2T/m) (common practice)
     assert e["normalized"]["thermal_speed_par"] == pytest.approx(np.sqrt(2), rel=1e-14)
     assert d["units"]["omega_unit_rad_per_s"] == u.omega_unit
+
+
+def test_constants_are_scipys_codata() -> None:
+    # the module writes the CODATA values out (to keep scipy out of its import); they must
+    # be exactly those of scipy.constants (CODATA 2022 in scipy >= 1.15)
+    from scipy import constants as const
+
+    from kinroots.physics import plasma
+
+    pairs = {
+        "E_CHARGE": const.e, "EPS0": const.epsilon_0, "MU0": const.mu_0, "C_LIGHT": const.c,
+        "M_ELECTRON": const.m_e, "M_PROTON": const.m_p, "AMU": const.atomic_mass,
+        "EV": const.electron_volt,
+    }
+    for name, value in pairs.items():
+        assert getattr(plasma, name) == value, name

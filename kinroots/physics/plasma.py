@@ -7,8 +7,11 @@ Conventions (see DEVELOPERS.md and every output's metadata):
 * ``Omega_s = q_s B / m_s``, signed (negative for electrons);
 * B along z; drifts along z.
 
-Inputs are SI with temperatures in eV.  Constants come from ``scipy.constants``
-(CODATA).
+Inputs are SI with temperatures in eV.  Constants are the CODATA 2022 recommended
+values (Mohr et al., CODATA 2022, NIST SP 961), written out here rather than imported
+from ``scipy.constants`` so that loading this module (and hence ``kinroots check`` or
+``--help``) does not import scipy; tests/test_plasma.py checks them against
+``scipy.constants``.
 
 References
 ----------
@@ -28,25 +31,23 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy import constants as const
-from scipy.optimize import brentq
 
-#: Elementary charge [C].
-E_CHARGE: float = const.e
-#: Vacuum permittivity [F/m].
-EPS0: float = const.epsilon_0
-#: Vacuum permeability [H/m].
-MU0: float = const.mu_0
-#: Speed of light [m/s].
-C_LIGHT: float = const.c
-#: Electron mass [kg].
-M_ELECTRON: float = const.m_e
-#: Proton mass [kg].
-M_PROTON: float = const.m_p
-#: Atomic mass unit [kg].
-AMU: float = const.atomic_mass
-#: One electronvolt in joules.
-EV: float = const.electron_volt
+#: Elementary charge [C] (exact in the SI since 2019).
+E_CHARGE: float = 1.602176634e-19
+#: Vacuum permittivity [F/m] (CODATA 2022).
+EPS0: float = 8.8541878188e-12
+#: Vacuum permeability [H/m] (CODATA 2022).
+MU0: float = 1.25663706127e-06
+#: Speed of light [m/s] (exact).
+C_LIGHT: float = 299792458.0
+#: Electron mass [kg] (CODATA 2022).
+M_ELECTRON: float = 9.1093837139e-31
+#: Proton mass [kg] (CODATA 2022).
+M_PROTON: float = 1.67262192595e-27
+#: Atomic mass unit [kg] (CODATA 2022).
+AMU: float = 1.66053906892e-27
+#: One electronvolt in joules (exact).
+EV: float = 1.602176634e-19
 
 
 @dataclass(frozen=True)
@@ -259,6 +260,8 @@ class Plasma:
                 else:
                     total -= wp2 * (x - lo) * (hi - x) / (x - pole)
             return total
+
+        from scipy.optimize import brentq  # here: importing it costs ~0.4 s of start-up
 
         x = brentq(g, lo, hi, xtol=1e-300, rtol=4 * np.finfo(float).eps, maxiter=200)
         return float(np.sqrt(x * scale))
@@ -481,7 +484,7 @@ CONVENTIONS: dict[str, str] = {
     "alfven_speed": "v_A = B / sqrt(μ0 Σ n m)",
     "lower_hybrid_frequency": "root of cold-plasma S(ω) = 0 just below the largest |Ω|",
     "geometry": "B along z; k = (k⊥, 0, k∥)",
-    "constants": "scipy.constants (CODATA)",
+    "constants": "CODATA 2022 (the values of scipy.constants)",
 }
 
 
