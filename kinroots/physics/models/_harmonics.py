@@ -391,10 +391,29 @@ class HarmonicSums(NamedTuple):
 
 
 def harmonic_sums(om: np.ndarray, weights: BesselWeights) -> HarmonicSums:
-    """The :class:`HarmonicSums` for ω (result shape) and shared or per-element weights."""
+    """The :class:`HarmonicSums` for ω (result shape) and shared or per-element weights.
+
+    The sums are ``np.vecdot`` contractions (one dot product per result element, which
+    BLAS never splits across threads), not matrix products: the operands are small
+    ((ω, 2N+1) against (2N+1, a few)), and a multithreaded BLAS matrix-vector product on
+    such shapes costs more in thread hand-offs than it saves, the more so on a loaded
+    machine (issue 14). ``np.einsum`` would avoid BLAS too, but is 5-15 times slower on
+    complex operands (measured).
+    """
     if weights.gamma.ndim == 1:
-        return HarmonicSums(om[..., None], np.matmul, _total_shared)
+        return HarmonicSums(om[..., None], hdot, _total_shared)
     return HarmonicSums(om, _dot_rows, _total_rows)
+
+
+def hdot(x: np.ndarray, w: np.ndarray) -> np.ndarray:
+    """Σ_n x_n w_n over the last axis of ``x`` and the first of ``w`` (shared weights).
+
+    ``x`` (..., H) with ``w`` (H,) gives (...); with ``w`` (H, c) it gives (..., c).
+    ``np.vecdot`` conjugates its first argument, hence ``w`` is conjugated first.
+    """
+    if w.ndim == 1:
+        return np.vecdot(w.conj(), x)
+    return np.vecdot(w.T.conj(), x[..., None, :])
 
 
 def _total_shared(w: np.ndarray) -> np.ndarray:
@@ -410,8 +429,8 @@ def _total_rows(w: np.ndarray) -> np.ndarray:
 def _dot_rows(x: np.ndarray, w: np.ndarray) -> np.ndarray:
     """Σ_n over rows: x (..., E, H) with w (E, H) → (..., E, 1), w (E, H, c) → (..., E, 1, c)."""
     if w.ndim == 2:
-        return (x[..., None, :] @ w[..., None])[..., 0]
-    return x[..., None, :] @ w
+        return np.vecdot(w.conj(), x)[..., None]
+    return np.vecdot(np.swapaxes(w, -1, -2).conj(), x[..., None, :])[..., None, :]
 
 
 def nan_susceptibility(shape: tuple[int, ...], harmonics: int) -> Susceptibility:

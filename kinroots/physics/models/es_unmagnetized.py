@@ -543,8 +543,9 @@ class SpeciesSum:
             zeta = (om.reshape(1, -1) - shift) / kappa
             m1, dm1 = first_moment(zeta.ravel())
             n = zeta.shape[1]
-            value = coef @ m1.reshape(-1, n)
-            derivative = dcoef @ dm1.reshape(-1, n)
+            # Σ_s as dot products (np.vecdot conjugates its first argument): no BLAS threads
+            value = np.vecdot(coef.conj()[:, None], m1.reshape(-1, n), axis=0)
+            derivative = np.vecdot(dcoef.conj()[:, None], dm1.reshape(-1, n), axis=0)
         return value.reshape(om.shape), derivative.reshape(om.shape)
 
     def _scalar_sum(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from kinroots.physics.models._harmonics import landau_sign, prepare_species
+from kinroots.physics.models._harmonics import hdot, landau_sign, prepare_species
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.models.es_unmagnetized import landau_moments, thermal_speeds_squared
 from kinroots.physics.plasma import Species
@@ -358,10 +358,10 @@ def magnetized_parts(
     with np.errstate(all="ignore"):
         if kpar == 0:
             r = 1.0 / (om[..., None] - n_om + 1j * nu)
-            n = -(wp2 / omega_c) * (r @ wt.g)
-            dn = (wp2 / omega_c) * ((r * r) @ wt.g)
-            q = ((om[..., None] - n_om) * r) @ wt.gamma  # Σ Γ_n (ω − nΩ)/(ω − nΩ + iν)
-            dq = 1j * nu * ((r * r) @ wt.gamma)
+            n = -(wp2 / omega_c) * hdot(r, wt.g)
+            dn = (wp2 / omega_c) * hdot(r * r, wt.g)
+            q = hdot((om[..., None] - n_om) * r, wt.gamma)  # Σ Γ_n (ω − nΩ)/(ω − nΩ + iν)
+            dq = 1j * nu * hdot(r * r, wt.gamma)
         else:
             s = landau_sign(kpar)
             a = kpar * w
@@ -371,8 +371,8 @@ def magnetized_parts(
             f = -0.5 * zp
             fp = zf + (s * zt) * zp
             c = 2.0 * wp2 / ((kperp * kperp + kpar * kpar) * w * w)
-            n = c * ((f + (1.0 / a) * (n_om * zf)) @ wt.gamma)
-            dn = c * ((fp / a + (1.0 / (a * a)) * (n_om * zp)) @ wt.gamma)
+            n = c * hdot(f + (1.0 / a) * (n_om * zf), wt.gamma)
+            dn = c * hdot(fp / a + (1.0 / (a * a)) * (n_om * zp), wt.gamma)
             if nu == 0.0:
                 q = np.ones_like(om)
                 dq = np.zeros_like(om)
@@ -380,8 +380,8 @@ def magnetized_parts(
                 # Q = Σ Γ_n [1 + ζ_n Z − ((ω − k∥V − nΩ)/a) Z] (Σ Γ_n = 1): the same pieces
                 # as N, so that N = Q/(k²λ_D²) holds to rounding at ω = k∥V for any ν
                 shift = (om[..., None] - kpar * species.drift - n_om) / a
-                q = (f - shift * zf) @ wt.gamma
-                dq = (1j * nu / (a * a)) * (zp @ wt.gamma)
+                q = hdot(f - shift * zf, wt.gamma)
+                dq = (1j * nu / (a * a)) * hdot(zp, wt.gamma)
         bad = ~np.isfinite(om)
         if bad.any():
             n, dn, q, dq = (np.where(bad, np.nan + 0j, x) for x in (n, dn, q, dq))
