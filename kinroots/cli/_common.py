@@ -9,7 +9,7 @@ Data go to stdout; messages to stderr.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import Annotated, NoReturn
 
 import typer
 
@@ -44,6 +44,14 @@ def err(message: str) -> None:
     typer.echo(message, err=True)
 
 
+def _refuse(errors: list[str], case: Path) -> NoReturn:
+    for line in errors:
+        err(f"error: {line}")
+    n = len(errors)
+    err(f"kinroots: {n} problem{'s' if n != 1 else ''} in {case}; nothing done")
+    raise typer.Exit(EXIT_BAD_INPUT)
+
+
 def load_case_or_exit(case: Path | None, use_default: bool = False) -> Case:
     """Load ``case`` (or the embedded default), print its warnings; exit 2 on bad input.
 
@@ -63,12 +71,16 @@ def load_case_or_exit(case: Path | None, use_default: bool = False) -> Case:
     try:
         loaded = load_case(case)
     except CaseError as exc:
-        for line in exc.errors:
-            err(f"error: {line}")
-        n = len(exc.errors)
-        err(f"kinroots: {n} problem{'s' if n != 1 else ''} in {case}; nothing done")
-        raise typer.Exit(EXIT_BAD_INPUT) from None
-    for line in loaded.warnings:
+        _refuse(exc.errors, case)
+    warnings = list(loaded.warnings)
+    if loaded.sweep is not None or loaded.threshold is not None:
+        from kinroots.io.parameters import check_study_ranges
+
+        errors, corner_warnings = check_study_ranges(loaded)
+        if errors:
+            _refuse(errors, case)
+        warnings += corner_warnings
+    for line in warnings:
         err(f"warning: {case}: {line}")
     return loaded
 

@@ -16,6 +16,8 @@ from __future__ import annotations
 
 import difflib
 import math
+import os
+import stat
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
@@ -26,9 +28,20 @@ from typing import Any
 import numpy as np
 
 from kinroots.io.checker import Checker, _show
+from kinroots.io.limits import (
+    LIMITS,
+    MAX_CASE_BYTES,
+    MAX_DEPTH,
+    MAX_LAUNCH_POINTS,
+    MAX_SCAN_POINTS,
+    PLAUSIBLE,
+    finite_float,
+    title_problem,
+)
 from kinroots.io.species_tables import _check_species
 from kinroots.io.study_tables import check_study_tables
 from kinroots.physics.plasma import (
+    AMU,
     C_LIGHT,
     E_CHARGE,
     FREQUENCY_KINDS,
@@ -234,7 +247,20 @@ def load_case(path: str | Path) -> Case:
     p = Path(path)
     name = str(p)
     try:
-        data = p.read_bytes()
+        info = os.stat(p)
+        if stat.S_ISDIR(info.st_mode):
+            raise IsADirectoryError
+        if not stat.S_ISREG(info.st_mode):
+            raise CaseError([f"{name}: not a regular file (a device, pipe or socket); "
+                             "expected a TOML case file"])
+        if info.st_size > MAX_CASE_BYTES:
+            raise CaseError([f"{name}: {info.st_size} bytes; expected a TOML case file of "
+                             f"at most {MAX_CASE_BYTES} bytes"])
+        with open(p, "rb") as fh:
+            data = fh.read(MAX_CASE_BYTES + 1)
+        if len(data) > MAX_CASE_BYTES:
+            raise CaseError([f"{name}: more than {MAX_CASE_BYTES} bytes; expected a TOML "
+                             "case file below that size"])
     except FileNotFoundError:
         raise CaseError([f"{name}: file not found"]) from None
     except IsADirectoryError:
@@ -253,6 +279,12 @@ def load_case(path: str | Path) -> Case:
         parsed = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise CaseError([f"{name}: not valid TOML: {exc}"]) from None
+    except ValueError as exc:  # e.g. an integer beyond Python's int-string limit
+        raise CaseError([f"{name}: not usable TOML: {exc}; expected numbers of ordinary "
+                         "size"]) from None
+    except RecursionError:
+        raise CaseError([f"{name}: arrays or tables nested too deeply; expected at most "
+                         f"{MAX_DEPTH} levels"]) from None
     case = parse_case(parsed, name)
     return _with_source(case, p)
 
@@ -313,6 +345,9 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
     chk = Checker(source)
     if not isinstance(data, dict):
         raise CaseError([f"{source}: expected a TOML document (a table of keys)"])
+    if _depth(data) > MAX_DEPTH:
+        raise CaseError([f"{source}: arrays or tables nested more than {MAX_DEPTH} levels "
+                         "deep; expected a case file (at most a few levels)"])
     chk.unknown_keys(data, _TOP_KEYS, "")
 
     title = data.get("title")
@@ -320,18 +355,13 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         chk.missing("title", "a non-empty string")
     elif not isinstance(title, str) or not title.strip():
         chk.bad("title", title, "a non-empty string")
+    elif title_problem(title):
+        chk.bad("title", title, f"a printable one-line text ({title_problem(title)})")
 
     mf = chk.table(data, "magnetic_field", "magnetic_field", required=False) or {}
     chk.unknown_keys(mf, _TABLE_KEYS["magnetic_field"], "magnetic_field")
-    B = chk.number(
-        mf,
-        "B",
-        "magnetic_field.B",
-        "a number >= 0 (tesla)",
-        default=0.0,
-        required=False,
-        check=lambda x: x >= 0,
-    )
+    B = chk.ranged(mf, "B", "magnetic_field.B", LIMITS["magnetic_field.B"], default=0.0,
+                   required=False, note="0: unmagnetized")
 
     species = _check_species(chk, data)
 
@@ -352,8 +382,9 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
 
     search = chk.table(data, "search", "search", required=True) or {}
     chk.unknown_keys(search, _TABLE_KEYS["search"], "search")
-    real = chk.window(search, "real", "search.real") if "search" in data else None
-    imag = chk.window(search, "imag", "search.imag") if "search" in data else None
+    wlim = LIMITS["search"]
+    real = chk.window(search, "real", "search.real", wlim) if "search" in data else None
+    imag = chk.window(search, "imag", "search.imag", wlim) if "search" in data else None
 
     solver = _check_solver(chk, data)
     launch = _check_launch(chk, data)
@@ -384,6 +415,14 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
                 "at the shifted harmonics n*Omega - i*nu that the root finder cannot "
                 "exclude; expected 0 here, or wave.angle != 90",
             )
+
+    for i, s in enumerate(species, start=1):
+        if s is not None and max(s.thermal_speed_par, s.thermal_speed_perp) >= C_LIGHT:
+            t_max = 0.5 * s.mass * C_LIGHT**2 / E_CHARGE
+            chk.error(f"species[{i}].temperature",
+                      f"got T = {max(s.temperature_par, s.temperature_perp):g} eV: thermal "
+                      "speed sqrt(2T/m) at or above c, outside the non-relativistic model; "
+                      f"expected T < m c^2 / 2 = {t_max:.4g} eV")
 
     # units: need the species names (validated or not) and B
     units_tab = chk.table(data, "units", "units", required=False) or {}
@@ -451,7 +490,7 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         solver=solver,
         source=None,
         raw=data,
-        warnings=tuple(_physics_warnings(plasma)),
+        warnings=tuple(_physics_warnings(plasma) + _plausibility_warnings(plasma)),
         launch=launch,
         sweep=sweep_spec,
         threshold=threshold_spec,
@@ -471,13 +510,10 @@ def _check_scan(chk: Checker, data: Mapping[str, Any]) -> ScanSpec | None:
     if k is None:
         return None
     chk.unknown_keys(k, _TABLE_KEYS["scan.k"], "scan.k")
-    start = chk.number(
-        k, "start", "scan.k.start", "a number > 0 (normalized k)", check=lambda x: x > 0
-    )
-    stop = chk.number(
-        k, "stop", "scan.k.stop", "a number > 0 (normalized k)", check=lambda x: x > 0
-    )
-    points = chk.integer(k, "points", "scan.k.points", "an integer >= 1", minimum=1)
+    start = chk.ranged(k, "start", "scan.k.start", LIMITS["scan.k"])
+    stop = chk.ranged(k, "stop", "scan.k.stop", LIMITS["scan.k"])
+    points = chk.integer(k, "points", "scan.k.points", "an integer >= 1", minimum=1,
+                         maximum=MAX_SCAN_POINTS)
     spacing = chk.choice(
         k, "spacing", "scan.k.spacing", _SPACINGS, default="linear", required=False
     )
@@ -504,8 +540,9 @@ def _check_launch(chk: Checker, data: Mapping[str, Any]) -> LaunchSpec | None:
         chk.missing("launch.frequency", expected)
     elif isinstance(tab["frequency"], list):
         values = tab["frequency"]
-        good = values and all(
-            not isinstance(v, bool) and isinstance(v, int | float) and math.isfinite(v) and v > 0
+        good = values and len(values) <= MAX_LAUNCH_POINTS and all(
+            not isinstance(v, bool) and isinstance(v, int | float)
+            and LIMITS["launch.frequency"](finite_float(v) or 0.0)
             for v in values
         )
         if not good:
@@ -518,9 +555,10 @@ def _check_launch(chk: Checker, data: Mapping[str, Any]) -> LaunchSpec | None:
         f = tab["frequency"]
         p = "launch.frequency"
         chk.unknown_keys(f, _TABLE_KEYS["launch.frequency"], p)
-        start = chk.number(f, "start", f"{p}.start", "a number > 0 (Hz)", check=lambda x: x > 0)
-        stop = chk.number(f, "stop", f"{p}.stop", "a number > 0 (Hz)", check=lambda x: x > 0)
-        points = chk.integer(f, "points", f"{p}.points", "an integer >= 1", minimum=1)
+        start = chk.ranged(f, "start", f"{p}.start", LIMITS["launch.frequency"])
+        stop = chk.ranged(f, "stop", f"{p}.stop", LIMITS["launch.frequency"])
+        points = chk.integer(f, "points", f"{p}.points", "an integer >= 1", minimum=1,
+                             maximum=MAX_LAUNCH_POINTS)
         spacing = chk.choice(f, "spacing", f"{p}.spacing", _SPACINGS, default="linear",
                              required=False)
         if start is not None and stop is not None and points is not None and spacing:
@@ -533,7 +571,8 @@ def _check_launch(chk: Checker, data: Mapping[str, Any]) -> LaunchSpec | None:
         chk.bad("launch.frequency", tab["frequency"], expected)
     boxes = []
     for key, default in (("k_real", (0.01, 2.0)), ("k_imag", (-0.01, 0.5))):
-        boxes.append(chk.window(tab, key, f"launch.{key}") if key in tab else default)
+        boxes.append(chk.window(tab, key, f"launch.{key}", LIMITS["launch.k"])
+                     if key in tab else default)
     if boxes[0] is not None and boxes[0][0] <= 0:
         chk.error("launch.k_real", f"got {list(boxes[0])!r}, expected 0 < min < max "
                   "(the spatial search box lies in Re k > 0)")
@@ -547,30 +586,18 @@ def _check_solver(chk: Checker, data: Mapping[str, Any]) -> SolverOptions:
     tab = chk.table(data, "solver", "solver", required=False) or {}
     chk.unknown_keys(tab, _TABLE_KEYS["solver"], "solver")
     d = SolverOptions()
-    tol = chk.number(
-        tab,
-        "tolerance",
-        "solver.tolerance",
-        "a number in (0, 1)",
-        default=d.tolerance,
-        required=False,
-        check=lambda x: 0 < x < 1,
-    )
-    htol = chk.number(
-        tab,
-        "harmonic_tolerance",
-        "solver.harmonic_tolerance",
-        "a number in (0, 1)",
-        default=d.harmonic_tolerance,
-        required=False,
-        check=lambda x: 0 < x < 1,
-    )
+    tol = chk.ranged(tab, "tolerance", "solver.tolerance", LIMITS["solver.tolerance"],
+                     default=d.tolerance, required=False, note="relative, on omega")
+    htol = chk.ranged(tab, "harmonic_tolerance", "solver.harmonic_tolerance",
+                      LIMITS["solver.harmonic_tolerance"], default=d.harmonic_tolerance,
+                      required=False)
     every = chk.integer(
         tab,
         "resurvey_every",
         "solver.resurvey_every",
         "an integer >= 0 (0: never re-survey)",
         minimum=0,
+        maximum=MAX_SCAN_POINTS,
         default=d.resurvey_every,
         required=False,
     )
@@ -579,6 +606,33 @@ def _check_solver(chk: Checker, data: Mapping[str, Any]) -> SolverOptions:
         harmonic_tolerance=d.harmonic_tolerance if htol is None else htol,
         resurvey_every=d.resurvey_every if every is None else every,
     )
+
+
+def _depth(node: Any, level: int = 0) -> int:
+    """Nesting depth of tables and arrays (stops counting past `MAX_DEPTH`)."""
+    if level > MAX_DEPTH or not isinstance(node, dict | list):
+        return level
+    children = node.values() if isinstance(node, dict) else node
+    return max((_depth(c, level + 1) for c in children), default=level + 1)
+
+
+def _plausibility_warnings(plasma: Plasma) -> list[str]:
+    """Values inside the hard limits but outside `PLAUSIBLE` (physically unusual)."""
+    out: list[str] = []
+    if not PLAUSIBLE["magnetic_field.B"](plasma.B):
+        out.append(f"magnetic_field.B = {plasma.B:g} T is outside the usual range "
+                   f"{PLAUSIBLE['magnetic_field.B'].expected()}; check the unit (tesla)")
+    for s in plasma.species:
+        amu = s.mass / AMU
+        for key, value, unit in (("mass", amu, "u"), ("density", s.density, "m^-3"),
+                                 ("temperature", s.temperature_par, "eV"),
+                                 ("temperature", s.temperature_perp, "eV")):
+            r = PLAUSIBLE[f"species.{key}"]
+            if not r(value):
+                out.append(f"species {s.name!r}: {key} {value:g} {unit} is outside the usual "
+                           f"range {r.expected()}; check the unit")
+                break
+    return out
 
 
 def _physics_warnings(plasma: Plasma) -> list[str]:

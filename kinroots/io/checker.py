@@ -7,9 +7,10 @@ the source, the key path, the value found and what was expected.
 from __future__ import annotations
 
 import difflib
-import math
 from collections.abc import Mapping
 from typing import Any
+
+from kinroots.io.limits import Range, finite_float
 
 
 def _show(value: Any) -> str:
@@ -92,11 +93,27 @@ class Checker:
         if isinstance(value, bool) or not isinstance(value, int | float):
             self.bad(path, value, expected)
             return None
-        x = float(value)
-        if not math.isfinite(x) or (check is not None and not check(x)):
+        x = finite_float(value)
+        if x is None or (check is not None and not check(x)):
             self.bad(path, value, expected)
             return None
         return x
+
+    def ranged(
+        self,
+        data: Mapping[str, Any],
+        key: str,
+        path: str,
+        limit: Range,
+        *,
+        default: float | None = None,
+        required: bool = True,
+        note: str = "",
+    ) -> float | None:
+        """A number inside a documented `Range` (message names the limit)."""
+        expected = limit.expected() + (f" ({note})" if note else "")
+        return self.number(data, key, path, expected, default=default, required=required,
+                           check=limit)
 
     def integer(
         self,
@@ -106,6 +123,7 @@ class Checker:
         expected: str,
         *,
         minimum: int,
+        maximum: int | None = None,
         default: int | None = None,
         required: bool = True,
     ) -> int | None:
@@ -116,6 +134,9 @@ class Checker:
         value = data[key]
         if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
             self.bad(path, value, expected)
+            return None
+        if maximum is not None and value > maximum:
+            self.bad(path, value, f"{expected}, at most {maximum} (size limit)")
             return None
         return value
 
@@ -145,8 +166,11 @@ class Checker:
             return None
         return value
 
-    def window(self, data: Mapping[str, Any], key: str, path: str) -> tuple[float, float] | None:
+    def window(self, data: Mapping[str, Any], key: str, path: str,
+               limit: Range | None = None) -> tuple[float, float] | None:
         expected = "[min, max], two finite numbers with min < max"
+        if limit is not None:
+            expected += f", each with |x| <= {limit.hi:g}"
         if key not in data:
             self.missing(path, expected)
             return None
@@ -155,11 +179,14 @@ class Checker:
             not isinstance(value, list)
             or len(value) != 2
             or any(isinstance(v, bool) or not isinstance(v, int | float) for v in value)
-            or not all(math.isfinite(float(v)) for v in value)
+            or any(finite_float(v) is None for v in value)
         ):
             self.bad(path, value, expected)
             return None
         lo, hi = float(value[0]), float(value[1])
+        if limit is not None and not (limit(lo) and limit(hi)):
+            self.bad(path, value, expected)
+            return None
         if not lo < hi:
             self.error(path, f"got {_show(value)}, expected min < max")
             return None

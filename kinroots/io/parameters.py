@@ -165,3 +165,59 @@ def with_parameter(case: Case, path: str | ParameterPath, value: float) -> Case:
     return new
 
 
+
+
+def _corner_settings(case: Case) -> list[tuple[str, list[tuple[ParameterPath, float]]]]:
+    """Every combination of axis ends of ``[sweep]`` and ``[threshold]``, described."""
+    out: list[tuple[str, list[tuple[ParameterPath, float]]]] = []
+    groups: list[list[tuple[str, ParameterPath, tuple[float, ...]]]] = []
+    if case.sweep is not None:
+        groups.append([(name, ax.path, (ax.start, ax.stop))
+                       for name, ax in (("sweep.x", case.sweep.x), ("sweep.y", case.sweep.y))
+                       if ax is not None])
+    if case.threshold is not None:
+        t = case.threshold
+        groups.append([("threshold.across", t.across.path, (t.across.start, t.across.stop)),
+                       ("threshold.bracket", t.path, t.bracket)])
+    for axes in groups:
+        combos: list[list[tuple[str, ParameterPath, float]]] = [[]]
+        for name, path, ends in axes:
+            combos = [c + [(name, path, v)] for c in combos for v in ends]
+        for combo in combos:
+            what = ", ".join(f"{name} {path.text} = {v:g}" for name, path, v in combo)
+            out.append((what, [(path, v) for _, path, v in combo]))
+    return out
+
+
+def with_parameters(case: Case, settings: list[tuple[ParameterPath, float]]) -> Case:
+    """`with_parameter` for several settings; ``beta_par`` paths last (they read T∥, n)."""
+    for path, value in sorted(settings, key=lambda t: t[0].quantity == "beta_par"):
+        case = with_parameter(case, path, value)
+    return case
+
+
+def check_study_ranges(case: Case) -> tuple[list[str], list[str]]:
+    """Errors and warnings of the plasmas at every corner of ``[sweep]`` / ``[threshold]``.
+
+    The limits of the case file are intervals, so a linear or log grid whose corners
+    are valid cases is valid at every point.  Returns messages naming the table keys
+    and values; the warnings are those (e.g. quasi-neutrality) that the base case does
+    not already give.
+    """
+    errors: list[str] = []
+    warnings: list[str] = []
+    src = str(case.source) if case.source else "case"
+    refused: set[str] = set()
+    for what, settings in _corner_settings(case):
+        try:
+            corner = with_parameters(case, settings)
+        except ParameterError as exc:
+            if str(exc) not in refused:  # one message per distinct reason
+                refused.add(str(exc))
+                errors.append(f"{src}: {what}: refused: {exc}")
+            continue
+        for w in corner.warnings:
+            if w not in case.warnings and w not in refused:
+                refused.add(w)
+                warnings.append(f"at {what}: {w}")
+    return errors, warnings

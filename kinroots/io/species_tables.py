@@ -7,6 +7,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from kinroots.io.checker import Checker
+from kinroots.io.limits import LIMITS, name_problem
 from kinroots.physics.plasma import (
     AMU,
     C_LIGHT,
@@ -52,8 +53,10 @@ def _check_species(chk: Checker, data: Any) -> list[Species | None]:
         name = entry.get("name")
         if "name" not in entry:
             chk.missing(f"{p}.name", "a non-empty string")
-        elif not isinstance(name, str) or not name.strip() or ":" in name:
-            chk.bad(f"{p}.name", name, "a non-empty string without ':'")
+        elif not isinstance(name, str) or not name.strip() or name_problem(name):
+            why = name_problem(name) if isinstance(name, str) and name.strip() else None
+            chk.bad(f"{p}.name", name, "a non-empty printable name without ':' or '.', "
+                    "not starting with = + - @" + (f"; this one: {why}" if why else ""))
         elif name in seen:
             chk.error(
                 f"{p}.name",
@@ -62,17 +65,9 @@ def _check_species(chk: Checker, data: Any) -> list[Species | None]:
             )
         else:
             seen[name] = i
-        charge = chk.number(
-            entry,
-            "charge",
-            f"{p}.charge",
-            "a non-zero number of elementary charges",
-            check=lambda x: x != 0.0,
-        )
+        charge = chk.ranged(entry, "charge", f"{p}.charge", LIMITS["species.charge"])
         mass = _check_mass(chk, entry, f"{p}.mass")
-        density = chk.number(
-            entry, "density", f"{p}.density", "a number > 0 (m^-3)", check=lambda x: x > 0
-        )
+        density = chk.ranged(entry, "density", f"{p}.density", LIMITS["species.density"])
         t_par, t_perp = _check_temperatures(chk, entry, p)
         drift = chk.number(
             entry,
@@ -83,15 +78,8 @@ def _check_species(chk: Checker, data: Any) -> list[Species | None]:
             required=False,
             check=lambda x: abs(x) < C_LIGHT,
         )
-        nu = chk.number(
-            entry,
-            "collision_frequency",
-            f"{p}.collision_frequency",
-            "a number >= 0 (1/s)",
-            default=0.0,
-            required=False,
-            check=lambda x: x >= 0,
-        )
+        nu = chk.ranged(entry, "collision_frequency", f"{p}.collision_frequency",
+                        LIMITS["species.collision_frequency"], default=0.0, required=False)
         if len(chk.errors) > n_errors:
             out.append(None)
             continue
@@ -103,7 +91,8 @@ def _check_species(chk: Checker, data: Any) -> list[Species | None]:
 
 
 def _check_mass(chk: Checker, entry: Mapping[str, Any], path: str) -> float | None:
-    expected = '"electron", "proton", or a number > 0 in atomic mass units'
+    mass_range = LIMITS["species.mass"]
+    expected = f'"electron", "proton", or {mass_range.expected()} (atomic mass units)'
     if "mass" not in entry:
         chk.missing(path, expected)
         return None
@@ -115,14 +104,15 @@ def _check_mass(chk: Checker, entry: Mapping[str, Any], path: str) -> float | No
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         chk.bad(path, value, expected + hint)
         return None
-    amu = chk.number(entry, "mass", path, expected, check=lambda x: x > 0)
+    amu = chk.number(entry, "mass", path, expected, check=mass_range)
     return None if amu is None else amu * AMU
 
 
 def _check_temperatures(
     chk: Checker, entry: Mapping[str, Any], p: str
 ) -> tuple[float | None, float | None]:
-    expected = "a number > 0 (eV)"
+    t_range = LIMITS["species.temperature"]
+    expected = t_range.expected()
     has_iso = "temperature" in entry
     has_par, has_perp = "temperature_par" in entry, "temperature_perp" in entry
     if has_iso and (has_par or has_perp):
@@ -134,7 +124,7 @@ def _check_temperatures(
         )
         return None, None
     if has_iso:
-        t = chk.number(entry, "temperature", f"{p}.temperature", expected, check=lambda x: x > 0)
+        t = chk.number(entry, "temperature", f"{p}.temperature", expected, check=t_range)
         return t, t
     if has_par or has_perp:
         t_par = chk.number(
@@ -142,14 +132,14 @@ def _check_temperatures(
             "temperature_par",
             f"{p}.temperature_par",
             expected + " (given with temperature_perp)",
-            check=lambda x: x > 0,
+            check=t_range,
         )
         t_perp = chk.number(
             entry,
             "temperature_perp",
             f"{p}.temperature_perp",
             expected + " (given with temperature_par)",
-            check=lambda x: x > 0,
+            check=t_range,
         )
         return t_par, t_perp
     chk.missing(f"{p}.temperature", "'temperature', or 'temperature_par' and 'temperature_perp'")

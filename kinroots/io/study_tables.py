@@ -14,6 +14,13 @@ from typing import Any
 
 import numpy as np
 
+from kinroots.io.limits import (
+    LIMITS,
+    MAX_ANGLES,
+    MAX_SWEEP_AXIS_POINTS,
+    MAX_SWEEP_POINTS,
+    finite_float,
+)
 from kinroots.io.parameter_paths import ParameterError, ParameterPath, parse_path
 
 __all__ = [
@@ -118,7 +125,8 @@ def _check_axis(chk: Any, tab: Any, where: str, names: Sequence[str]) -> SweepAx
             chk.error(f"{where}.parameter", str(exc))
     start = chk.number(tab, "start", f"{where}.start", "a finite number")
     stop = chk.number(tab, "stop", f"{where}.stop", "a finite number")
-    points = chk.integer(tab, "points", f"{where}.points", "an integer >= 1", minimum=1)
+    points = chk.integer(tab, "points", f"{where}.points", "an integer >= 1", minimum=1,
+                         maximum=MAX_SWEEP_AXIS_POINTS)
     spacing = chk.choice(tab, "spacing", f"{where}.spacing", _SPACINGS, default="linear",
                          required=False)
     if len(chk.errors) > n0 or path is None:
@@ -139,7 +147,7 @@ def _check_angles(chk: Any, tab: dict[str, Any], where: str) -> tuple[float, ...
         return None
     value = tab["angles"]
     expected = "a non-empty array of increasing angles in degrees, each in [0, 180]"
-    if (not isinstance(value, list) or not value
+    if (not isinstance(value, list) or not value or len(value) > MAX_ANGLES
             or any(isinstance(v, bool) or not isinstance(v, int | float) for v in value)):
         chk.bad(where, value, expected)
         return None
@@ -172,14 +180,18 @@ def check_study_tables(
         levels: tuple[float, ...] = ()
         if "growth_levels" in tab:
             lv = tab["growth_levels"]
-            if (not isinstance(lv, list)
+            if (not isinstance(lv, list) or len(lv) > MAX_ANGLES
                     or any(isinstance(v, bool) or not isinstance(v, int | float)
-                           or not math.isfinite(float(v)) for v in lv)):
-                chk.bad("sweep.growth_levels", lv, "an array of finite numbers "
+                           or not LIMITS["growth"](finite_float(v) or math.inf) for v in lv)):
+                chk.bad("sweep.growth_levels", lv, "an array of at most "
+                        f"{MAX_ANGLES} numbers with |x| <= {LIMITS['growth'].hi:g} "
                         "(growth rates in the case's frequency unit)")
             else:
                 levels = tuple(sorted(float(v) for v in lv))
         angles = _check_angles(chk, tab, "sweep.angles")
+        if x is not None and y is not None and x.points * y.points > MAX_SWEEP_POINTS:
+            chk.error("sweep", f"got {x.points} x {y.points} = {x.points * y.points} grid "
+                      f"points, expected at most {MAX_SWEEP_POINTS} (size limit)")
         if len(chk.errors) == n0 and x is not None:
             sweep = SweepSpec(x, y, levels, angles)
 
@@ -188,8 +200,8 @@ def check_study_tables(
     if tab is not None:
         chk.unknown_keys(tab, THRESHOLD_KEYS, "threshold")
         n0 = len(chk.errors)
-        growth = chk.number(tab, "growth", "threshold.growth",
-                            "a number (growth rate in the case's frequency unit)")
+        growth = chk.ranged(tab, "growth", "threshold.growth", LIMITS["growth"],
+                            note="growth rate in the case's frequency unit")
         path = None
         if "parameter" not in tab:
             chk.missing("threshold.parameter", "the parameter path to bracket")

@@ -34,8 +34,13 @@ from typing import Any
 import numpy as np
 
 from kinroots.io.case import Case, parse_case
-from kinroots.io.parameters import ParameterError, ParameterPath, parameter_value, with_parameter
-from kinroots.io.study_tables import SweepAxis
+from kinroots.io.parameters import (
+    ParameterError,
+    ParameterPath,
+    check_study_ranges,
+    parameter_value,
+    with_parameters,
+)
 from kinroots.study.growth import max_growth
 from kinroots.study.threshold import find_threshold
 
@@ -78,11 +83,7 @@ _THRESHOLD_VALUES = ("threshold", "growth_k", "growth_angle", "growth_omega_real
 
 def _apply(case: Case, settings: Iterable[tuple[ParameterPath, float]]) -> Case:
     """Apply parameter settings; ``beta_par`` paths last (they read T∥ and n)."""
-    items = list(settings)
-    items.sort(key=lambda t: t[0].quantity == "beta_par")
-    for path, value in items:
-        case = with_parameter(case, path, value)
-    return case
+    return with_parameters(case, list(settings))
 
 
 def grid_index(shape: tuple[int, ...], index: int) -> tuple[int, int]:
@@ -181,27 +182,10 @@ def blank_failed(rows: list[dict[str, Any]], kind: str) -> list[dict[str, Any]]:
 def check_ranges(case: Case) -> list[str]:
     """Messages for swept or bracketed values that make an invalid case (before any work).
 
-    Each message names the key path of the table and the value refused.
+    Every corner of the grid is checked (see `kinroots.io.parameters.check_study_ranges`);
+    each message names the key path of the table and the value refused.
     """
-    errors: list[str] = []
-    src = str(case.source) if case.source else "case"
-    checks: list[tuple[str, SweepAxis | None, tuple[float, ...]]] = []
-    if case.sweep is not None:
-        for name, ax in (("sweep.x", case.sweep.x), ("sweep.y", case.sweep.y)):
-            if ax is not None:
-                checks.append((name, ax, (ax.start, ax.stop)))
-    if case.threshold is not None:
-        t = case.threshold
-        checks.append(("threshold.across", t.across, (t.across.start, t.across.stop)))
-        checks.append(("threshold.bracket", None, t.bracket))
-    for where, ax, ends in checks:
-        path = ax.path if ax is not None else case.threshold.path
-        for v in ends:
-            try:
-                with_parameter(case, path, v)
-            except ParameterError as exc:
-                errors.append(f"{src}: {where}: value {v!r} refused: {exc}")
-    return errors
+    return check_study_ranges(case)[0]
 
 
 def case_hash(case: Case) -> str:

@@ -1,0 +1,159 @@
+"""Hostile and extreme input (issue 19): one clear message and exit 2, never a traceback.
+
+Each test names the defect class it guards.  The limits themselves are documented in
+`kinroots.io.limits` and the README; the tests check that the commands enforce them
+before any computation.
+"""
+
+from __future__ import annotations
+
+import os
+import tomllib
+from pathlib import Path
+from typing import Any
+
+import pytest
+from test_cli_check import toml_document  # sibling test module (rootdir import)
+from typer.testing import CliRunner
+
+from kinroots.cli import app
+from kinroots.io.limits import MAX_CASE_BYTES, MAX_DEPTH
+
+CASES = Path(__file__).resolve().parent.parent / "cases"
+runner = CliRunner()
+
+
+def base(name: str = "argon_ion_acoustic.toml") -> dict[str, Any]:
+    return tomllib.loads((CASES / name).read_text(encoding="utf-8"))
+
+
+def invoke(*args: str) -> Any:
+    result = runner.invoke(app, list(args))
+    text = result.stdout + result.stderr
+    assert "Traceback" not in text, text
+    assert result.exception is None or isinstance(result.exception, SystemExit), (
+        repr(result.exception), text)
+    return result
+
+
+def check_refuses(tmp_path: Path, data: dict[str, Any], *needles: str) -> str:
+    path = tmp_path / "case.toml"
+    path.write_text(toml_document(data), encoding="utf-8")
+    result = invoke("check", str(path))
+    assert result.exit_code == 2, result.stdout + result.stderr
+    errors = [ln for ln in result.stderr.splitlines() if ln.startswith("error: ")]
+    assert errors, result.stderr
+    for needle in needles:
+        assert any(needle in e for e in errors), (needle, errors)
+    return result.stderr
+
+
+@pytest.mark.parametrize(("where", "value", "needle"), [
+    (("species", 0, "temperature"), 1e-300, "species[1].temperature"),
+    (("species", 0, "temperature"), 1e300, "species[1].temperature"),
+    (("species", 1, "mass"), 1e-300, "species[2].mass"),
+    (("species", 1, "mass"), 1e30, "species[2].mass"),
+    (("species", 0, "charge"), 1e300, "species[1].charge"),
+    (("species", 0, "density"), 1e-300, "species[1].density"),
+    (("species", 0, "collision_frequency"), 1e300, "species[1].collision_frequency"),
+    (("magnetic_field", "B"), 1e300, "magnetic_field.B"),
+    (("magnetic_field", "B"), 1e-300, "magnetic_field.B"),
+    (("scan", "k", "stop"), 1e300, "scan.k.stop"),
+    (("scan", "k", "points"), 10**9, "scan.k.points"),
+    (("scan", "k", "points"), 10**30, "scan.k.points"),
+    (("search", "real"), [0.0, 1e300], "search.real"),
+    (("solver", "tolerance"), 0.5, "solver.tolerance"),
+    (("species", 1, "name"), "=cmd", "species[2].name"),
+    (("species", 1, "name"), "a\nb", "species[2].name"),
+    (("species", 1, "name"), "a\x00b", "species[2].name"),
+    (("title",), "bell \x07 and escape \x1b[31m", "title"),
+])
+def test_extreme_values_refused_by_check(tmp_path: Path, where: tuple, value: Any,
+                                         needle: str) -> None:
+    data = base()
+    node: Any = data
+    for part in where[:-1]:
+        node = node.setdefault(part, {}) if isinstance(part, str) else node[part]
+    node[where[-1]] = value
+    check_refuses(tmp_path, data, needle)
+
+
+def test_electrons_faster_than_light_refused(tmp_path: Path) -> None:
+    # w = sqrt(2T/m) >= c for T >= m c^2 / 2 = 255.5 keV (electron rest energy 511 keV,
+    # CODATA): the non-relativistic model cannot describe them.
+    data = base()
+    data["species"][0]["temperature"] = 3e5
+    check_refuses(tmp_path, data, "species[1].temperature", "non-relativistic")
+
+
+def test_absurd_but_computable_values_warn(tmp_path: Path) -> None:
+    data = base("ion_bernstein_perpendicular.toml")
+    data["magnetic_field"]["B"] = 1e6
+    path = tmp_path / "case.toml"
+    path.write_text(toml_document(data), encoding="utf-8")
+    result = invoke("check", str(path))
+    assert result.exit_code == 0
+    assert "magnetic_field.B = 1e+06 T is outside the usual range" in result.stderr
+
+
+def test_non_regular_and_oversized_files_refused(tmp_path: Path) -> None:
+    assert "not a regular file" in invoke("check", "/dev/zero").stderr
+    fifo = tmp_path / "pipe.toml"
+    os.mkfifo(fifo)
+    result = invoke("check", str(fifo))  # would block forever if opened
+    assert result.exit_code == 2 and "not a regular file" in result.stderr
+    big = tmp_path / "big.toml"
+    big.write_bytes(b"#" * (MAX_CASE_BYTES + 1))
+    result = invoke("check", str(big))
+    assert result.exit_code == 2 and str(MAX_CASE_BYTES) in result.stderr
+
+
+def test_huge_integer_and_deep_nesting_refused(tmp_path: Path) -> None:
+    path = tmp_path / "case.toml"
+    path.write_text(f"title = 'x'\nn = {'9' * 5000}\n", encoding="utf-8")
+    result = invoke("check", str(path))
+    assert result.exit_code == 2 and "not usable TOML" in result.stderr
+    for depth in (MAX_DEPTH + 2, 5000):
+        path.write_text("title = 'x'\nn = " + "[" * depth + "]" * depth + "\n")
+        result = invoke("check", str(path))
+        assert result.exit_code == 2 and "nested" in result.stderr
+
+
+@pytest.mark.parametrize(("axis", "needle"), [
+    ({"parameter": "species.p.anisotropy", "start": -1.0, "stop": 2.0, "points": 3},
+     "temperature_perp"),
+    ({"parameter": "wave.angle", "start": 0.0, "stop": 270.0, "points": 3}, "wave.angle"),
+    ({"parameter": "species.p.drift", "start": 0.0, "stop": 4e8, "points": 3}, "drift"),
+    ({"parameter": "species.p.temperature", "start": 1.0, "stop": 1e9, "points": 3},
+     "temperature"),
+])
+def test_check_refuses_sweeps_that_make_invalid_plasmas(tmp_path: Path, axis: dict,
+                                                        needle: str) -> None:
+    data = base("sweep_proton_anisotropy.toml")
+    data["sweep"] = {"x": axis}
+    data.pop("threshold")
+    check_refuses(tmp_path, data, "sweep.x", needle)
+
+
+def test_check_refuses_threshold_bracket_and_cyclotron_units_at_b_zero(tmp_path: Path) -> None:
+    data = base("sweep_proton_anisotropy.toml")
+    data["threshold"]["bracket"] = [-2.0, 3.0]
+    check_refuses(tmp_path, data, "threshold.bracket")
+    data = base("sweep_proton_anisotropy.toml")
+    data["sweep"]["x"] = {"parameter": "magnetic_field.B", "start": 0.0, "stop": 1e-8,
+                          "points": 3}
+    check_refuses(tmp_path, data, "sweep.x", "magnetic_field.B")
+
+
+def test_check_warns_about_quasi_neutrality_at_sweep_ends(tmp_path: Path) -> None:
+    data = base("sweep_proton_anisotropy.toml")
+    name = data["species"][-1]["name"]
+    n = data["species"][-1]["density"]
+    data["sweep"]["y"] = {"parameter": f"species.{name}.density", "start": n,
+                          "stop": 2 * n, "points": 2}
+    data.pop("threshold", None)
+    path = tmp_path / "case.toml"
+    path.write_text(toml_document(data), encoding="utf-8")
+    result = invoke("check", str(path))
+    assert result.exit_code == 0, result.stderr
+    assert "not quasi-neutral" in result.stderr and "sweep.y" in result.stderr
