@@ -122,3 +122,22 @@ def test_help_lists_commands_with_examples():
     for cmd in ("solve", "roots"):
         sub = runner.invoke(app, [cmd, "--help"])
         assert sub.exit_code == 0 and "Example" in sub.output
+
+
+def test_roots_summary_reports_the_harmonics_used(tmp_path):
+    # issue 14, item 8: summary.json must give the harmonics the evaluation keeps, known
+    # before any evaluation (they depend on k only), not zeros
+    import numpy as np
+
+    from kinroots.io.case import load_case
+    from kinroots.study.problem import dispersion_at
+
+    cases = Path(__file__).resolve().parent.parent / "cases"
+    case_path = cases / "ion_bernstein_perpendicular.toml"
+    res = runner.invoke(app, ["roots", str(case_path), "--at", "1.0", "-o", str(tmp_path)])
+    assert res.exit_code == 0 and res.exception is None, res.output
+    reported = json.loads((tmp_path / "summary.json").read_text())["harmonics"]
+    disp = dispersion_at(load_case(case_path), 1.0)
+    disp(np.array([0.37 * disp.omega_ref + 0.01j * disp.omega_ref]))  # the builders' report
+    assert reported == disp.harmonics
+    assert all(n > 0 for n in reported.values())

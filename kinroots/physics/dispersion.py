@@ -20,11 +20,13 @@ from kinroots.physics.models.base import Builder, Susceptibility
 from kinroots.physics.plasma import C_LIGHT, EV, Plasma
 
 __all__ = [
+    "BLOCK_ELEMENTS",
     "Dispersion",
     "MODELS",
     "builder_for",
     "dispersion_in_k",
     "dispersion_pairs",
+    "in_blocks",
     "scaled_builder_for",
 ]
 
@@ -43,6 +45,11 @@ _REGISTRY: dict[tuple[str, bool], str] = {
     ("electrostatic", True): "kinroots.physics.models.es_magnetized",
     ("electromagnetic", True): "kinroots.physics.models.em_magnetized",
 }
+
+#: (ω, harmonic) elements per species and block of :meth:`Dispersion.__call__` and
+#: (k, ω) pairs per block of :func:`dispersion_pairs` times harmonics: each temporary
+#: array of a block then holds at most this many complex numbers (1 MiB).
+BLOCK_ELEMENTS = 65536
 
 #: Points on the Cauchy circles used for dD/dk of magnetized models.
 _N_CIRCLE = 32
@@ -172,6 +179,32 @@ def _scaled_matrix(
     return total, dtotal, harmonics
 
 
+def in_blocks(
+    func: Callable[..., tuple[np.ndarray, np.ndarray]], *args: np.ndarray, block: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """``func(*args)`` evaluated on blocks of at most ``block`` elements.
+
+    ``func`` maps arrays of one shape (elementwise, each element independent of the
+    others) to two complex arrays of that shape; ``args`` are broadcast together and
+    flattened, and the results reshaped. Used so that the memory of one evaluation stays
+    bounded (DEVELOPERS.md, "Memory"), whatever the number of points.
+    """
+    if len(args) == 1:
+        arrays = args
+    else:
+        arrays = tuple(np.broadcast_arrays(*args))
+    shape = arrays[0].shape
+    size = arrays[0].size
+    if size <= block:
+        return func(*arrays)
+    flat = [a.ravel() for a in arrays]
+    d = np.empty(size, dtype=complex)
+    dd = np.empty(size, dtype=complex)
+    for i in range(0, size, block):
+        d[i : i + block], dd[i : i + block] = func(*(a[i : i + block] for a in flat))
+    return d.reshape(shape), dd.reshape(shape)
+
+
 class Dispersion:
     """D(ω) and dD/dω at fixed k for one plasma and one model.
 
@@ -279,6 +312,15 @@ class Dispersion:
         self.k_perp = kc * sin
         self._rot = np.array([[cos, 0.0, -sin], [0.0, 1.0, 0.0], [sin, 0.0, cos]])
         self.harmonics: dict[str, int] = {s.name: 0 for s in plasma.species}
+        if self.magnetized:  # N depends on k only: known before any evaluation
+            from kinroots.physics.models._harmonics import harmonics_needed
+
+            for s in plasma.species:
+                self.harmonics[s.name] = harmonics_needed(
+                    s, k_perp=self.k_perp, B=plasma.B, tol=self.harmonic_tol)
+        #: ω per block of :meth:`__call__`: about :data:`BLOCK_ELEMENTS` (ω, harmonic)
+        #: elements per species, so that memory does not grow with the number of ω.
+        self.block = max(64, BLOCK_ELEMENTS // (2 * max(self.harmonics.values()) + 1))
         #: Slowest frequency scale of the susceptibilities [rad/s]: |k| w_k, and |Ω_s|,
         #: |k∥| w∥ when magnetized (D varies on this scale near ω = 0).
         self.frequency_scale = self._slowest_scale()
@@ -366,8 +408,17 @@ class Dispersion:
         D, dD_domega : ndarray of complex
             Shaped like ``omega`` (see the class Notes for the scaling); NaN where ω is
             not finite.
+
+        Notes
+        -----
+        More than :attr:`block` frequencies are evaluated in blocks of that many (the
+        same values, since every ω is evaluated independently), which bounds the memory
+        of one call (DEVELOPERS.md, "Memory").
         """
-        om = np.asarray(omega, dtype=complex)
+        return in_blocks(self._evaluate, np.asarray(omega, dtype=complex), block=self.block)
+
+    def _evaluate(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`__call__` for one block of ω (complex array)."""
         with np.errstate(all="ignore"):
             if self.electromagnetic:
                 d, dd = self._d_em(om)
@@ -466,12 +517,36 @@ def dispersion_pairs(
     evaluated one distinct k at a time through :class:`Dispersion`.
     """
     kk, om = np.broadcast_arrays(np.asarray(k, dtype=complex), np.asarray(omega, dtype=complex))
+    if len(plasma.species) == 0:
+        raise ValueError("the plasma has no species")
+    return in_blocks(
+        lambda kb, ob: _pairs_block(plasma, kb, ob, angle_deg, model, omega_ref, harmonic_tol),
+        kk, om, block=_pairs_block_size(plasma, kk, angle_deg, harmonic_tol),
+    )
+
+
+def _pairs_block_size(plasma: Plasma, k: np.ndarray, angle_deg: float, tol: float) -> int:
+    """Pairs per block of :func:`dispersion_pairs`: :data:`BLOCK_ELEMENTS` over the number
+    of harmonics at the largest |k⊥| (an estimate: it sizes memory, not the results)."""
+    if not plasma.magnetized or k.size == 0:
+        return BLOCK_ELEMENTS // 8
+    from kinroots.physics.models._harmonics import harmonics_needed
+
+    finite = np.abs(k[np.isfinite(k)])
+    kperp = abs(_cos_sin_deg(angle_deg)[1]) * (float(finite.max()) if finite.size else 0.0)
+    nmax = max(harmonics_needed(s, k_perp=kperp, B=plasma.B, tol=tol) for s in plasma.species)
+    return max(16, BLOCK_ELEMENTS // (2 * nmax + 1))
+
+
+def _pairs_block(
+    plasma: Plasma, kk: np.ndarray, om: np.ndarray, angle_deg: float, model: str,
+    omega_ref: float, harmonic_tol: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`dispersion_pairs` on one block of broadcast pairs."""
     bad = ~(np.isfinite(kk) & np.isfinite(om)) | (kk == 0)
     kk = np.where(bad, 1.0, kk)
     om = np.where(bad, 1.0, om)
     canonical = _canonical_model(model)
-    if len(plasma.species) == 0:
-        raise ValueError("the plasma has no species")
     if any(s.collision_frequency > 0.0 for s in plasma.species):
         d, dd = _pairs_by_k(plasma, kk, om, angle_deg, canonical, omega_ref, harmonic_tol)
     else:

@@ -24,7 +24,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from kinroots.io.case import Case
-from kinroots.physics.dispersion import Dispersion, dispersion_in_k, dispersion_pairs
+from kinroots.physics.dispersion import (
+    Dispersion,
+    dispersion_in_k,
+    dispersion_pairs,
+    in_blocks,
+)
 from kinroots.physics.models import krook
 from kinroots.roots import (
     Branch,
@@ -76,8 +81,10 @@ class NormalizedDispersion:
     def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         # Newton steps may leave the window into regions where D overflows: the
         # non-finite values are handled (reported) by the root layer, not warned about.
+        # Blocks bound the memory of large calls (maps) for the Krook forms as well.
         with np.errstate(over="ignore", invalid="ignore"):
-            return self._call(omega)
+            return in_blocks(self._call, np.asarray(omega, dtype=complex),
+                             block=self.dispersion.block)
 
     def _call(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         disp = self.dispersion

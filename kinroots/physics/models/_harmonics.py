@@ -499,6 +499,22 @@ def prepare_species(
     return SpeciesSetup(kpar, kperp, wpar, wperp, drift, omega_c, lam, w)
 
 
+def harmonics_needed(species: Species, *, k_perp: complex, B: float, tol: float) -> int:
+    """N, the largest |n| a magnetized builder keeps for ``species`` at k⊥ (any ω).
+
+    The truncation depends on λ = k⊥²w⊥²/(2Ω²) and ``tol`` only (rule of
+    :func:`bessel_weights`, whose cached table is the one the builders then use); 0 when
+    an input is not finite or a temperature is not positive (the builders give NaN).
+    """
+    with np.errstate(all="ignore"):
+        wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
+        omega_c = species.cyclotron_frequency(B)
+        lam = _lam(complex(k_perp), wperp, omega_c)
+    if B == 0 or not cmath.isfinite(lam):
+        return 0
+    return int(bessel_weights(lam, tol).harmonics)
+
+
 #: Number of ω at one k from which an array-k call evaluates that k with shared weights
 #: (measured on one core: below about this many ω per k the per-element batch is cheaper,
 #: the scalar-k call having a fixed cost of some 20 batched elements).
