@@ -60,6 +60,8 @@ def _quantity_table(
     table.add_column("unit")
     for key, (kind, symbol, si_unit) in layout.items():
         value = si[key]
+        if value is None and key == "kappa_debye_length":
+            continue  # not a kappa species
         unit = si_unit
         shown = _fmt(value)
         if kind == "frequency" and value is not None:
@@ -108,6 +110,10 @@ def plasma(
             f"T∥ = {entry['temperature_par_eV']:g} eV, T⊥ = {entry['temperature_perp_eV']:g} eV, "
             f"drift = {entry['drift_m_per_s']:g} m/s"
         )
+        if entry["distribution"] == "kappa":
+            title += f", kappa = {entry['kappa']:g}"
+        if entry["components"]:
+            title += f" ({len(entry['components'])} components; T and drift are moments)"
         console.print(
             _quantity_table(
                 title.replace("[", "\\["),

@@ -162,6 +162,11 @@ def scatter_command(
             problems.append(f"{name}: species[{i}].collision_frequency: "
                             f"{s.collision_frequency!r}: the scattering spectrum is "
                             "collisionless; expected 0")
+        if not s.is_plain_maxwellian:
+            key = "components" if s.components else "distribution"
+            problems.append(f"{name}: species[{i}].{key}: the scattering spectrum is "
+                            "implemented for drifting bi-Maxwellians only; expected "
+                            "one Maxwellian (no kappa, no components)")
     if not any(s.is_electron for s in loaded.plasma.species):
         problems.append(f"{name}: species: no electron species; expected one")
     if problems:

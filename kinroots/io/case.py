@@ -73,7 +73,9 @@ REQUIRED: tuple[str, ...] = (
     "species[].charge",
     "species[].mass",
     "species[].density",
-    "species[].temperature  (or temperature_par and temperature_perp)",
+    "species[].temperature  (or temperature_par and temperature_perp, or components)",
+    "species[].kappa  (when distribution = \"kappa\")",
+    "species[].components[].weight  (when components are given)",
     "wave.model",
     "scan.k.start",
     "scan.k.stop",
@@ -94,6 +96,8 @@ DEFAULTS: dict[str, Any] = {
     "solver.harmonic_tolerance": 1e-14,
     "solver.resurvey_every": 10,
     "species[].collision_frequency": 0.0,
+    "species[].distribution": "maxwellian",
+    "species[].components[].drift": 0.0,
     "launch.k_real": "[0.01, 2.0] (normalized k, see [units])",
     "launch.k_imag": "[-0.01, 0.5] (normalized k)",
     "launch.frequency.spacing": "linear",
@@ -423,6 +427,14 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
                       f"got T = {max(s.temperature_par, s.temperature_perp):g} eV: thermal "
                       "speed sqrt(2T/m) at or above c, outside the non-relativistic model; "
                       f"expected T < m c^2 / 2 = {t_max:.4g} eV")
+        if (s is not None and s.distribution == "kappa" and B is not None and B != 0.0
+                and angle is not None and float(angle) not in (0.0, 180.0)):
+            chk.error(
+                f"species[{i}].distribution",
+                f"got \"kappa\" with magnetic_field.B != 0 and wave.angle = {angle!r}; "
+                "kappa species in a magnetized plasma are modelled for parallel propagation "
+                "only; expected wave.angle = 0 or 180, or B = 0",
+            )
 
     # units: need the species names (validated or not) and B
     units_tab = chk.table(data, "units", "units", required=False) or {}

@@ -8,6 +8,7 @@ from typing import Any
 
 from kinroots.io.checker import Checker
 from kinroots.io.limits import LIMITS, name_problem
+from kinroots.io.species_kinds import check_kind, check_positive, moments
 from kinroots.physics.plasma import (
     AMU,
     C_LIGHT,
@@ -29,6 +30,9 @@ _SPECIES_KEYS = (
     "temperature_perp",
     "drift",
     "collision_frequency",
+    "distribution",
+    "kappa",
+    "components",
 )
 
 
@@ -68,8 +72,10 @@ def _check_species(chk: Checker, data: Any) -> list[Species | None]:
         charge = chk.ranged(entry, "charge", f"{p}.charge", LIMITS["species.charge"])
         mass = _check_mass(chk, entry, f"{p}.mass")
         density = chk.ranged(entry, "density", f"{p}.density", LIMITS["species.density"])
-        t_par, t_perp = _check_temperatures(chk, entry, p)
-        drift = chk.number(
+        kind = check_kind(chk, entry, p)
+        with_components = "components" in entry
+        t_par, t_perp = (None, None) if with_components else _check_temperatures(chk, entry, p)
+        drift = None if with_components else chk.number(
             entry,
             "drift",
             f"{p}.drift",
@@ -80,13 +86,23 @@ def _check_species(chk: Checker, data: Any) -> list[Species | None]:
         )
         nu = chk.ranged(entry, "collision_frequency", f"{p}.collision_frequency",
                         LIMITS["species.collision_frequency"], default=0.0, required=False)
+        if kind is not None and nu and (kind.components or kind.distribution == "kappa"):
+            what = "components" if kind.components else 'distribution = "kappa"'
+            chk.error(f"{p}.collision_frequency",
+                      f"got {nu!r}, but the Krook model relaxes to one Maxwellian and is not "
+                      f"available for a species with {what}; expected 0 here")
+        if kind is not None and kind.components and mass is not None:
+            check_positive(chk, kind.components, mass, p)
         if len(chk.errors) > n_errors:
             out.append(None)
             continue
         assert charge is not None and mass is not None and density is not None
+        assert kind is not None and nu is not None
+        if kind.components:
+            t_par, t_perp, drift = moments(kind.components, mass)
         assert t_par is not None and t_perp is not None and drift is not None
-        assert nu is not None
-        out.append(Species(str(name), charge, mass, density, t_par, t_perp, drift, nu))
+        out.append(Species(str(name), charge, mass, density, t_par, t_perp, drift, nu,
+                           kind.distribution, kind.kappa, kind.components))
     return out
 
 

@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 
 from kinroots.physics.models.base import Builder, Susceptibility
+from kinroots.physics.models.species_models import builder_for_plasma, plain_species
 from kinroots.physics.plasma import C_LIGHT, EV, Plasma
 
 __all__ = [
@@ -305,7 +306,9 @@ class Dispersion:
         self.harmonic_tol = float(harmonic_tol)
         self.electromagnetic = self.model == "electromagnetic"
         self.magnetized = plasma.magnetized
-        self._builder = builder_for(self.model, self.magnetized)
+        self._builder = builder_for_plasma(
+            builder_for(self.model, self.magnetized), plasma.species, model=self.model,
+            magnetized=self.magnetized)
         cos, sin = _cos_sin_deg(angle_deg)
         self._cos, self._sin = cos, sin
         self.k_par = kc * cos
@@ -325,12 +328,14 @@ class Dispersion:
         #: |k∥| w∥ when magnetized (D varies on this scale near ω = 0).
         self.frequency_scale = self._slowest_scale()
         self._scaled_builder = (
-            scaled_builder_for(self.magnetized) if self.electromagnetic else None
+            builder_for_plasma(scaled_builder_for(self.magnetized), plasma.species,
+                               model=self.model, magnetized=self.magnetized, scaled=True)
+            if self.electromagnetic else None
         )
         #: Electrostatic models whose module offers ``SpeciesSum`` (constants per species
         #: cached here, since k is fixed; every species in one pass): Σχ_s from it.
         self._species_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
-        if not self.electromagnetic:
+        if not self.electromagnetic and plain_species(plasma.species):
             module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
             factory = getattr(module, "SpeciesSum", None)
             if factory is not None:
@@ -349,7 +354,8 @@ class Dispersion:
     # ------------------------------------------------------------------ helpers
     def _slowest_scale(self) -> float:
         scales = []
-        for s in self.plasma.species:
+        parts = [part for s in self.plasma.species for _, part in s.component_species()]
+        for s in parts:
             wpar2 = 2.0 * s.temperature_par * EV / s.mass
             wperp2 = 2.0 * s.temperature_perp * EV / s.mass
             scales.append(abs(self.k_perp**2 * wperp2 + self.k_par**2 * wpar2) ** 0.5)
@@ -554,16 +560,21 @@ def _pairs_block(
         kpar, kperp = kk * cos, kk * sin
         with np.errstate(all="ignore"):
             if canonical == "electromagnetic":
+                scaled = builder_for_plasma(scaled_builder_for(plasma.magnetized),
+                                            plasma.species, model=canonical,
+                                            magnetized=plasma.magnetized, scaled=True)
                 d, dd = _det_and_derivative(*_scaled_matrix(
-                    plasma, scaled_builder_for(plasma.magnetized), om, k=kk, k_par=kpar,
+                    plasma, scaled, om, k=kk, k_par=kpar,
                     k_perp=kperp, omega_ref=omega_ref, tol=harmonic_tol,
                 )[:2])
-            elif not plasma.magnetized:
+            elif not plasma.magnetized and plain_species(plasma.species):
                 chi, dd = importlib.import_module(_REGISTRY[(canonical, False)]).species_sum(
                     om, tuple(plasma.species), k_par=kpar, k_perp=kperp)
                 d = 1.0 + chi
             else:
-                builder = builder_for(canonical, plasma.magnetized)
+                builder = builder_for_plasma(builder_for(canonical, plasma.magnetized),
+                                             plasma.species, model=canonical,
+                                             magnetized=plasma.magnetized)
                 d = np.ones(om.shape, dtype=complex)
                 dd = np.zeros(om.shape, dtype=complex)
                 for s in plasma.species:
@@ -665,7 +676,8 @@ def _dispersion_in_k_unmagnetized(
     model: str,
     omega_ref: float,
 ) -> tuple[np.ndarray, np.ndarray]:
-    builder = builder_for(model, False)
+    builder = builder_for_plasma(builder_for(model, False), plasma.species, model=model,
+                                 magnetized=False)
     om = np.full(k.shape, omega, dtype=complex)
     with np.errstate(all="ignore"):
         chi = dchi_dk = None

@@ -50,9 +50,34 @@ AMU: float = 1.66053906892e-27
 EV: float = 1.602176634e-19
 
 
+#: Distributions a species may have (case key ``distribution``).
+DISTRIBUTIONS: tuple[str, ...] = ("maxwellian", "kappa")
+
+
+@dataclass(frozen=True)
+class Component:
+    """One drifting bi-Maxwellian part of a species made of components.
+
+    Parameters
+    ----------
+    weight : float
+        Share of the species density (the weights of a species sum to 1; a negative
+        weight subtracts a Maxwellian, e.g. a loss cone).
+    temperature_par, temperature_perp : float
+        Temperatures along and across B [eV], > 0.
+    drift : float
+        Drift speed along z [m/s].
+    """
+
+    weight: float
+    temperature_par: float
+    temperature_perp: float
+    drift: float = 0.0
+
+
 @dataclass(frozen=True)
 class Species:
-    """One species of a (drifting, bi-)Maxwellian plasma.
+    """One species: a (drifting, bi-)Maxwellian, a (bi-)kappa, or a sum of components.
 
     Parameters
     ----------
@@ -72,6 +97,17 @@ class Species:
         Number-conserving Krook (BGK) collision frequency ν_s [1/s], ≥ 0 (default 0:
         collisionless).  Used by the unmagnetized electrostatic model only; see
         :mod:`kinroots.physics.models.krook`.
+    distribution : str
+        ``"maxwellian"`` (default) or ``"kappa"``: f ∝ (1 + v∥²/(κθ∥²) + v⊥²/(κθ⊥²))^−(κ+1)
+        about the drift, θ² = (2κ − 3)/κ · T/m per direction, so that T∥ and T⊥ are the
+        kinetic temperatures (m⟨v_i²⟩ = T).
+    kappa : float or None
+        The index κ > 3/2 of a kappa species (None otherwise).
+    components : tuple of Component
+        Non-empty for a species made of drifting bi-Maxwellians sharing its charge and
+        mass (density n·weight each).  Then ``temperature_par``, ``temperature_perp``
+        and ``drift`` hold the moments of the whole species (mean drift Σ w_j V_j,
+        T∥ = Σ w_j (T∥j + m (V_j − V)²), T⊥ = Σ w_j T⊥j), used by derived units only.
     """
 
     name: str
@@ -82,6 +118,42 @@ class Species:
     temperature_perp: float
     drift: float = 0.0
     collision_frequency: float = 0.0
+    distribution: str = "maxwellian"
+    kappa: float | None = None
+    components: tuple[Component, ...] = ()
+
+    @property
+    def is_plain_maxwellian(self) -> bool:
+        """True for one drifting bi-Maxwellian (neither kappa nor components)."""
+        return self.distribution == "maxwellian" and not self.components
+
+    @property
+    def kappa_debye_length(self) -> float | None:
+        """λ_D √((κ − 3/2)/(κ − 1/2)) [m] for a kappa species (``None`` otherwise).
+
+        The static shielding length of a kappa species (Summers & Thorne 1991, from
+        memory; the static limit of the kappa susceptibility).
+        """
+        if self.distribution != "kappa" or self.kappa is None:
+            return None
+        return self.debye_length * math.sqrt((self.kappa - 1.5) / (self.kappa - 0.5))
+
+    def component_species(self) -> tuple[tuple[float, Species], ...]:
+        """(sign, sub-species) per component: a Maxwellian of density |w| n.
+
+        The susceptibility of the species is Σ sign · χ(sub-species) (χ is linear in
+        the density).  A species without components is its own single part.
+        """
+        if not self.components:
+            return ((1.0, self),)
+        return tuple(
+            (
+                math.copysign(1.0, c.weight),
+                Species(self.name, self.charge_number, self.mass, abs(c.weight) * self.density,
+                        c.temperature_par, c.temperature_perp, c.drift),
+            )
+            for c in self.components
+        )
 
     @property
     def charge(self) -> float:
@@ -460,6 +532,7 @@ SPECIES_QUANTITIES: dict[str, tuple[str, str, str]] = {
     "gyroradius": ("length", "ρ = w⊥/|Ω|", "m"),
     "beta_par": ("none", "β∥", ""),
     "beta_perp": ("none", "β⊥", ""),
+    "kappa_debye_length": ("length", "λ_D √((κ−3/2)/(κ−1/2)) (kappa species)", "m"),
 }
 
 #: Whole-plasma quantities, same layout as `SPECIES_QUANTITIES`.
@@ -499,6 +572,7 @@ def _species_si(s: Species, B: float) -> dict[str, float | None]:
         "gyroradius": s.gyroradius(B),
         "beta_par": s.beta_par(B),
         "beta_perp": s.beta_perp(B),
+        "kappa_debye_length": s.kappa_debye_length,
     }
 
 
@@ -561,6 +635,13 @@ def derived_quantities(plasma: Plasma, units: Normalization | None = None) -> di
             "temperature_par_eV": float(s.temperature_par),
             "temperature_perp_eV": float(s.temperature_perp),
             "drift_m_per_s": float(s.drift),
+            "distribution": s.distribution,
+            "kappa": s.kappa,
+            "components": [
+                {"weight": c.weight, "temperature_par_eV": c.temperature_par,
+                 "temperature_perp_eV": c.temperature_perp, "drift_m_per_s": c.drift}
+                for c in s.components
+            ],
             "si": si,
         }
         if units is not None:

@@ -72,6 +72,11 @@ def _check_plasma(plasma: Plasma) -> None:
                          "species only (collision_frequency = 0)")
     if not any(s.is_electron for s in plasma.species):
         raise ValueError("the plasma has no electron species")
+    odd = [s.name for s in plasma.species if not s.is_plain_maxwellian]
+    if odd:
+        raise ValueError("the fluctuation spectrum is implemented for drifting "
+                         "bi-Maxwellian species only; not for kappa or component species "
+                         f"({', '.join(odd)})")
 
 
 def spectral_density(
