@@ -7,6 +7,7 @@ before any computation.
 
 from __future__ import annotations
 
+import json
 import os
 import tomllib
 from pathlib import Path
@@ -157,3 +158,72 @@ def test_check_warns_about_quasi_neutrality_at_sweep_ends(tmp_path: Path) -> Non
     result = invoke("check", str(path))
     assert result.exit_code == 0, result.stderr
     assert "not quasi-neutral" in result.stderr and "sweep.y" in result.stderr
+
+
+def small_case(tmp_path: Path, **changes: Any) -> Path:
+    """The argon case on three k points, with top-level changes (title, names)."""
+    data = base()
+    data["scan"]["k"]["points"] = 3
+    for key, value in changes.items():
+        if key == "name":
+            data["species"][1]["name"] = value
+            data["units"]["frequency"] = f"plasma:{value}"
+        else:
+            data[key] = value
+    path = tmp_path / "case.toml"
+    path.write_text(toml_document(data), encoding="utf-8")
+    return path
+
+
+def test_user_text_is_shown_literally(tmp_path: Path) -> None:
+    """Rich markup and matplotlib mathtext in a title or name are data, not commands."""
+    title = r"$\notacommand$ [bold]x[/italic] [/] [link=http://x]y[/link]"
+    path = small_case(tmp_path, title=title, name="π$\\alpha$[/]")
+    for cmd, out in (("solve", "branches.png"), ("roots", "map.png")):
+        result = invoke(cmd, str(path), "-o", str(tmp_path / cmd))
+        assert result.exit_code in (0, 1), result.stderr
+        assert (tmp_path / cmd / out).stat().st_size > 0
+    summary = json.loads((tmp_path / "solve" / "summary.json").read_text(encoding="utf-8"))
+    assert summary["title"] == title
+    header = (tmp_path / "solve" / "branches.csv").read_text(encoding="utf-8").splitlines()[0]
+    assert "density_abs_π$\\alpha$[/]" in header
+
+
+def test_internal_error_exits_3_with_saved_traceback(monkeypatch: pytest.MonkeyPatch,
+                                                     tmp_path: Path) -> None:
+    import kinroots.study.solve as solve_module
+
+    def broken(*args: Any, **kwargs: Any) -> None:
+        raise ZeroDivisionError("planted")
+
+    monkeypatch.setattr(solve_module, "solve", broken)
+    result = invoke("solve", str(small_case(tmp_path)), "-o", str(tmp_path / "out"))
+    assert result.exit_code == 3
+    line = result.stderr.strip().splitlines()[-1]
+    assert "internal error (ZeroDivisionError: planted)" in line
+    log = Path(line.rsplit("traceback saved to ", 1)[1])
+    try:
+        assert "Traceback" in log.read_text(encoding="utf-8")
+    finally:
+        log.unlink()
+
+
+def test_ctrl_c_exits_130(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> None:
+    import kinroots.study.problem as problem_module
+
+    def interrupted(*args: Any, **kwargs: Any) -> None:
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(problem_module, "survey", interrupted)
+    result = invoke("roots", str(small_case(tmp_path)), "-o", str(tmp_path / "out"))
+    assert result.exit_code == 130 and "interrupted" in result.stderr
+
+
+def test_at_nan_and_unwritable_output_refused_before_work(tmp_path: Path) -> None:
+    path = small_case(tmp_path)
+    result = invoke("roots", str(path), "--at", "nan", "-o", str(tmp_path / "out"))
+    assert result.exit_code == 2 and "--at" in result.stderr
+    for cmd in ("solve", "roots"):
+        result = invoke(cmd, str(path), "-o", str(path / "inside-a-file"))
+        assert result.exit_code == 2, (cmd, result.stderr)
+        assert "output" in result.stderr

@@ -8,9 +8,12 @@ commands on the one typer app.
 """
 
 from kinroots.cli import case_commands, lab, stability, waves
-from kinroots.cli._common import app
+from kinroots.cli._common import app, guarded
 
 for _module in (case_commands, waves, lab, stability):
     _module.register(app)
+# No traceback reaches a user: internal errors exit 3 with the traceback in a file.
+for _info in app.registered_commands:
+    _info.callback = guarded(_info.callback)
 
 __all__ = ["app"]

@@ -8,15 +8,23 @@ Data go to stdout; messages to stderr.
 
 from __future__ import annotations
 
+import functools
+from collections.abc import Callable
 from pathlib import Path
-from typing import Annotated, NoReturn
+from typing import Annotated, Any, NoReturn
 
+import click
 import typer
+from rich.console import Console
 
 from kinroots.io.case import Case, CaseError, default_case_path, load_case
 
 #: Exit code for bad input (docs/design.md, "Exit codes").
 EXIT_BAD_INPUT = 2
+#: Exit code for an internal error (a bug): one line on stderr, the traceback in a file.
+EXIT_INTERNAL = 3
+#: Exit code after Ctrl-C (128 + SIGINT, as shells report it).
+EXIT_INTERRUPTED = 130
 
 app = typer.Typer(
     name="kinroots",
@@ -42,6 +50,67 @@ DefaultOpt = Annotated[
 
 def err(message: str) -> None:
     typer.echo(message, err=True)
+
+
+def _save_traceback(exc: BaseException) -> Path | None:
+    """Write the traceback of ``exc`` (with argv and version) to a file; its path."""
+    import datetime
+    import os
+    import sys
+    import tempfile
+    import traceback
+
+    from kinroots import __version__
+
+    stamp = datetime.datetime.now(datetime.UTC).strftime("%Y%m%dT%H%M%SZ")
+    text = (f"kinroots {__version__}, python {sys.version.split()[0]}\n"
+            f"argv: {sys.argv!r}\n\n"
+            + "".join(traceback.format_exception(type(exc), exc, exc.__traceback__)))
+    try:
+        fd, name = tempfile.mkstemp(prefix=f"kinroots-error-{stamp}-", suffix=".txt")
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+    except OSError:
+        return None
+    return Path(name)
+
+
+def guarded(command: Callable[..., Any]) -> Callable[..., Any]:
+    """Wrap a command so that no traceback reaches the user.
+
+    Ctrl-C exits 130 with one line; any other exception is an internal error: one line
+    naming it and the file holding the traceback, exit `EXIT_INTERNAL` (never 1, which
+    means "done, some points flagged").
+    """
+
+    @functools.wraps(command)
+    def run(*args: Any, **kwargs: Any) -> Any:
+        try:
+            return command(*args, **kwargs)
+        except (typer.Exit, typer.Abort, click.exceptions.Exit, click.ClickException,
+                click.exceptions.Abort):
+            raise
+        except KeyboardInterrupt:
+            err("kinroots: interrupted (Ctrl-C)")
+            raise typer.Exit(EXIT_INTERRUPTED) from None
+        except Exception as exc:  # the last line of defence
+            log = _save_traceback(exc)
+            what = " ".join(f"{type(exc).__name__}: {exc}".split())
+            if len(what) > 300:
+                what = what[:297] + "..."
+            where = f"traceback saved to {log}" if log else "traceback could not be saved"
+            err(f"kinroots: internal error ({what}); this is a bug in kinroots, please "
+                f"report it; {where}")
+            raise typer.Exit(EXIT_INTERNAL) from None
+
+    return run
+
+
+def stderr_console() -> Console:
+    """Rich console on stderr that shows every string literally (no markup, no
+    highlighting): titles, names and paths are user text.  Styles are passed with
+    ``style=``; the progress columns escape their descriptions."""
+    return Console(stderr=True, markup=False, highlight=False)
 
 
 def _refuse(errors: list[str], case: Path) -> NoReturn:
@@ -106,9 +175,20 @@ OutOpt = Annotated[
 
 
 def check_output_dir(out: Path) -> None:
-    """Refuse an output path that exists and is not a folder (before any work)."""
+    """Create the output folder and make sure a file can be written into it, before any
+    computation; exit 2 with the reason otherwise (a file in the way, no permission)."""
+    import tempfile
+
     if out.exists() and not out.is_dir():
         err(f"error: output {out}: exists and is not a folder; expected a folder path")
         raise typer.Exit(EXIT_BAD_INPUT)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+        with tempfile.TemporaryFile(dir=out):
+            pass
+    except OSError as exc:
+        err(f"error: output {out}: cannot write there ({exc.strerror or exc}); expected a "
+            "folder that can be created and written")
+        raise typer.Exit(EXIT_BAD_INPUT) from None
 
 

@@ -11,21 +11,23 @@ from typing import Annotated, Any
 
 import numpy as np
 import typer
-from rich.console import Console
+from rich.markup import escape
 
-from kinroots.cli._common import EXIT_BAD_INPUT, CaseArg, DefaultOpt, OutOpt, load_case_or_exit
+from kinroots.cli._common import (
+    EXIT_BAD_INPUT,
+    CaseArg,
+    DefaultOpt,
+    OutOpt,
+    check_output_dir,
+    load_case_or_exit,
+    stderr_console,
+)
 
 __all__ = ["register"]
 
 
 def _err(message: str) -> None:
     typer.echo(message, err=True)
-
-
-def _check_output_dir(out: Path) -> None:
-    if out.exists() and not out.is_dir():
-        _err(f"error: output {out}: exists and is not a folder; expected a folder path")
-        raise typer.Exit(EXIT_BAD_INPUT)
 
 
 def _case_name(loaded: Any, case: Path | None) -> str:
@@ -58,15 +60,15 @@ def launch_command(
         _err(f"error: {_case_name(loaded, case)}: launch: missing; expected a [launch] table "
              "with frequency = { start = ..., stop = ..., points = ... } in Hz")
         raise typer.Exit(EXIT_BAD_INPUT)
-    _check_output_dir(output)
-    console = Console(stderr=True)
+    check_output_dir(output)
+    console = stderr_console()
     n = len(loaded.launch.frequencies_hz)
     with Progress(
         TextColumn("[bold]launching[/bold] {task.description}"), BarColumn(),
         TextColumn("{task.completed}/{task.total} f"), TimeElapsedColumn(),
         console=console, transient=True,
     ) as bar:
-        task = bar.add_task(loaded.title, total=n)
+        task = bar.add_task(escape(loaded.title), total=n)
         res = launch_mod.launch(loaded, progress=lambda d, t: bar.update(task, completed=d))
     rows = launch_mod.launch_rows(res)
     columns = launch_mod.launch_columns(loaded)
@@ -116,7 +118,7 @@ def launch_command(
     console.print(f"wrote {output / 'launch.csv'}, {output / 'launch.json'}, "
                   f"{output / 'launch.png'}")
     if res.failed_points:
-        console.print(f"[red]{res.failed_points} point(s) failed[/red]: flagged in the table")
+        console.print(f"{res.failed_points} point(s) failed: flagged in the table", style="red")
         raise typer.Exit(1)
 
 
@@ -173,8 +175,8 @@ def scatter_command(
         for p in problems:
             _err(f"error: {p}")
         raise typer.Exit(EXIT_BAD_INPUT)
-    _check_output_dir(output)
-    console = Console(stderr=True)
+    check_output_dir(output)
+    console = stderr_console()
     with console.status("computing the fluctuation spectrum"):
         sp = spectrum.scattered_spectrum(loaded.plasma, laser_wavelength=laser_wavelength,
                                          scattering_angle_deg=angle,

@@ -13,9 +13,16 @@ from typing import Annotated, Any
 
 import numpy as np
 import typer
-from rich.console import Console
+from rich.markup import escape
 
-from kinroots.cli._common import EXIT_BAD_INPUT, CaseArg, DefaultOpt, load_case_or_exit
+from kinroots.cli._common import (
+    EXIT_BAD_INPUT,
+    CaseArg,
+    DefaultOpt,
+    check_output_dir,
+    load_case_or_exit,
+    stderr_console,
+)
 from kinroots.io.case import Case
 
 __all__ = ["register"]
@@ -47,9 +54,7 @@ def _prepare(case: Path | None, default: bool, output: Path, table: str) -> Case
         for e in errors:
             _err(f"error: {e}")
         raise typer.Exit(EXIT_BAD_INPUT)
-    if output.exists() and not output.is_dir():
-        _err(f"error: output {output}: exists and is not a folder; expected a folder path")
-        raise typer.Exit(EXIT_BAD_INPUT)
+    check_output_dir(output)
     return loaded
 
 
@@ -67,7 +72,7 @@ def _run(loaded: Case, kind: str, total: int, output: Path, workers: int,
     except StoreMismatch as exc:
         _err(f"error: {exc}")
         raise typer.Exit(EXIT_BAD_INPUT) from None
-    console = Console(stderr=True)
+    console = stderr_console()
     with store:
         done = store.done(kind)
         todo = [i for i in range(total) if i not in done]
@@ -78,7 +83,7 @@ def _run(loaded: Case, kind: str, total: int, output: Path, workers: int,
         with Progress(TextColumn(f"[bold]{kind}[/bold] {{task.description}}"), BarColumn(),
                       TextColumn("{task.completed}/{task.total} points"),
                       TimeElapsedColumn(), console=console, transient=False) as bar:
-            task = bar.add_task(where, total=total, completed=len(done))
+            task = bar.add_task(escape(where), total=total, completed=len(done))
 
             def commit(index: int, row: dict[str, Any]) -> None:
                 store.commit(kind, index, row)
@@ -168,7 +173,7 @@ def sweep_command(
     failed = [r for r in rows if not r.get("converged")]
     write_json(output / "sweep.json", _summary(loaded, "sweep", rows, failed))
     _ = plot_growth_map  # imported for the figure in _draw_map
-    console = Console(stderr=True)
+    console = stderr_console()
     best = max((r for r in rows if r.get("converged") and r.get("growth_max") is not None
                 and math.isfinite(r["growth_max"])), key=lambda r: r["growth_max"],
                default=None)
@@ -181,7 +186,7 @@ def sweep_command(
     console.print(f"wrote {output / 'sweep.csv'}, {output / 'sweep.nc'}, "
                   f"{output / 'sweep.json'}, {output / 'sweep.png'}")
     if failed:
-        console.print(f"[red]{len(failed)} point(s) failed[/red]: flagged in sweep.csv")
+        console.print(f"{len(failed)} point(s) failed: flagged in sweep.csv", style="red")
         raise typer.Exit(1)
 
 
@@ -278,7 +283,7 @@ def threshold_command(
                    y_label=t.path.label,
                    label=f"γ_max = {t.growth:g} {loaded.units.frequency_label}",
                    title=loaded.title)
-    console = Console(stderr=True)
+    console = stderr_console()
     if loaded.sweep is not None:
         from kinroots.io.store import STORE_NAME, PointStore
         from kinroots.study.sweep import case_hash
@@ -294,8 +299,8 @@ def threshold_command(
     console.print(f"wrote {output / 'threshold.csv'}, {output / 'threshold.json'}, "
                   f"{output / 'threshold.png'}")
     if failed:
-        console.print(f"[red]{len(failed)} value(s) without a threshold[/red]: "
-                      + "; ".join(str(r.get("reason")) for r in failed))
+        console.print(f"{len(failed)} value(s) without a threshold: "
+                      + "; ".join(str(r.get("reason")) for r in failed), style="red")
         raise typer.Exit(1)
 
 

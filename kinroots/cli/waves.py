@@ -6,7 +6,7 @@ from pathlib import Path
 from typing import Annotated, Any
 
 import typer
-from rich.console import Console
+from rich.markup import escape
 
 from kinroots.cli._common import (
     EXIT_BAD_INPUT,
@@ -16,6 +16,7 @@ from kinroots.cli._common import (
     check_output_dir,
     err,
     load_case_or_exit,
+    stderr_console,
 )
 from kinroots.io.case import Case
 
@@ -63,13 +64,13 @@ def solve(
 
     loaded = load_case_or_exit(case, default)
     check_output_dir(output)
-    console = Console(stderr=True)
+    console = stderr_console()
     with Progress(
         TextColumn("[bold]tracing[/bold] {task.description}"), BarColumn(),
         TextColumn("{task.completed}/{task.total} k"), TimeElapsedColumn(),
         console=console, transient=True,
     ) as bar:
-        task = bar.add_task(loaded.title, total=len(loaded.k_values))
+        task = bar.add_task(escape(loaded.title), total=len(loaded.k_values))
         sol = solve_case(loaded, progress=lambda done, total: bar.update(task, completed=done))
     rows = branch_rows(sol)
     summary = solution_summary(sol, rows)
@@ -96,15 +97,15 @@ def solve(
     console.print(f"wrote {output / 'branches.csv'}, {output / 'summary.json'}, "
                   f"{output / 'branches.png'}")
     if sol.failed_points:
-        console.print(f"[red]{sol.failed_points} point(s) failed[/red]: flagged in the table "
-                      "(converged = false) and in summary.json")
+        console.print(f"{sol.failed_points} point(s) failed: flagged in the table "
+                      "(converged = false) and in summary.json", style="red")
         raise typer.Exit(1)
 
 
 def roots(
     case: CaseArg = None,
-    at: Annotated[float, typer.Option("--at", help="Normalized wavenumber k (units of the "
-                                      "case's [units] length).")] = float("nan"),
+    at: Annotated[float | None, typer.Option("--at", help="Normalized wavenumber k (units "
+                                             "of the case's [units] length).")] = None,
     output: OutOpt = Path("kinroots-out"),
     default: DefaultOpt = False,
 ) -> None:
@@ -124,14 +125,14 @@ def roots(
     from kinroots.study.rows import metadata, root_row
 
     loaded = load_case_or_exit(case, default)
-    if math.isnan(at):
+    if at is None:
         at = float(loaded.k_values[0])
         err(f"kinroots: no --at given; using the first scan point k = {at:g}")
     if not (math.isfinite(at) and at > 0):
         err(f"error: option --at: {at!r}: expected a finite wavenumber > 0")
         raise typer.Exit(EXIT_BAD_INPUT)
     check_output_dir(output)
-    console = Console(stderr=True)
+    console = stderr_console()
     with console.status(f"surveying the window at k = {at:g}"):
         s = survey(loaded, at)
     rows = [root_row(loaded, i, at, r) for i, r in enumerate(s.roots)]
@@ -165,7 +166,7 @@ def roots(
                   f"{s.evaluations} evaluations; wrote {output / 'roots.csv'}, "
                   f"{output / 'summary.json'}, {output / 'map.png'}")
     if not s.complete:
-        console.print("[red]survey incomplete[/red]: " + "; ".join(s.notes))
+        console.print("survey incomplete: " + "; ".join(s.notes), style="red")
         raise typer.Exit(1)
 
 

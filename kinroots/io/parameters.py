@@ -167,9 +167,13 @@ def with_parameter(case: Case, path: str | ParameterPath, value: float) -> Case:
 
 
 
-def _corner_settings(case: Case) -> list[tuple[str, list[tuple[ParameterPath, float]]]]:
-    """Every combination of axis ends of ``[sweep]`` and ``[threshold]``, described."""
-    out: list[tuple[str, list[tuple[ParameterPath, float]]]] = []
+_Corner = list[tuple[str, ParameterPath, float]]
+
+
+def _corner_settings(case: Case) -> list[_Corner]:
+    """Every combination of axis ends of ``[sweep]`` and ``[threshold]``:
+    (table key, parameter, value) for each axis."""
+    out: list[_Corner] = []
     groups: list[list[tuple[str, ParameterPath, tuple[float, ...]]]] = []
     if case.sweep is not None:
         groups.append([(name, ax.path, (ax.start, ax.stop))
@@ -183,9 +187,7 @@ def _corner_settings(case: Case) -> list[tuple[str, list[tuple[ParameterPath, fl
         combos: list[list[tuple[str, ParameterPath, float]]] = [[]]
         for name, path, ends in axes:
             combos = [c + [(name, path, v)] for c in combos for v in ends]
-        for combo in combos:
-            what = ", ".join(f"{name} {path.text} = {v:g}" for name, path, v in combo)
-            out.append((what, [(path, v) for _, path, v in combo]))
+        out.extend(combos)
     return out
 
 
@@ -208,13 +210,20 @@ def check_study_ranges(case: Case) -> tuple[list[str], list[str]]:
     warnings: list[str] = []
     src = str(case.source) if case.source else "case"
     refused: set[str] = set()
-    for what, settings in _corner_settings(case):
+    for combo in _corner_settings(case):
+        what = ", ".join(f"{name} = {v:g}" for name, _, v in combo)
         try:
-            corner = with_parameters(case, settings)
+            corner = with_parameters(case, [(path, v) for _, path, v in combo])
         except ParameterError as exc:
             if str(exc) not in refused:  # one message per distinct reason
                 refused.add(str(exc))
-                errors.append(f"{src}: {what}: refused: {exc}")
+                key, value = next(((name, v) for name, path, v in combo
+                                   if str(exc).startswith(f"{path.text} = ")),
+                                  (combo[-1][0], combo[-1][2]))
+                others = [f"{n} = {v:g}" for n, _, v in combo if n != key]
+                errors.append(f"{src}: {key}: value {value!r} refused"
+                              + (f" (with {', '.join(others)})" if others else "")
+                              + f": {exc}")
             continue
         for w in corner.warnings:
             if w not in case.warnings and w not in refused:
