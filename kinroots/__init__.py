@@ -1,10 +1,84 @@
-"""kinroots: roots of the linear Vlasov dispersion relation of multi-species plasmas."""
+"""kinroots: roots of the linear Vlasov dispersion relation of multi-species plasmas.
 
-from importlib.metadata import PackageNotFoundError, version
+The public API (names resolved on first use, so ``import kinroots`` stays light)::
 
-try:
-    __version__ = version("kinroots")
-except PackageNotFoundError:  # running from a source tree without installation
-    __version__ = "0+unknown"
+    load_case(path)                  a case file -> Case
+    case_from_dict(mapping)          the keys of a case file, as a dict -> Case
+    case_from_plasma(plasma, ...)    a Plasma built in code -> Case
+    Species, Plasma                  species (SI, temperatures in eV) and B [T]
+    roots(case, k)                   every root in the window at one k -> RootSet
+    solve(case, progress=None)       every branch across the k scan -> Solution
+    sweep(case, workers, scheduler)  a [sweep] grid -> xarray.Dataset (as sweep.nc)
+    dispersion(case, k)              D(omega) and the susceptibilities at one k
 
-__all__ = ["__version__"]
+Example::
+
+    import kinroots
+    case = kinroots.load_case("cases/argon_ion_acoustic.toml")
+    sol = kinroots.solve(case)
+    df = sol.to_dataframe()          # the columns of branches.csv
+
+Note: ``kinroots.roots`` is the function above.  The root-finding layer of the same name
+is imported as ``from kinroots.roots import find_roots`` (through ``sys.modules``), never
+as ``import kinroots.roots as ...``.
+"""
+
+from __future__ import annotations
+
+import sys
+import types
+
+#: Public name -> module that defines it.
+_EXPORTS: dict[str, str] = {
+    "load_case": "kinroots.io.case",
+    "case_from_dict": "kinroots.io.case",
+    "case_from_plasma": "kinroots.io.case",
+    "Case": "kinroots.io.case",
+    "CaseError": "kinroots.io.case",
+    "Species": "kinroots.physics.plasma",
+    "Plasma": "kinroots.physics.plasma",
+    "roots": "kinroots.api",
+    "solve": "kinroots.api",
+    "sweep": "kinroots.api",
+    "dispersion": "kinroots.api",
+    "RootSet": "kinroots.api",
+    "Solution": "kinroots.api",
+    "DispersionFunction": "kinroots.api",
+}
+
+__all__ = ["__version__", *_EXPORTS]
+
+
+def __getattr__(name: str) -> object:
+    if name == "__version__":
+        from importlib.metadata import PackageNotFoundError, version
+
+        try:
+            value = version("kinroots")
+        except PackageNotFoundError:  # a source tree without installation
+            value = "0+unknown"
+    elif name in _EXPORTS:
+        import importlib
+
+        value = getattr(importlib.import_module(_EXPORTS[name]), name)
+    else:
+        raise AttributeError(f"module 'kinroots' has no attribute {name!r}")
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_EXPORTS) | {"__version__"})
+
+
+class _Package(types.ModuleType):
+    """The package module: the public function ``roots`` keeps its name when the
+    subpackage ``kinroots.roots`` (the root-finding layer) is imported."""
+
+    def __setattr__(self, name: str, value: object) -> None:
+        if name == "roots" and isinstance(value, types.ModuleType):
+            return  # the subpackage stays reachable through sys.modules
+        super().__setattr__(name, value)
+
+
+sys.modules[__name__].__class__ = _Package

@@ -98,49 +98,6 @@ def _run(loaded: Case, kind: str, total: int, output: Path, workers: int,
         return store.rows(kind)
 
 
-def _sweep_dataset(loaded: Case, rows: list[dict[str, Any]]) -> Any:
-    """xarray Dataset of the sweep: labelled dims, units attributes."""
-    import xarray as xr
-
-    from kinroots.study.sweep import SWEEP_COLUMNS
-
-    spec = loaded.sweep
-    axes = spec.axes
-    dims = tuple(a.path.safe_name for a in axes)
-    coords = {a.path.safe_name: (a.path.safe_name, np.asarray(a.values),
-                                 {"long_name": a.path.text, "units": a.path.unit})
-              for a in axes}
-    unit = loaded.units.frequency_label_ascii
-    lunit = loaded.units.length_label_ascii
-    units = {
-        "growth_max": unit, "growth_omega_real": unit, "growth_k": f"1/{lunit}",
-        "growth_angle": "degree", "growth_per_s": "1/s", "growth_freq_hz": "Hz",
-        "growth_k_per_m": "1/m", "least_damped_omega_real": unit,
-        "least_damped_omega_imag": unit, "least_damped_k": f"1/{lunit}",
-        "least_damped_angle": "degree", "roots_found": "1", "evaluations": "1",
-    }
-    data = {}
-    for col in SWEEP_COLUMNS:
-        if col in ("i", "j", "x", "y", "reason"):
-            continue
-        arr = np.full(spec.shape, np.nan)
-        for r in rows:
-            idx = (r["i"],) if spec.y is None else (r["i"], r["j"])
-            v = r.get(col)
-            if isinstance(v, bool):
-                v = float(v)
-            if col in units and not r.get("converged", False) and col.startswith("growth"):
-                v = math.nan
-            arr[idx] = math.nan if v is None else float(v)
-        data[col] = (dims, arr, {"units": units.get(col, "1")})
-    return xr.Dataset(data, coords=coords, attrs={
-        "title": loaded.title,
-        "conventions": "exp(i k.x - i omega t); growth > 0 grows",
-        "frequency_unit": f"{unit} of the case at each grid point",
-        "length_unit": lunit,
-    })
-
-
 def sweep_command(
     case: CaseArg = None,
     output: OutOpt = Path("kinroots-sweep"),
@@ -158,6 +115,7 @@ def sweep_command(
 
     Example: kinroots sweep cases/sweep_proton_anisotropy.toml -o out/sweep --workers 2
     """
+    from kinroots.io.netcdf import dataset_bytes, sweep_dataset
     from kinroots.io.tables import atomic_write_bytes, write_csv, write_json
     from kinroots.plots.maps import plot_growth_map
     from kinroots.study.sweep import SWEEP_COLUMNS, blank_failed
@@ -167,8 +125,8 @@ def sweep_command(
     total = int(np.prod(spec.shape))
     rows = _run(loaded, "sweep", total, output, workers, scheduler)
     write_csv(output / "sweep.csv", blank_failed(rows, "sweep"), SWEEP_COLUMNS)
-    ds = _sweep_dataset(loaded, rows)
-    atomic_write_bytes(output / "sweep.nc", ds.to_netcdf(engine="scipy"))
+    atomic_write_bytes(output / "sweep.nc", dataset_bytes(sweep_dataset(
+        loaded, rows, history=f"kinroots sweep {loaded.source or 'default case'}")))
     _draw_map(loaded, rows, output)
     failed = [r for r in rows if not r.get("converged")]
     write_json(output / "sweep.json", _summary(loaded, "sweep", rows, failed))

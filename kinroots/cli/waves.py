@@ -122,7 +122,7 @@ def roots(
     from kinroots.io.tables import write_csv, write_json
     from kinroots.plots.branches import plot_root_map
     from kinroots.study.problem import function_at, survey, window
-    from kinroots.study.rows import metadata, root_row
+    from kinroots.study.rows import metadata, survey_rows
 
     loaded = load_case_or_exit(case, default)
     if at is None:
@@ -135,12 +135,7 @@ def roots(
     console = stderr_console()
     with console.status(f"surveying the window at k = {at:g}"):
         s = survey(loaded, at)
-    rows = [root_row(loaded, i, at, r) for i, r in enumerate(s.roots)]
-    if not s.complete:
-        rows.append({"branch": "", "k": at, "converged": False, "verified": False,
-                     "k_per_m": float(loaded.units.k_to_si(at)), "status": "incomplete",
-                     "reason": f"counted {s.count} zeros, found {len(s.values)}: "
-                               + "; ".join(s.notes)})
+    rows = survey_rows(loaded, at, s)
     f = function_at(loaded, at)
     summary = metadata(loaded, rows=rows, extra={
         "model": loaded.model,

@@ -46,9 +46,12 @@ from kinroots.physics.plasma import (
     E_CHARGE,
     FREQUENCY_KINDS,
     LENGTH_KINDS,
+    M_ELECTRON,
+    M_PROTON,
     Normalization,
     NormalizationError,
     Plasma,
+    Species,
     default_unit_species,
 )
 
@@ -60,9 +63,12 @@ __all__ = [
     "LaunchSpec",
     "ScanSpec",
     "SolverOptions",
+    "case_from_dict",
+    "case_from_plasma",
     "default_case_path",
     "load_case",
     "parse_case",
+    "plain_data",
 ]
 
 #: Keys that must be present (key paths; ``species[]`` means every species table).
@@ -77,9 +83,7 @@ REQUIRED: tuple[str, ...] = (
     "species[].kappa  (when distribution = \"kappa\")",
     "species[].components[].weight  (when components are given)",
     "wave.model",
-    "scan.k.start",
-    "scan.k.stop",
-    "scan.k.points",
+    "scan.k  (a table {start, stop, points}, one number, or an increasing array)",
     "search.real",
     "search.imag",
 )
@@ -132,6 +136,10 @@ _TABLE_KEYS: dict[str, tuple[str, ...]] = {
 }
 _MODELS = ("electrostatic", "electromagnetic")
 _SPACINGS = ("linear", "log")
+#: ``ScanSpec.spacing`` of a scan given as one number or an array of k values.
+LISTED = "listed"
+#: Title given by :func:`case_from_dict` to a mapping without one.
+UNTITLED = "case built in Python"
 
 
 
@@ -151,7 +159,11 @@ class CaseError(Exception):
 
 @dataclass(frozen=True)
 class ScanSpec:
-    """The wavenumber scan as written: normalized k from start to stop."""
+    """The wavenumber scan as written: normalized k from start to stop.
+
+    ``spacing`` is ``"linear"`` or ``"log"`` for a ``{start, stop, points}`` table and
+    :data:`LISTED` for one number or an array of values (``Case.k_values`` holds them).
+    """
 
     start: float
     stop: float
@@ -229,6 +241,31 @@ class Case:
         """Angle between k and z [rad]."""
         return math.radians(self.angle_deg)
 
+    def _summary_lines(self) -> list[str]:
+        u, sc = self.units, self.scan
+        names = ", ".join(s.name for s in self.plasma.species)
+        scan = (f"{sc.points} k from {sc.start:g} to {sc.stop:g}"
+                + ("" if sc.spacing == LISTED else f" ({sc.spacing})"))
+        return [
+            f"Case {self.title!r}" + (f" from {self.source}" if self.source else ""),
+            f"  species {names}; B = {self.plasma.B:g} T; {self.model}, angle "
+            f"{self.angle_deg:g} deg",
+            f"  units: omega in {u.frequency_label_ascii} = {u.omega_unit:.6g} rad/s, "
+            f"k in 1/{u.length_label_ascii} ({u.length_unit:.6g} m)",
+            f"  scan: {scan}; window Re omega {list(self.search_real)}, "
+            f"Im omega {list(self.search_imag)}",
+        ]
+
+    def __repr__(self) -> str:
+        return "\n".join(self._summary_lines())
+
+    def _repr_html_(self) -> str:
+        import html
+
+        head, *rest = self._summary_lines()
+        items = "".join(f"<li>{html.escape(line.strip())}</li>" for line in rest)
+        return f"<b>{html.escape(head)}</b><ul>{items}</ul>"
+
 
 # --------------------------------------------------------------------------------------
 # Loading
@@ -297,6 +334,128 @@ def _with_source(case: Case, path: Path) -> Case:
     return replace(case, source=path)
 
 
+def plain_data(value: Any) -> Any:
+    """``value`` with numpy scalars and arrays, tuples and mappings made plain Python.
+
+    numpy integers become ``int``, floating values ``float``, ``numpy.bool_`` ``bool``,
+    arrays and tuples lists, any mapping a ``dict``: what ``tomllib`` would have given
+    for the same document, so that a case built in code validates (and hashes, pickles
+    and rebuilds in a worker process) like the file it stands for.  Anything else is
+    returned unchanged, to be judged by the validation.
+    """
+    if isinstance(value, Mapping):
+        return {k: plain_data(v) for k, v in value.items()}
+    if isinstance(value, np.ndarray):
+        return plain_data(value.tolist())
+    if isinstance(value, list | tuple):
+        return [plain_data(v) for v in value]
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
+def case_from_dict(mapping: Mapping[str, Any], *, source: str = "case") -> Case:
+    """Validate a case given as a mapping with the keys of a case file.
+
+    Parameters
+    ----------
+    mapping : mapping
+        The tables of a case file as nested mappings (``{"species": [...], "wave":
+        {...}, "scan": {"k": ...}, "search": {...}}``).  ``title`` is optional (default
+        :data:`UNTITLED`).  ``scan.k`` may be a ``{start, stop, points}`` table, one
+        number or an increasing array.  numpy scalars and arrays are accepted wherever a
+        number or an array is (see :func:`plain_data`).  ``search`` has no default: where
+        to look for roots is the user's question.
+    source : str
+        Name used in error messages.
+
+    Raises
+    ------
+    CaseError
+        With every problem found (key path, value, expectation).
+    """
+    if not isinstance(mapping, Mapping):
+        raise CaseError([f"{source}: got {type(mapping).__name__}, expected a mapping of "
+                         "case keys (a dict)"])
+    data = plain_data(mapping)
+    data.setdefault("title", UNTITLED)
+    return parse_case(data, source)
+
+
+def _species_table(s: Species) -> dict[str, Any]:
+    """The ``[[species]]`` table of a `Species` (mass in u unless it is m_e or m_p)."""
+    names = {M_ELECTRON: "electron", M_PROTON: "proton"}
+    table: dict[str, Any] = {
+        "name": s.name, "charge": s.charge_number,
+        "mass": names.get(s.mass, s.mass / AMU), "density": s.density,
+    }
+    if s.temperature_par == s.temperature_perp:
+        table["temperature"] = s.temperature_par
+    else:
+        table["temperature_par"] = s.temperature_par
+        table["temperature_perp"] = s.temperature_perp
+    if s.drift:
+        table["drift"] = s.drift
+    if s.collision_frequency:
+        table["collision_frequency"] = s.collision_frequency
+    return table
+
+
+def case_from_plasma(
+    plasma: Plasma,
+    *,
+    search: Mapping[str, Any],
+    k: Any = None,
+    model: str = "electrostatic",
+    angle: float = 0.0,
+    units: Mapping[str, str] | None = None,
+    solver: Mapping[str, Any] | None = None,
+    title: str | None = None,
+) -> Case:
+    """A case from a `Plasma` built in code.
+
+    Parameters
+    ----------
+    plasma : Plasma
+        Species (SI, temperatures in eV) and B [T].
+    search : mapping
+        ``{"real": [min, max], "imag": [min, max]}``: the window in normalized ω.
+    k : float, array or mapping, optional
+        ``scan.k``: one number, an increasing array or ``{start, stop, points}``
+        (normalized).  Without it the scan is the single value k = 1; ``roots`` and
+        ``dispersion`` take their own k, ``solve`` traces across the scan.
+    model : str
+        ``"electrostatic"`` or ``"electromagnetic"``.
+    angle : float
+        Angle between k and B (z) [degrees].
+    units : mapping, optional
+        ``{"frequency": ..., "length": ...}`` as in the ``[units]`` table.
+    solver : mapping, optional
+        The ``[solver]`` table.
+    title : str, optional
+
+    Notes
+    -----
+    The plasma is written as the ``[[species]]`` tables of a case file (masses equal to
+    the electron or proton mass as ``"electron"``/``"proton"``, other masses in atomic
+    mass units) and validated like a file, so every check and message is the file's;
+    the case rebuilds identically in worker processes from ``Case.raw``.
+    """
+    data: dict[str, Any] = {
+        "title": title if title is not None else UNTITLED,
+        "magnetic_field": {"B": plasma.B},
+        "species": [_species_table(s) for s in plasma.species],
+        "wave": {"model": model, "angle": angle},
+        "scan": {"k": 1.0 if k is None else k},
+        "search": dict(search),
+    }
+    if units is not None:
+        data["units"] = dict(units)
+    if solver is not None:
+        data["solver"] = dict(solver)
+    return case_from_dict(data, source=title or "plasma built in Python")
+
+
 # --------------------------------------------------------------------------------------
 # Validation
 # --------------------------------------------------------------------------------------
@@ -347,6 +506,7 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         With every problem found.
     """
     chk = Checker(source)
+    data = plain_data(data)
     if not isinstance(data, dict):
         raise CaseError([f"{source}: expected a TOML document (a table of keys)"])
     if _depth(data) > MAX_DEPTH:
@@ -382,7 +542,7 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         check=lambda x: 0 <= x <= 180,
     )
 
-    scan_spec = _check_scan(chk, data)
+    scan = _check_scan(chk, data)
 
     search = chk.table(data, "search", "search", required=True) or {}
     chk.unknown_keys(search, _TABLE_KEYS["search"], "search")
@@ -473,7 +633,8 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         raise CaseError(chk.errors)
 
     assert B is not None and model is not None and angle is not None
-    assert scan_spec is not None and real is not None and imag is not None
+    assert scan is not None and real is not None and imag is not None
+    scan_spec, k_values = scan
     plasma = Plasma(tuple(s for s in species if s is not None), B)
     default_name = _default_unit_name(plasma)
     fspec = units_tab.get("frequency", f"plasma:{default_name}")
@@ -483,10 +644,6 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
     except NormalizationError as exc:  # only reachable for degenerate species data
         raise CaseError([f"{source}: units: {exc}"]) from None
 
-    if scan_spec.spacing == "log":
-        k_values = np.geomspace(scan_spec.start, scan_spec.stop, scan_spec.points)
-    else:
-        k_values = np.linspace(scan_spec.start, scan_spec.stop, scan_spec.points)
     k_values.setflags(write=False)
 
     return Case(
@@ -513,14 +670,37 @@ def _default_unit_name(plasma: Plasma) -> str:
     return default_unit_species(plasma).name
 
 
-def _check_scan(chk: Checker, data: Mapping[str, Any]) -> ScanSpec | None:
+def _check_scan(chk: Checker, data: Mapping[str, Any]
+                ) -> tuple[ScanSpec, np.ndarray] | None:
+    """``scan.k``: a ``{start, stop, points, spacing}`` table, one number or an array."""
     scan = chk.table(data, "scan", "scan", required=True)
     if scan is None:
         return None
     chk.unknown_keys(scan, _TABLE_KEYS["scan"], "scan")
-    k = chk.table(scan, "k", "scan.k", required=True)
-    if k is None:
+    expected = ("a table {start, stop, points}, a number > 0 or an increasing array of "
+                "numbers > 0 (normalized k)")
+    if "k" not in scan:
+        chk.missing("scan.k", expected)
         return None
+    value = scan["k"]
+    if isinstance(value, list | int | float) and not isinstance(value, bool):
+        values = value if isinstance(value, list) else [value]
+        good = bool(values) and all(
+            not isinstance(v, bool) and isinstance(v, int | float) and math.isfinite(v) and v > 0
+            for v in values
+        )
+        if not good:
+            chk.bad("scan.k", value, expected)
+            return None
+        if any(b <= a for a, b in zip(values, values[1:], strict=False)):
+            chk.bad("scan.k", value, "k values in increasing order")
+            return None
+        ks = np.array([float(v) for v in values])
+        return ScanSpec(float(ks[0]), float(ks[-1]), len(ks), LISTED), ks
+    if not isinstance(value, dict):
+        chk.bad("scan.k", value, expected)
+        return None
+    k = value
     chk.unknown_keys(k, _TABLE_KEYS["scan.k"], "scan.k")
     start = chk.ranged(k, "start", "scan.k.start", LIMITS["scan.k"])
     stop = chk.ranged(k, "stop", "scan.k.stop", LIMITS["scan.k"])
@@ -534,7 +714,8 @@ def _check_scan(chk: Checker, data: Mapping[str, Any]) -> ScanSpec | None:
         return None
     if start is None or stop is None or points is None or spacing is None:
         return None
-    return ScanSpec(start, stop, points, spacing)
+    grid = np.geomspace if spacing == "log" else np.linspace
+    return ScanSpec(start, stop, points, spacing), grid(start, stop, points)
 
 
 def _check_launch(chk: Checker, data: Mapping[str, Any]) -> LaunchSpec | None:

@@ -104,6 +104,16 @@ def atomic_write_text(path: Path, text: str) -> None:
     atomic_write_bytes(path, text.encode("utf-8"))
 
 
+def root_table_columns(rows: Iterable[Mapping[str, Any]]) -> tuple[str, ...]:
+    """:data:`ROOT_COLUMNS` and the per-species columns of ``rows`` (first-seen order)."""
+    extra: dict[str, None] = {}
+    for row in rows:
+        for key in row:
+            if key.startswith(PER_SPECIES_PREFIXES) and key not in ROOT_COLUMNS:
+                extra[key] = None
+    return (*ROOT_COLUMNS, *extra)
+
+
 def rows_to_csv(rows: Iterable[Mapping[str, Any]], columns: Sequence[str] = ROOT_COLUMNS) -> str:
     """Render rows (mappings from column name to value) as CSV text.
 
@@ -112,12 +122,7 @@ def rows_to_csv(rows: Iterable[Mapping[str, Any]], columns: Sequence[str] = ROOT
     """
     if columns is ROOT_COLUMNS:
         rows = list(rows)
-        extra: dict[str, None] = {}
-        for row in rows:
-            for key in row:
-                if key.startswith(PER_SPECIES_PREFIXES) and key not in columns:
-                    extra[key] = None
-        columns = (*columns, *extra)
+        columns = root_table_columns(rows)
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(columns)

@@ -457,6 +457,35 @@ class Dispersion:
             n2 = (self.k * C_LIGHT / om) ** 2
             return np.eye(3) + chi - n2[..., None, None] * proj
 
+    def susceptibilities(self, omega: Any) -> dict[str, np.ndarray]:
+        """The susceptibility χ_s of every species, by name.
+
+        Parameters
+        ----------
+        omega : array_like of complex
+            Frequencies [rad/s], any shape.
+
+        Returns
+        -------
+        dict of str to ndarray of complex
+            Electrostatic models: the scalar longitudinal χ_s, shaped like ``omega``, so
+            that D = 1 + Σ_s χ_s.  Electromagnetic models: the tensor χ_s in the (x, y, z)
+            frame (B along z, k in the x-z plane), shaped ``omega.shape + (3, 3)``, so that
+            ε = I + Σ_s χ_s (ω = 0 is a pole there: non-finite).  Each from the species'
+            builder (:mod:`kinroots.physics.models`), which cites its formula.
+        """
+        om = np.asarray(omega, dtype=complex)
+        out: dict[str, np.ndarray] = {}
+        with np.errstate(all="ignore"):
+            for s in self.plasma.species:
+                res: Susceptibility = self._builder(
+                    om, s, k_par=self.k_par, k_perp=self.k_perp, B=self.plasma.B,
+                    tol=self.harmonic_tol,
+                )
+                value = np.asarray(res.value)
+                out[s.name] = value if self.electromagnetic else value.reshape(om.shape)
+        return out
+
     def singular_points(
         self, re_min: float, re_max: float, im_min: float, im_max: float
     ) -> list[complex]:

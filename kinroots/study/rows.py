@@ -11,6 +11,7 @@ from kinroots.physics import modes
 from kinroots.physics.plasma import CONVENTIONS, derived_quantities
 from kinroots.roots import (
     RootResult,
+    SurveyResult,
 )
 from kinroots.study.problem import MATCH_FRACTION
 
@@ -53,6 +54,18 @@ def root_row(case: Case, branch: int | str, k: float, r: RootResult,
         "reason": r.reason,
         **identity,
     }
+
+
+def survey_rows(case: Case, k: float, s: SurveyResult) -> list[dict[str, Any]]:
+    """Rows of roots.csv: every root of survey ``s`` at normalized ``k``; an incomplete
+    survey adds a row (``converged`` false, status "incomplete") saying what is missing."""
+    rows = [root_row(case, i, k, r) for i, r in enumerate(s.roots)]
+    if not s.complete:
+        rows.append({"branch": "", "k": k, "converged": False, "verified": False,
+                     "k_per_m": float(case.units.k_to_si(k)), "status": "incomplete",
+                     "reason": f"counted {s.count} zeros, found {len(s.values)}: "
+                               + "; ".join(s.notes)})
+    return rows
 
 
 def branch_rows(sol: Solution) -> list[dict[str, Any]]:
