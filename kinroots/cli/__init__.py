@@ -15,5 +15,10 @@ for _module in (case_commands, waves, lab, stability):
 # No traceback reaches a user: internal errors exit 3 with the traceback in a file.
 for _info in app.registered_commands:
     _info.callback = guarded(_info.callback)
+    # Examples are shown line by line as written (click's "\b" marker), not re-wrapped
+    # like the paragraphs above them, so a command is never broken inside an option name.
+    if _info.callback.__doc__:
+        _info.callback.__doc__ = _info.callback.__doc__.replace(
+            "\n\n    Example:", "\n\n    \b\n    Example:")
 
 __all__ = ["app"]

@@ -30,13 +30,58 @@ app = typer.Typer(
     name="kinroots",
     help="Roots of the linear Vlasov dispersion relation of multi-species plasmas.",
     no_args_is_help=True,
-    add_completion=False,
+    # Plain click help: every word of the docstrings is shown (rich markup would take
+    # "[sweep]" for a style tag and drop it) and paragraphs are re-wrapped to the terminal.
+    rich_markup_mode=None,
+    add_completion=True,
 )
+
+
+class _Verbosity:
+    """Process-wide verbosity of the command line: 0 quiet, 1 normal, 2 verbose."""
+
+    level: int = 1
+
+
+VERBOSITY = _Verbosity()
+
+
+def _show_version(value: bool) -> None:
+    if value:
+        from kinroots import __version__
+
+        typer.echo(f"kinroots {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def main(
+    version: Annotated[bool, typer.Option(
+        "--version", callback=_show_version, is_eager=True,
+        help="Print the kinroots version and exit.")] = False,
+    quiet: Annotated[bool, typer.Option(
+        "--quiet", "-q", help="Only errors and warnings on stderr (no progress, no notes).")]
+        = False,
+    verbose: Annotated[bool, typer.Option(
+        "--verbose", "-v", help="More detail on stderr (the case summary).")]
+        = False,
+) -> None:
+    """Roots of the linear Vlasov dispersion relation of multi-species plasmas.
+
+    Results go to files (and a summary to stdout); progress, notes, warnings and
+    errors go to stderr.
+    """
+    if quiet and verbose:
+        err("error: options -q/--quiet and -v/--verbose: both given; expected at most one")
+        raise typer.Exit(EXIT_BAD_INPUT)
+    VERBOSITY.level = 0 if quiet else 2 if verbose else 1
+
 
 CaseArg = Annotated[
     Path | None,
     typer.Argument(
-        help="Case file (TOML). Omit it to use the embedded default case.",
+        help="Case file (TOML); '-' reads it from stdin. Omit it to use the embedded "
+        "default case.",
         show_default=False,
         dir_okay=True,
         exists=False,
@@ -49,7 +94,20 @@ DefaultOpt = Annotated[
 
 
 def err(message: str) -> None:
+    """An error or warning on stderr (shown even with --quiet)."""
     typer.echo(message, err=True)
+
+
+def info(message: str) -> None:
+    """A diagnostic note on stderr, silenced by --quiet."""
+    if VERBOSITY.level > 0:
+        typer.echo(message, err=True)
+
+
+def detail(message: str) -> None:
+    """A verbose-only note on stderr (-v)."""
+    if VERBOSITY.level > 1:
+        typer.echo(message, err=True)
 
 
 def _save_traceback(exc: BaseException) -> Path | None:
@@ -110,7 +168,7 @@ def stderr_console() -> Console:
     """Rich console on stderr that shows every string literally (no markup, no
     highlighting): titles, names and paths are user text.  Styles are passed with
     ``style=``; the progress columns escape their descriptions."""
-    return Console(stderr=True, markup=False, highlight=False)
+    return Console(stderr=True, markup=False, highlight=False, quiet=VERBOSITY.level == 0)
 
 
 def _refuse(errors: list[str], case: Path) -> NoReturn:
@@ -136,9 +194,17 @@ def load_case_or_exit(case: Path | None, use_default: bool = False) -> Case:
         raise typer.Exit(EXIT_BAD_INPUT)
     if case is None:
         case = default_case_path()
-        err(f"kinroots: no case file given; using the embedded default case ({case})")
+        info(f"kinroots: no case file given; using the embedded default case ({case})")
     try:
-        loaded = load_case(case)
+        if str(case) == "-":
+            import sys
+
+            from kinroots.io.case import parse_case_bytes
+            from kinroots.io.limits import MAX_CASE_BYTES
+
+            loaded = parse_case_bytes(sys.stdin.buffer.read(MAX_CASE_BYTES + 1), "<stdin>")
+        else:
+            loaded = load_case(case)
     except CaseError as exc:
         _refuse(exc.errors, case)
     warnings = list(loaded.warnings)
@@ -151,6 +217,7 @@ def load_case_or_exit(case: Path | None, use_default: bool = False) -> Case:
         warnings += corner_warnings
     for line in warnings:
         err(f"warning: {case}: {line}")
+    detail(f"case: {case_summary(loaded)}")
     return loaded
 
 

@@ -138,8 +138,8 @@ def scatter_command(
     k = k_s − k_i makes the case's wave.angle with z (the drift axis).  Needs B = 0 and
     no collisions.  Exit code 0 done, 2 bad input.
 
-    Example: kinroots scatter cases/lab_launched_ion_acoustic.toml --laser-wavelength
-    532e-9 --angle 90 -o out/scatter
+    Example: kinroots scatter cases/lab_launched_ion_acoustic.toml
+             --laser-wavelength 532e-9 --angle 90 -o out/scatter
     """
     from kinroots.io.tables import write_csv, write_json
     from kinroots.physics import spectrum

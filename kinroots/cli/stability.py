@@ -113,7 +113,8 @@ def sweep_command(
     to resume. Exit code 0 when every point converged, 1 when some failed (flagged,
     value cells empty), 2 on bad input or a case changed since the points were stored.
 
-    Example: kinroots sweep cases/sweep_proton_anisotropy.toml -o out/sweep --workers 2
+    Example: kinroots sweep cases/sweep_proton_anisotropy.toml -o out/sweep
+             --workers 2
     """
     from kinroots.io.netcdf import dataset_bytes, sweep_dataset
     from kinroots.io.tables import atomic_write_bytes, write_csv, write_json

@@ -299,9 +299,6 @@ def load_case(path: str | Path) -> Case:
                              f"at most {MAX_CASE_BYTES} bytes"])
         with open(p, "rb") as fh:
             data = fh.read(MAX_CASE_BYTES + 1)
-        if len(data) > MAX_CASE_BYTES:
-            raise CaseError([f"{name}: more than {MAX_CASE_BYTES} bytes; expected a TOML "
-                             "case file below that size"])
     except FileNotFoundError:
         raise CaseError([f"{name}: file not found"]) from None
     except IsADirectoryError:
@@ -310,6 +307,22 @@ def load_case(path: str | Path) -> Case:
         raise CaseError([f"{name}: cannot read the file (permission denied)"]) from None
     except OSError as exc:
         raise CaseError([f"{name}: cannot read the file ({exc.strerror or exc})"]) from None
+    return _with_source(parse_case_bytes(data, name), p)
+
+
+def parse_case_bytes(data: bytes, name: str) -> Case:
+    """Decode, parse and validate the bytes of a case file (e.g. read from stdin).
+
+    ``name`` stands for the file in messages.  The case's ``source`` stays None.
+
+    Raises
+    ------
+    CaseError
+        Too large, not UTF-8, not TOML, or not a valid case.
+    """
+    if len(data) > MAX_CASE_BYTES:
+        raise CaseError([f"{name}: more than {MAX_CASE_BYTES} bytes; expected a TOML "
+                         "case file below that size"])
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as exc:
@@ -326,8 +339,7 @@ def load_case(path: str | Path) -> Case:
     except RecursionError:
         raise CaseError([f"{name}: arrays or tables nested too deeply; expected at most "
                          f"{MAX_DEPTH} levels"]) from None
-    case = parse_case(parsed, name)
-    return _with_source(case, p)
+    return parse_case(parsed, name)
 
 
 def _with_source(case: Case, path: Path) -> Case:
