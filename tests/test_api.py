@@ -95,6 +95,19 @@ def test_case_from_dict_takes_numpy_values_one_k_and_no_title():
     assert len(repr(case).splitlines()) <= 5
 
 
+def test_case_from_plasma_keeps_every_species_kind():
+    from kinroots.physics.plasma import Component
+
+    kappa = kinroots.Species("e", -1, m_e, 1e16, 2.0, 3.0, distribution="kappa", kappa=4.0)
+    parts = (Component(0.8, 1.0, 1.0, -1e5), Component(0.2, 1.0, 2.0, 4e5))
+    split = kinroots.Species("p", 1, m_p, 1e16, 0.0, 0.0, components=parts)
+    case = kinroots.case_from_plasma(kinroots.Plasma((kappa, split), B=1e-3),
+                                     model="electromagnetic", search=WINDOW)
+    got = case.plasma.species
+    assert got[0] == kappa
+    assert got[1].components == parts and got[1].mass == m_p
+
+
 def test_dispersion_and_susceptibilities_against_mpmath():
     beam = kinroots.Species("beam", -1, m_e, 1e15, 1.0, 1.0, drift=3e6)
     bulk = kinroots.Species("e", -1, m_e, 9e15, 2.0, 2.0, drift=-3e6 / 9)

@@ -394,6 +394,12 @@ def case_from_dict(mapping: Mapping[str, Any], *, source: str = "case") -> Case:
     return parse_case(data, source)
 
 
+def _temperature_keys(t_par: float, t_perp: float) -> dict[str, float]:
+    if t_par == t_perp:
+        return {"temperature": t_par}
+    return {"temperature_par": t_par, "temperature_perp": t_perp}
+
+
 def _species_table(s: Species) -> dict[str, Any]:
     """The ``[[species]]`` table of a `Species` (mass in u unless it is m_e or m_p)."""
     names = {M_ELECTRON: "electron", M_PROTON: "proton"}
@@ -401,13 +407,20 @@ def _species_table(s: Species) -> dict[str, Any]:
         "name": s.name, "charge": s.charge_number,
         "mass": names.get(s.mass, s.mass / AMU), "density": s.density,
     }
-    if s.temperature_par == s.temperature_perp:
-        table["temperature"] = s.temperature_par
+    if s.components:  # the species' moments follow from its components
+        table["components"] = [
+            {"weight": c.weight, **_temperature_keys(c.temperature_par, c.temperature_perp),
+             "drift": c.drift}
+            for c in s.components
+        ]
     else:
-        table["temperature_par"] = s.temperature_par
-        table["temperature_perp"] = s.temperature_perp
-    if s.drift:
-        table["drift"] = s.drift
+        table.update(_temperature_keys(s.temperature_par, s.temperature_perp))
+        if s.drift:
+            table["drift"] = s.drift
+    if s.distribution != "maxwellian":
+        table["distribution"] = s.distribution
+    if s.kappa is not None:
+        table["kappa"] = s.kappa
     if s.collision_frequency:
         table["collision_frequency"] = s.collision_frequency
     return table
