@@ -171,13 +171,20 @@ def _scaled_matrix(
     shape = np.broadcast_shapes(np.shape(omega), np.shape(k)) + (3, 3)
     total = np.broadcast_to(total, shape).copy()
     dtotal = np.broadcast_to(dtotal, shape).copy()
+    _add_vacuum(total, dtotal, omega, k, omega_ref)
+    return total, dtotal, harmonics
+
+
+def _add_vacuum(total: np.ndarray, dtotal: np.ndarray, omega: np.ndarray, k: Any,
+                omega_ref: float) -> None:
+    """Add the vacuum part of S (class Notes of :class:`Dispersion`) in place:
+    w² − (kc/ω_ref)² on the transverse diagonal, 1 on the longitudinal one."""
     w = omega / omega_ref
     n2ref = (k * C_LIGHT / omega_ref) ** 2
     for i in range(2):
         total[..., i, i] += w * w - n2ref
         dtotal[..., i, i] += 2.0 * w / omega_ref
     total[..., 2, 2] += 1.0
-    return total, dtotal, harmonics
 
 
 def in_blocks(
@@ -332,6 +339,17 @@ class Dispersion:
                                model=self.model, magnetized=self.magnetized, scaled=True)
             if self.electromagnetic else None
         )
+        #: Electromagnetic magnetized plasmas of plain species at k∥ ≠ 0: Σ_s S_s from the
+        #: module's ``ScaledSum`` (per-k weight columns cached, one Z call for every
+        #: species and harmonic); None where the builders serve.
+        self._scaled_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
+        if self.electromagnetic and self.magnetized and plain_species(plasma.species):
+            module = importlib.import_module(_REGISTRY[(self.model, True)])
+            factory = getattr(module, "ScaledSum", None)
+            if factory is not None:
+                self._scaled_sum = factory.for_species(
+                    tuple(plasma.species), k_par=self.k_par, k_perp=self.k_perp, B=plasma.B,
+                    tol=self.harmonic_tol, omega_ref=self.omega_ref)
         #: Electrostatic models whose module offers ``SpeciesSum`` (constants per species
         #: cached here, since k is fixed; every species in one pass): Σχ_s from it.
         self._species_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
@@ -389,6 +407,10 @@ class Dispersion:
 
     def _scaled(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """S and dS/dω (class Notes), summed over species, in the frame (e₁, e₂, k̂)."""
+        if self._scaled_sum is not None:
+            total, dtotal = self._scaled_sum(omega)
+            _add_vacuum(total, dtotal, omega, self.k, self.omega_ref)
+            return total, dtotal
         total, dtotal, harmonics = _scaled_matrix(
             self.plasma, self._scaled_builder, omega, k=self.k, k_par=self.k_par,
             k_perp=self.k_perp, omega_ref=self.omega_ref, tol=self.harmonic_tol,

@@ -506,13 +506,15 @@ def harmonics_needed(species: Species, *, k_perp: complex, B: float, tol: float)
     :func:`bessel_weights`, whose cached table is the one the builders then use); 0 when
     an input is not finite or a temperature is not positive (the builders give NaN).
     """
-    with np.errstate(all="ignore"):
-        wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
-        omega_c = species.cyclotron_frequency(B)
-        lam = _lam(complex(k_perp), wperp, omega_c)
-    if B == 0 or not cmath.isfinite(lam):
-        return 0
-    return int(bessel_weights(lam, tol).harmonics)
+    needed = 0
+    for _, part in species.component_species():  # a species made of Maxwellian parts
+        with np.errstate(all="ignore"):
+            wperp = part.thermal_speed_perp if part.temperature_perp > 0 else np.nan
+            omega_c = part.cyclotron_frequency(B)
+            lam = _lam(complex(k_perp), wperp, omega_c)
+        if B != 0 and cmath.isfinite(lam):
+            needed = max(needed, int(bessel_weights(lam, tol).harmonics))
+    return needed
 
 
 #: Number of ω at one k from which an array-k call evaluates that k with shared weights

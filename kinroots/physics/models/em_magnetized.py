@@ -504,3 +504,223 @@ def _perpendicular_parts(
     s33 = -2.0 * kperp * kperp * e_ng
     ds33 = -2.0 * kperp * kperp * de_ng
     return t, dt, h, dh, s33, ds33
+
+
+#: Values per species of the contracted rows of :class:`ScaledSum`: Z_eff, Z', F' against
+#: the 7 weight columns (21), c Z', c F' against (g, Γ', Γ) (6), c̃ Z', c̃ F' against Γ (2).
+_PER_SPECIES = 29
+
+
+class ScaledSum:
+    r"""Σ_s S_s and Σ_s dS_s/dω of :func:`scaled_susceptibility` at one fixed k, all species
+    at once (plain collisionless drifting bi-Maxwellians, k∥ ≠ 0).
+
+    Parameters
+    ----------
+    species : tuple of Species
+        The species (see :meth:`for_species` for when this class applies).
+    k_par, k_perp : complex
+        Wave-vector components [1/m] (scalars, k∥ ≠ 0).
+    B, tol, omega_ref : float
+        As for :func:`scaled_susceptibility`.
+
+    Notes
+    -----
+    The formulas of :func:`scaled_susceptibility` (k∥ ≠ 0), organized for fixed k. Every
+    per-harmonic factor there is a combination of Z_eff, Z', F' = dF/dζ, c_n Z', c_n F',
+    c̃_n Z' and c̃_n F' (c_n = ω − nΩ, c̃_n = c_n (c_n + nΩ/τ), F = −Z'/2) with
+    coefficients that depend on ω (not on n) or on n only through the weights. A call
+    forms ζ_n of every species in one array, evaluates Z and Z' there in one call, builds
+    these seven rows harmonic by harmonic (so the products with c_n introduce no
+    cancellation where c_n is small) and contracts them with seven weight columns
+    (n g_n, nΓ_n', n g_n − 2λΓ_n', g_n, Γ_n', Γ_n, nΓ_n) built once here.
+
+    What follows is linear in those 29 sums per species, with coefficients of the form
+    α + ωβ (u = (ω − k∥V)/a, and ω itself in the longitudinal row): the species sum,
+    the tensor assembly, the projection on the wave frame and the scale factors of
+    :func:`scaled_susceptibility` are therefore one fixed complex matrix for α and one
+    for β, computed here once per k by running the assembly (:meth:`_assemble`) on unit
+    vectors. A call costs one Z evaluation, the contractions and two small products.
+    """
+
+    def __init__(self, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
+                 B: float, tol: float, omega_ref: float) -> None:
+        from kinroots.physics.models._harmonics import prepare_species
+
+        kpar, kperp = complex(k_par), complex(k_perp)
+        consts = []
+        cols = []
+        slices = []
+        start = 0
+        nw_all = []
+        nwt_all = []
+        shift_all = []
+        inv_sa_all = []
+        self.harmonics: dict[str, int] = {}
+        sign = landau_sign(kpar)
+        for s in species:
+            setup = prepare_species((), s, k_par=kpar, k_perp=kperp, B=B, tol=tol,
+                                    model="em_magnetized")
+            if isinstance(setup, Susceptibility):
+                raise ValueError("non-finite species constants or no converged harmonic sum")
+            w = setup.weights
+            self.harmonics[s.name] = w.harmonics
+            lam = setup.lam
+            tau = s.temperature_perp / s.temperature_par
+            omega_c = setup.omega_c
+            n = w.n
+            cols.append(np.array([n * w.g, n * w.dgamma, n * w.g - 2.0 * lam * w.dgamma,
+                                  w.g, w.dgamma, w.gamma, n * w.gamma]).conj())
+            size = n.size
+            slices.append(slice(start, start + size))
+            start += size
+            a = kpar * setup.w_par
+            nw_all.append(n * omega_c)
+            nwt_all.append(n * omega_c / tau)
+            shift_all.append(np.full(size, kpar * setup.drift))
+            inv_sa_all.append(np.full(size, 1.0 / (sign * a)))
+            consts.append((tau, a, setup.drift / setup.w_par, omega_c, kpar * setup.drift,
+                           setup.w_par**2, s.plasma_frequency**2))
+        self._cols = cols
+        self._slices = slices
+        self._nw = np.concatenate(nw_all)
+        self._nwt = np.concatenate(nwt_all)
+        self._shift = np.concatenate(shift_all)
+        self._inv_sa = np.concatenate(inv_sa_all)
+        self._sign = sign
+        self._c = tuple(np.array(c, dtype=complex) for c in zip(*consts, strict=True))
+        k, cth, sth = _frame(kpar, kperp)
+        self._frame = (k, cth, sth)
+        self._kperp = kperp
+        self._kpar = kpar
+        self._scale = (1.0 / omega_ref**2, 1.0 / (omega_ref * k), 1.0 / (k * k))
+        # the linear maps: outputs (value, derivative: 18) from the 29 sums per species
+        n_in = _PER_SPECIES * len(species)
+        basis = np.eye(n_in, dtype=complex)
+        zero = np.zeros((n_in, 1), dtype=complex)
+        fixed = np.concatenate(self._assemble(zero, basis, linear=False), axis=1)
+        slope = np.concatenate(self._assemble(zero, basis, linear=True), axis=1)
+        # rows: outputs; conjugated for np.vecdot (which conjugates its first argument)
+        self._fixed = np.ascontiguousarray(fixed.reshape(n_in, 18).T.conj())
+        self._slope = np.ascontiguousarray(slope.reshape(n_in, 18).T.conj())
+
+    @classmethod
+    def for_species(cls, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
+                    B: float, tol: float, omega_ref: float) -> ScaledSum | None:
+        """The sum, or None where the builders' general path must serve: k∥ = 0, a species
+        that is not one plain collisionless bi-Maxwellian, a non-finite constant or a
+        harmonic sum that does not converge."""
+        if complex(k_par) == 0 or not species or B == 0:
+            return None
+        if not all(getattr(s, "is_plain_maxwellian", True) and s.collision_frequency == 0.0
+                   for s in species):
+            return None
+        try:
+            with np.errstate(all="ignore"):
+                out = cls(tuple(species), k_par=k_par, k_perp=k_perp, B=B, tol=tol,
+                          omega_ref=omega_ref)
+        except (ValueError, ZeroDivisionError, OverflowError):
+            return None
+        finite = [out._nw, out._nwt, out._inv_sa, out._fixed, out._slope]
+        if not all(np.all(np.isfinite(x)) for x in finite):
+            return None
+        return out
+
+    def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Σ_s S_s and Σ_s dS_s/dω, shaped ``omega.shape + (3, 3)`` (call under
+        ``np.errstate(all="ignore")``; non-finite ω give non-finite entries)."""
+        om = np.asarray(omega, dtype=complex)
+        w = om.reshape(-1, 1)
+        cn = w - self._nw
+        zt = (cn - self._shift) * self._inv_sa
+        zf, zp = plasma_z_and_prime(zt)
+        m = w.shape[0]
+        rows = np.empty((m, 7, zt.shape[1]), dtype=complex)
+        if self._sign < 0:
+            np.negative(zf, out=rows[:, 0])
+            np.subtract(rows[:, 0], zt * zp, out=rows[:, 2])
+        else:
+            rows[:, 0] = zf
+            np.add(zf, zt * zp, out=rows[:, 2])
+        rows[:, 1] = zp
+        np.multiply(cn, zp, out=rows[:, 3])
+        np.multiply(cn, rows[:, 2], out=rows[:, 4])
+        cm = cn * (cn + self._nwt)
+        np.multiply(cm, zp, out=rows[:, 5])
+        np.multiply(cm, rows[:, 2], out=rows[:, 6])
+        sums = np.empty((m, len(self._cols), _PER_SPECIES), dtype=complex)
+        for i, (cols, sl) in enumerate(zip(self._cols, self._slices, strict=True)):
+            np.vecdot(cols, rows[:, 0:3, None, sl], out=sums[:, i, 0:21].reshape(m, 3, 7))
+            np.vecdot(cols[3:6], rows[:, 3:5, None, sl], out=sums[:, i, 21:27].reshape(m, 2, 3))
+            np.vecdot(cols[5], rows[:, 5:7, sl], out=sums[:, i, 27:29])
+        x = sums.reshape(m, 1, -1)
+        out = np.vecdot(self._fixed, x) + w * np.vecdot(self._slope, x)
+        shape = om.shape + (3, 3)
+        return out[:, :9].reshape(shape), out[:, 9:].reshape(shape)
+
+    def _assemble(self, w: np.ndarray, x: np.ndarray,
+                  linear: bool) -> tuple[np.ndarray, np.ndarray]:
+        """S and dS/dω (m, 3, 3) from the 29 sums per species ``x`` (m, species · 29) at
+        ω = ``w`` (m, 1); with ``linear`` the coefficient of ω instead (formulas of
+        :func:`_oblique_parts`, summed over species with the weights ω_p²)."""
+        m = x.shape[0]
+        x = x.reshape(m, -1, _PER_SPECIES)
+        A = x[..., 0:21].reshape(m, -1, 3, 7)  # (point, species, row, column)
+        Bs = x[..., 21:27].reshape(m, -1, 2, 3)
+        C = x[..., 27:29]
+        tau, a, vw, om_c, kv, wpar2, wp2 = self._c
+        zf, zp, fp = A[:, :, 0], A[:, :, 1], A[:, :, 2]  # (point, species, column)
+        one = 0.0 if linear else 1.0  # drops every term without a factor ω
+        u = (1.0 / a) + 0.0 * w if linear else (w - kv) / a  # (point, species)
+        # columns 0-4: Φ sums (n g, nΓ', n g − 2λΓ') and their g, Γ' analogues
+        ph = -u[..., None] * zf[..., 0:5] + (one * 0.5 * (tau - 1.0))[:, None] * zp[..., 0:5]
+        dph = -(one * zf[..., 0:5] + u[..., None] * zp[..., 0:5]
+                + (one * (tau - 1.0))[:, None] * fp[..., 0:5]) / a[:, None]
+        ov = om_c * vw
+        y = one * (-(0.5 * tau)[:, None] * Bs[:, :, 0, 0:2]
+                   - (0.5 * om_c)[:, None] * zp[..., 0:2] + ov[:, None] * zf[..., 0:2])
+        dy = one * (-(0.5 * tau)[:, None] * zp[..., 3:5] + (
+            tau[:, None] * Bs[:, :, 1, 0:2] + om_c[:, None] * fp[..., 0:2]
+            + ov[:, None] * zp[..., 0:2]) / a[:, None])
+        okt = om_c * kv / tau
+        mm = one * (-0.5 * C[..., 0] + okt * (-0.5 * zp[..., 6] + vw * zf[..., 6]))
+        dmm = one * (-Bs[:, :, 0, 2] - (0.5 * om_c / tau) * zp[..., 6]
+                     + (C[..., 1] + okt * (fp[..., 6] + vw * zp[..., 6])) / a)
+        rest = (-0.5 * (1.0 - tau)) * zp[..., 6] + vw * zf[..., 6]
+        drest = ((1.0 - tau) * fp[..., 6] + vw * zp[..., 6]) / a
+        fg = -0.5 * zp[..., 5]
+        fpg = fp[..., 5]
+        ot = om_c / tau
+        if linear:  # coefficients of ω in ω fg + (Ω/τ) rest and fg + ω dfg + (Ω/τ) drest
+            gz, dgz = fg, fpg / a
+        else:
+            gz = w * fg + ot * rest
+            dgz = fg + w * (fpg / a) + ot * drest
+        s33 = one * (fg + (ot / a) * zf[..., 6])
+        ds33 = one * (fpg + (ot / a) * zp[..., 6]) / a
+        # species sums, weighted by ω_p² (and κ, 2/a² for the Y and M sums)
+        kperp, kpar = self._kperp, self._kpar
+        kap = wp2 * kperp / (kpar * om_c)
+        zfac = wp2 * 2.0 / (a * a)
+        pre = wp2 * kperp / om_c
+        zpre = wp2 * 2.0 / (kpar * wpar2)
+        c33 = wp2 * 2.0 / wpar2
+        sp = np.einsum("s,msc->mc", wp2, ph[..., 0:3])
+        dsp = np.einsum("s,msc->mc", wp2, dph[..., 0:3])
+        sy = np.einsum("s,msc->mc", kap, y)
+        dsy = np.einsum("s,msc->mc", kap, dy)
+        sz = mm @ zfac
+        dsz = dmm @ zfac
+        h = np.stack([-(ph[..., 3] @ pre), -1j * (ph[..., 4] @ pre), gz @ zpre], axis=-1)
+        dh = np.stack([-(dph[..., 3] @ pre), -1j * (dph[..., 4] @ pre), dgz @ zpre], axis=-1)
+        k, cth, sth = self._frame
+        s_t, s_l, s_33 = self._scale
+        value = _project(_tensor(sp, sy, sz, 1.0, 1.0), h, cth, sth)
+        deriv = _project(_tensor(dsp, dsy, dsz, 1.0, 1.0), dh, cth, sth)
+        for out in (value, deriv):
+            out[:, :2, :2] *= s_t
+            out[:, 2, :2] *= s_l
+            out[:, :2, 2] *= s_l
+        value[:, 2, 2] = s_33 * (s33 @ c33)
+        deriv[:, 2, 2] = s_33 * (ds33 @ c33)
+        return value, deriv

@@ -1,0 +1,83 @@
+"""em_magnetized.ScaledSum: the species sum of scaled_susceptibility at fixed k.
+
+The reference is the builder itself (``scaled_susceptibility`` summed over species),
+which tests/test_models_magnetized.py checks against mpmath recomputations, published
+limits and identities; ScaledSum reorders the same formulas (issue 14: one Z call for all
+species, linear maps per k), so the two must agree to rounding, including at small ω and
+ω = 0 where the scaled form is designed to stay accurate, for either sign of k∥, drifts,
+anisotropy and complex k.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from kinroots.physics.models import em_magnetized as em
+from kinroots.physics.plasma import M_ELECTRON, M_PROTON, Species
+
+M_ALPHA = 6.6446573357e-27  # alpha-particle mass [kg] (CODATA 2018)
+
+ELECTRON = Species("e", -1, M_ELECTRON, 1.1e19, 100.0, 100.0, drift=-2.0e4)
+PROTON = Species("p", 1, M_PROTON, 0.9e19, 50.0, 120.0)
+ALPHA = Species("a", 2, M_ALPHA, 0.1e19, 200.0, 200.0, drift=3.0e5)
+THREE = (ELECTRON, PROTON, ALPHA)
+B0 = 1.0
+WPE = ELECTRON.plasma_frequency
+WCP = PROTON.cyclotron_frequency(B0)
+
+
+def _builder_sum(omega, k_par, k_perp, tol=1e-14):
+    v = d = 0
+    for s in THREE:
+        r = em.scaled_susceptibility(omega, s, k_par=k_par, k_perp=k_perp, B=B0, tol=tol,
+                                     omega_ref=WPE)
+        v = v + r.value
+        d = d + r.derivative
+    return v, d
+
+
+def _close(a: np.ndarray, b: np.ndarray, rtol: float) -> None:
+    # entry by entry, relative to the size of that entry over all ω (entries that vanish
+    # identically compare absolutely against the matrix's scale)
+    scale = np.maximum(np.max(np.abs(b), axis=0), 1e-300 + np.max(np.abs(b)) * 1e-3)
+    assert np.all(np.abs(a - b) <= rtol * scale), np.max(np.abs(a - b) / scale)
+
+
+@pytest.mark.parametrize("angle", [5.0, 45.0, 80.0, 100.0, 150.0])
+@pytest.mark.parametrize("kfac", [0.05, 0.4, 1.5 + 0.2j])
+def test_scaled_sum_matches_the_builders(angle: float, kfac: complex) -> None:
+    k = kfac * WPE / ELECTRON.thermal_speed_par
+    t = np.radians(angle)
+    k_par, k_perp = k * np.cos(t), k * np.sin(t)
+    fast = em.ScaledSum.for_species(THREE, k_par=k_par, k_perp=k_perp, B=B0, tol=1e-14,
+                                    omega_ref=WPE)
+    assert fast is not None
+    rng = np.random.default_rng(1)
+    om = np.concatenate([
+        (rng.uniform(-2.0, 2.0, 40) + 1j * rng.uniform(-0.05, 0.3, 40)) * WPE,
+        (rng.uniform(-3.0, 3.0, 20) + 1j * rng.uniform(-0.2, 0.5, 20)) * WCP,
+        [0.0, 1e-5 * WCP, 1e-5j * WCP, 1e-3 * WCP * (1 + 1j)],
+    ])
+    with np.errstate(all="ignore"):
+        v, d = fast(om)
+        rv, rd = _builder_sum(om, k_par, k_perp)
+    ok = np.all(np.isfinite(rv), axis=(1, 2))
+    assert ok.sum() > 50
+    _close(v[ok], rv[ok], 1e-12)
+    _close(d[ok], rd[ok], 1e-12)
+    # and each ω alone (the single-frequency calls of the tracer)
+    with np.errstate(all="ignore"):
+        for i in (0, 45, 60, 61):
+            v1, d1 = fast(om[i : i + 1])
+            np.testing.assert_allclose(v1[0], v[i], rtol=1e-13, atol=1e-13 * np.abs(v[i]).max())
+            np.testing.assert_allclose(d1[0], d[i], rtol=1e-13, atol=1e-13 * np.abs(d[i]).max())
+
+
+def test_scaled_sum_declines_where_the_builders_must_serve() -> None:
+    kw = {"B": B0, "tol": 1e-14, "omega_ref": WPE}
+    assert em.ScaledSum.for_species(THREE, k_par=0.0, k_perp=1e3, **kw) is None  # k∥ = 0
+    cold = Species("c", 1, M_PROTON, 1e18, 0.0, 0.0)
+    assert em.ScaledSum.for_species((ELECTRON, cold), k_par=1e3, k_perp=1e3, **kw) is None
+    krook = Species("k", 1, M_PROTON, 1e18, 5.0, 5.0, collision_frequency=1e6)
+    assert em.ScaledSum.for_species((ELECTRON, krook), k_par=1e3, k_perp=1e3, **kw) is None
