@@ -63,13 +63,13 @@ def _run(loaded: Case, kind: str, total: int, output: Path, workers: int,
     """Open the store, solve the missing points with a progress bar, return all rows."""
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
-    from kinroots.io.store import STORE_NAME, PointStore, StoreMismatch
+    from kinroots.io.store import STORE_NAME, PointStore, StoreError
     from kinroots.study.sweep import case_hash, run_points
 
     src = str(loaded.source) if loaded.source else "case"
     try:
         store = PointStore(output / STORE_NAME, case_hash(loaded), src)
-    except StoreMismatch as exc:
+    except StoreError as exc:
         _err(f"error: {exc}")
         raise typer.Exit(EXIT_BAD_INPUT) from None
     console = stderr_console()
@@ -244,11 +244,15 @@ def threshold_command(
                    title=loaded.title)
     console = stderr_console()
     if loaded.sweep is not None:
-        from kinroots.io.store import STORE_NAME, PointStore
+        from kinroots.io.store import STORE_NAME, PointStore, StoreError
         from kinroots.study.sweep import case_hash
 
-        with PointStore(output / STORE_NAME, case_hash(loaded)) as store:
-            srows = store.rows("sweep")
+        try:
+            with PointStore(output / STORE_NAME, case_hash(loaded)) as store:
+                srows = store.rows("sweep")
+        except StoreError as exc:
+            console.print(f"threshold not drawn on the sweep map: {exc}")
+            srows = []
         if len(srows) == int(np.prod(loaded.sweep.shape)):
             _draw_map(loaded, srows, output, rows)
             console.print(f"threshold drawn on {output / 'sweep.png'}")

@@ -34,6 +34,7 @@ from kinroots.io.limits import (
     MAX_DEPTH,
     MAX_LAUNCH_POINTS,
     MAX_SCAN_POINTS,
+    MAX_WINDOW_HARMONICS,
     PLAUSIBLE,
     finite_float,
     title_problem,
@@ -669,6 +670,10 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
     except NormalizationError as exc:  # only reachable for degenerate species data
         raise CaseError([f"{source}: units: {exc}"]) from None
 
+    angles = {angle}
+    for spec in (sweep_spec, threshold_spec):
+        angles.update(getattr(spec, "angles", None) or ())
+    _check_harmonic_poles(plasma, units, real, angles, source)
     k_values.setflags(write=False)
 
     return Case(
@@ -689,6 +694,23 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         sweep=sweep_spec,
         threshold=threshold_spec,
     )
+
+
+def _check_harmonic_poles(plasma: Plasma, units: Normalization, real: tuple[float, float],
+                          angles: set[float], source: str) -> None:
+    """At k∥ = 0 (angle 90°, B ≠ 0) every harmonic n Ω_s in the window is a pole the survey
+    excludes: refuse windows holding more than `MAX_WINDOW_HARMONICS` of them."""
+    if not plasma.magnetized or 90.0 not in angles:
+        return
+    width = (real[1] - real[0]) * units.omega_unit
+    for i, s in enumerate(plasma.species, start=1):
+        count = width / abs(s.cyclotron_frequency(plasma.B))
+        if count > MAX_WINDOW_HARMONICS:
+            raise CaseError([
+                f"{source}: search.real: got {list(real)!r}, which holds about {count:.3g} "
+                f"cyclotron harmonics of species[{i}] ({s.name!r}) at angle 90 degrees "
+                f"(k_par = 0, each a pole of D); expected at most {MAX_WINDOW_HARMONICS}: "
+                "narrow the window, or check that species' mass and magnetic_field.B"])
 
 
 def _default_unit_name(plasma: Plasma) -> str:

@@ -29,6 +29,7 @@ __all__ = [
     "MAX_SWEEP_AXIS_POINTS",
     "MAX_SWEEP_POINTS",
     "MAX_TITLE_LENGTH",
+    "MAX_WINDOW_HARMONICS",
     "PLAUSIBLE",
     "Range",
     "name_problem",
@@ -102,6 +103,9 @@ MAX_SWEEP_AXIS_POINTS: int = 100_000
 MAX_SWEEP_POINTS: int = 1_000_000
 #: Most angles of ``sweep.angles`` / ``threshold.angles``.
 MAX_ANGLES: int = 1_000
+#: Most cyclotron harmonics n Ω_s inside the search window at k∥ = 0 (each a pole of D
+#: that the survey must exclude).
+MAX_WINDOW_HARMONICS: int = 2_000
 #: Longest title and species name [characters].
 MAX_TITLE_LENGTH: int = 200
 MAX_NAME_LENGTH: int = 32

@@ -189,8 +189,15 @@ def check_ranges(case: Case) -> list[str]:
 
 
 def case_hash(case: Case) -> str:
-    """SHA-256 of the case's TOML data in a normalized form (sorted keys, repr floats)."""
-    text = json.dumps(case.raw, sort_keys=True, separators=(",", ":"), default=str)
+    """SHA-256 of the case's TOML data in a normalized form (sorted keys, repr floats).
+
+    What only the drawing or the labels use (``title``, ``sweep.growth_levels``) is left
+    out, so changing it does not block resuming.
+    """
+    raw = {k: v for k, v in case.raw.items() if k != "title"}
+    if isinstance(raw.get("sweep"), dict):
+        raw["sweep"] = {k: v for k, v in raw["sweep"].items() if k != "growth_levels"}
+    text = json.dumps(raw, sort_keys=True, separators=(",", ":"), default=str)
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
@@ -208,13 +215,38 @@ def _case_from(raw: dict[str, Any], source: str) -> Case:
     return _CASE_CACHE[key]
 
 
+def _solve_point(case: Case, kind: str, index: int) -> dict[str, Any]:
+    """One point; an unexpected error becomes a failed point naming it (never a crash
+    of the whole sweep, never a number)."""
+    try:
+        return sweep_point(case, index) if kind == "sweep" else threshold_point(case, index)
+    except Exception as exc:  # recorded as a failed point, with its reason
+        key = "i" if kind == "sweep" else "j"
+        row: dict[str, Any] = {key: index, "converged": False,
+                               "reason": f"internal error: {type(exc).__name__}: {exc}"}
+        if kind == "sweep":
+            i, j = grid_index(case.sweep.shape, index)
+            row.update(i=i, j=j, roots_found=0, evaluations=0, growing=False)
+        return row
+
+
 def compute_point(raw: dict[str, Any], source: str, kind: str, index: int
                   ) -> tuple[int, dict[str, Any]]:
-    """Worker entry: rebuild the case from its TOML data and solve one point."""
-    case = _case_from(raw, source)
-    if kind == "sweep":
-        return index, sweep_point(case, index)
-    return index, threshold_point(case, index)
+    """Dask task: rebuild the case from its TOML data (cached) and solve one point."""
+    return index, _solve_point(_case_from(raw, source), kind, index)
+
+
+_WORKER: dict[str, Any] = {}
+
+
+def _init_worker(raw: dict[str, Any], source: str, kind: str) -> None:
+    """Pool worker start: the case is built once per worker."""
+    _WORKER.update(case=parse_case(raw, source), kind=kind)
+
+
+def _work_chunk(chunk: list[int]) -> list[tuple[int, dict[str, Any]]]:
+    """Pool task: a chunk of points of the worker's case."""
+    return [(i, _solve_point(_WORKER["case"], _WORKER["kind"], i)) for i in chunk]
 
 
 def run_points(
@@ -258,23 +290,11 @@ def run_points(
     n = workers or os.cpu_count() or 1
     if n <= 1 or len(todo) == 1:
         for i in todo:
-            on_result(*compute_point(case.raw, source, kind, i))
+            on_result(i, _solve_point(case, kind, i))
         return
-    import multiprocessing as mp
-    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+    from kinroots.study.pool import run_pool
 
-    with ProcessPoolExecutor(max_workers=min(n, len(todo)),
-                             mp_context=mp.get_context("spawn")) as pool:
-        pending = {pool.submit(compute_point, case.raw, source, kind, i) for i in todo}
-        try:
-            while pending:
-                done, pending = wait(pending, return_when=FIRST_COMPLETED)
-                for fut in sorted(done, key=lambda f: f.result()[0]):
-                    on_result(*fut.result())
-        except BaseException:
-            for fut in pending:
-                fut.cancel()
-            raise
+    run_pool(_init_worker, (case.raw, source, kind), _work_chunk, todo, on_result, n)
 
 
 def _run_dask(raw: dict[str, Any], source: str, kind: str, todo: list[int],
