@@ -10,6 +10,8 @@ The public API (names resolved on first use, so ``import kinroots`` stays light)
     solve(case, progress=None)       every branch across the k scan -> Solution
     sweep(case, workers, scheduler)  a [sweep] grid -> xarray.Dataset (as sweep.nc)
     dispersion(case, k)              D(omega) and the susceptibilities at one k
+    launch(case)                     complex k of driven waves ([launch] table) -> Launch
+    spectrum(case, laser_wavelength=, scattering_angle=)   scattered spectrum -> Spectrum
 
 Example::
 
@@ -41,9 +43,13 @@ _EXPORTS: dict[str, str] = {
     "solve": "kinroots.api",
     "sweep": "kinroots.api",
     "dispersion": "kinroots.api",
+    "launch": "kinroots.api",
+    "spectrum": "kinroots.api",
     "RootSet": "kinroots.api",
     "Solution": "kinroots.api",
     "DispersionFunction": "kinroots.api",
+    "Launch": "kinroots.api",
+    "Spectrum": "kinroots.api",
 }
 
 __all__ = ["__version__", *_EXPORTS]

@@ -33,12 +33,16 @@ if TYPE_CHECKING:
 
 __all__ = [
     "DispersionFunction",
+    "Launch",
     "RootSet",
     "Solution",
+    "Spectrum",
     "as_case",
     "dispersion",
+    "launch",
     "roots",
     "solve",
+    "spectrum",
     "sweep",
 ]
 
@@ -78,17 +82,19 @@ def _positive_k(k: Any) -> float:
     return value
 
 
-def _dataframe(rows: Sequence[Mapping[str, Any]]) -> pd.DataFrame:
-    """Rows as a DataFrame with the root-table columns; failed points' values NaN."""
+def _dataframe(rows: Sequence[Mapping[str, Any]], columns: Sequence[str] | None = None,
+               blank: frozenset[str] = VALUE_COLUMNS) -> pd.DataFrame:
+    """Rows as a DataFrame with the table's columns (default: the root-table columns);
+    the ``blank`` values of points that did not converge are NaN, as their CSV cells are
+    empty."""
     import pandas as pd
 
-    columns = root_table_columns(rows)
+    cols = root_table_columns(rows) if columns is None else tuple(columns)
     records = []
     for r in rows:
         failed = r.get("converged") is False
-        records.append({c: (None if failed and c in VALUE_COLUMNS else r.get(c))
-                        for c in columns})
-    return pd.DataFrame.from_records(records, columns=list(columns))
+        records.append({c: (None if failed and c in blank else r.get(c)) for c in cols})
+    return pd.DataFrame.from_records(records, columns=list(cols))
 
 
 def _omega_text(w: complex, unit: str) -> str:
@@ -452,3 +458,143 @@ def dispersion(case: CaseLike, k: float) -> DispersionFunction:
         every species; ``f.derivative(omega)`` dD/dω̂.
     """
     return DispersionFunction(as_case(case), _positive_k(k))
+
+
+# ------------------------------------------------------------------- launch, spectrum
+
+
+class Launch:
+    """Complex wavenumbers of the waves driven at real frequencies (result of `launch`).
+
+    Attributes
+    ----------
+    result : kinroots.study.launch.LaunchResult
+        Branches across frequency (normalized complex k per point), surveys, notes.
+    """
+
+    def __init__(self, result: Any) -> None:
+        self.result = result
+
+    @property
+    def case(self) -> Case:
+        return self.result.case
+
+    @property
+    def failed_points(self) -> int:
+        """Failed points plus incomplete surveys."""
+        return int(self.result.failed_points)
+
+    def rows(self) -> list[dict[str, Any]]:
+        """The launch.csv rows, branch by branch, frequency increasing."""
+        from kinroots.study.launch import launch_rows
+
+        return launch_rows(self.result)
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """pandas DataFrame with the launch.csv columns (failed points: values NaN)."""
+        from kinroots.study.launch import LAUNCH_VALUE_COLUMNS, launch_columns
+
+        return _dataframe(self.rows(), launch_columns(self.case), LAUNCH_VALUE_COLUMNS)
+
+    def _lines(self) -> list[str]:
+        res = self.result
+        f = res.frequencies_hz
+        return [f"Launch in {self.case.title!r}: {len(res.branches)} wave(s) over "
+                f"{len(f)} frequencies from {f[0]:.6g} to {f[-1]:.6g} Hz; "
+                f"{self.failed_points} failed point(s)"]
+
+    def __repr__(self) -> str:
+        return "\n".join(self._lines())
+
+    def _repr_html_(self) -> str:
+        return _html(self._lines())
+
+
+def launch(case: CaseLike, frequencies_hz: Sequence[float] | None = None,
+           progress: Callable[[int, int], None] | None = None) -> Launch:
+    """Complex k of every wave in the case's ``[launch]`` box at each driving frequency.
+
+    Parameters
+    ----------
+    case : Case, path or mapping
+    frequencies_hz : sequence of float, optional
+        Increasing frequencies [Hz] (default: the case's ``[launch]`` table).
+    progress : callable, optional
+        ``progress(done, total)`` after each frequency.
+
+    Returns
+    -------
+    Launch
+        ``to_dataframe()`` gives the launch.csv columns (wavelength, damping length...).
+    """
+    from kinroots.study.launch import launch as launch_case
+
+    return Launch(launch_case(as_case(case), frequencies_hz=frequencies_hz,
+                              progress=progress))
+
+
+class Spectrum:
+    """Electron density fluctuation spectrum seen by a probe laser (result of `spectrum`).
+
+    Attributes
+    ----------
+    k_per_m : float
+        The Bragg wavenumber |k_s − k_i| [1/m].
+    alpha : float
+        Scattering parameter 1/(k λ_De) at that k (> 1: collective).
+    columns : dict of str to ndarray
+        The spectrum.csv columns.
+    """
+
+    def __init__(self, result: Any) -> None:
+        self.result = result
+        self.k_per_m = float(result.k_bragg_per_m)
+        self.alpha = float(result.alpha_bragg)
+        self.columns: dict[str, np.ndarray] = result.columns
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """pandas DataFrame with the spectrum.csv columns."""
+        import pandas as pd
+
+        from kinroots.physics.spectrum import SPECTRUM_COLUMNS
+
+        return pd.DataFrame({c: self.columns[c] for c in SPECTRUM_COLUMNS})
+
+    def _lines(self) -> list[str]:
+        r = self.result
+        return [f"Spectrum for a {r.laser_wavelength_m:.6g} m probe scattered through "
+                f"{r.scattering_angle_deg:g} deg: k = {self.k_per_m:.6g} 1/m, alpha = "
+                f"{self.alpha:.4g}, {len(self.columns['omega_rad_per_s'])} samples"]
+
+    def __repr__(self) -> str:
+        return "\n".join(self._lines())
+
+    def _repr_html_(self) -> str:
+        return _html(self._lines())
+
+
+def spectrum(case: CaseLike, *, laser_wavelength: float, scattering_angle: float,
+             points: int = 4001) -> Spectrum:
+    """The scattered spectrum S(k, ω) of the case's plasma (unmagnetized, collisionless).
+
+    Parameters
+    ----------
+    case : Case, path or mapping
+        k = k_s − k_i makes the case's ``wave.angle`` with z.
+    laser_wavelength : float
+        Probe wavelength [m].
+    scattering_angle : float
+        Angle between incident and scattered wave vectors [degrees], in (0, 180].
+    points : int
+        Samples of the spectrum.
+
+    Returns
+    -------
+    Spectrum
+    """
+    from kinroots.physics.spectrum import scattered_spectrum
+
+    c = as_case(case)
+    return Spectrum(scattered_spectrum(c.plasma, laser_wavelength=laser_wavelength,
+                                       scattering_angle_deg=scattering_angle,
+                                       k_angle_deg=c.angle_deg, points=points))

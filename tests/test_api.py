@@ -11,6 +11,7 @@ import concurrent.futures
 import math
 import multiprocessing
 import tomllib
+from pathlib import Path
 
 import mpmath
 import numpy as np
@@ -20,6 +21,8 @@ import xarray as xr
 from scipy.constants import m_e, m_p
 
 import kinroots
+
+REPO = Path(__file__).resolve().parent.parent
 
 # An invented warm hydrogen plasma: Langmuir waves in the window below.
 ELECTRONS = kinroots.Species("e", -1, m_e, 1.0e16, 2.0, 2.0)
@@ -308,3 +311,38 @@ def test_import_is_light_and_names_resolve():
     assert kinroots.roots.__module__ == "kinroots.api"
     with pytest.raises(AttributeError):
         kinroots.no_such_name  # noqa: B018
+
+
+def test_launch_agrees_with_the_temporal_roots():
+    """Weak damping: the spatial rate of a driven wave is Im k = −γ/v_g at k = Re k
+    (Gaster, J. Fluid Mech. 14, 222, 1962, the relation between temporal and spatial
+    growth rates; here for the damped ion acoustic wave of the lab example)."""
+    case = kinroots.load_case(REPO / "cases" / "lab_launched_ion_acoustic.toml")
+    driven = kinroots.launch(case, frequencies_hz=[2.0e6])
+    df = driven.to_dataframe()
+    assert len(df) == 1 and bool(df["converged"][0])
+    row = df.iloc[0]
+    assert row["wavelength_m"] == pytest.approx(2 * math.pi / row["k_real_per_m"], rel=1e-12)
+    assert row["damping_length_m"] == pytest.approx(1 / row["k_imag_per_m"], rel=1e-12)
+    k, h = float(row["k_real"]), 1e-4
+    w_drive = float(row["omega"])
+
+    def temporal(kk):
+        return min(kinroots.roots(case, kk).values, key=lambda w: abs(w.real - w_drive))
+
+    w = temporal(k)
+    group = (temporal(k + h).real - temporal(k - h).real) / (2 * h)
+    assert w.real == pytest.approx(w_drive, rel=1e-4)
+    assert float(row["k_imag"]) == pytest.approx(-w.imag / group, rel=1e-4)  # (γ/ω)² ≈ 4e-6
+    assert "Launch" in repr(driven) and len(repr(driven).splitlines()) <= 3
+
+
+def test_spectrum_to_dataframe():
+    case = kinroots.load_case(REPO / "cases" / "lab_launched_ion_acoustic.toml")
+    sp = kinroots.spectrum(case, laser_wavelength=10.6e-6, scattering_angle=1.0, points=401)
+    df = sp.to_dataframe()
+    assert len(df) == 401 and "spectral_density_s" in df.columns
+    # α = 1/(k λ_De) (definition of the scattering parameter)
+    assert sp.alpha == pytest.approx(1 / (sp.k_per_m * case.plasma.electron_debye_length),
+                                     rel=1e-9)
+    assert (df["spectral_density_s"] >= 0).all()
