@@ -1,8 +1,10 @@
 """Every notebook in notebooks/ executes without error (nbclient, kernel "python3").
 
-The notebooks are committed with their outputs stripped; this test runs them from the
-notebooks/ folder (they open ../cases/...), 120 s per cell, and fails on the first cell
-that raises.  Each notebook is meant to run in well under 60 s.
+The notebooks are committed with their outputs stripped and use only the public API
+(``import kinroots``); this test runs them from the repository root (they find the
+``cases/`` folder from the working directory upwards, so they also run from notebooks/),
+120 s per cell, and fails on the first cell that raises.  Each notebook is meant to run
+in well under 60 s.
 """
 
 from __future__ import annotations
@@ -13,7 +15,8 @@ from pathlib import Path
 
 import pytest
 
-NOTEBOOKS_DIR = Path(__file__).resolve().parent.parent / "notebooks"
+REPO = Path(__file__).resolve().parent.parent
+NOTEBOOKS_DIR = REPO / "notebooks"
 NOTEBOOKS = sorted(NOTEBOOKS_DIR.glob("*.ipynb"))
 
 
@@ -26,6 +29,15 @@ def test_notebook_is_committed_without_outputs(path):
             assert cell.get("execution_count") is None, f"{path.name}: execution count kept"
 
 
+@pytest.mark.parametrize("path", NOTEBOOKS, ids=[p.stem for p in NOTEBOOKS])
+def test_notebook_uses_only_the_public_api(path):
+    nb = json.loads(path.read_text(encoding="utf-8"))
+    code = "\n".join("".join(c["source"]) for c in nb["cells"] if c["cell_type"] == "code")
+    assert "import kinroots" in code
+    for bad in ("from kinroots.", "import kinroots.", "../"):
+        assert bad not in code, f"{path.name}: {bad!r} (use the public names of kinroots)"
+
+
 @pytest.mark.slow
 @pytest.mark.parametrize("path", NOTEBOOKS, ids=[p.stem for p in NOTEBOOKS])
 def test_notebook_executes(path):
@@ -34,7 +46,7 @@ def test_notebook_executes(path):
     nb = nbformat.read(path, as_version=4)
     client = nbclient.NotebookClient(
         nb, timeout=120, kernel_name="python3", allow_errors=False,
-        resources={"metadata": {"path": str(NOTEBOOKS_DIR)}},
+        resources={"metadata": {"path": str(REPO)}},
     )
     start = time.perf_counter()
     client.execute()  # raises CellExecutionError if any cell raises
