@@ -286,3 +286,19 @@ def test_negative_region() -> None:
     assert negative_region(too_much, m) is not None
     core_halo = (Component(0.9, 10.0, 10.0), Component(0.1, 100.0, 100.0, 1e6))
     assert negative_region(core_halo, M_ELECTRON) is None
+
+
+def test_branch_point_note() -> None:
+    """A root with Im ζ < −√κ for a non-integer κ is flagged (zfunc_kappa, "Where the
+    continuation holds"); integer κ and roots above the branch point are not."""
+    from kinroots.physics.models.species_models import branch_point_note
+
+    for kappa, flagged in ((2.5, True), (3.0, False)):
+        s = kappa_species(kappa)
+        theta = math.sqrt((2 * kappa - 3) / kappa * s.temperature_par * EV / s.mass)
+        k = 0.5 / s.debye_length
+        deep = complex(0.3, -1.2 * math.sqrt(kappa)) * k * theta
+        note = branch_point_note(Plasma((s,), 0.0), omega=deep, k=k, angle_deg=0.0)
+        assert bool(note) is flagged, note
+        shallow = complex(0.3, -0.8 * math.sqrt(kappa)) * k * theta
+        assert branch_point_note(Plasma((s,), 0.0), omega=shallow, k=k, angle_deg=0.0) == ""

@@ -26,8 +26,10 @@ import numpy as np
 from kinroots.io.case import Case
 from kinroots.io.tables import RESULT_COLUMNS
 from kinroots.physics import modes
+from kinroots.physics.models.species_models import branch_point_note
 from kinroots.roots import RootResult, SurveyResult
 from kinroots.study.problem import SpatialFunction, spatial_roots
+from kinroots.study.rows import with_note
 from kinroots.study.solve import TracedBranch, follow_branches
 
 __all__ = [
@@ -163,6 +165,8 @@ def launch_row(case: Case, branch: int, omega: float, r: RootResult) -> dict[str
         return row
     k = complex(r.value)
     k_si = complex(units.k_to_si(k))
+    row["reason"] = with_note(r.reason, branch_point_note(
+        case.plasma, omega=w_si, k=k_si, angle_deg=case.angle_deg))
     with np.errstate(divide="ignore"):
         damping = 1.0 / k_si.imag if k_si.imag != 0 else math.inf
     row.update({

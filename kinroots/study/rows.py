@@ -8,6 +8,7 @@ from typing import TYPE_CHECKING, Any
 from kinroots import __version__
 from kinroots.io.case import Case
 from kinroots.physics import modes
+from kinroots.physics.models.species_models import branch_point_note
 from kinroots.physics.plasma import CONVENTIONS, derived_quantities
 from kinroots.roots import (
     RootResult,
@@ -51,7 +52,8 @@ def root_row(case: Case, branch: int | str, k: float, r: RootResult,
         "iterations": int(r.iterations),
         "evaluations": int(r.evaluations),
         "status": r.status.name.lower(),
-        "reason": r.reason,
+        "reason": with_note(r.reason, branch_point_note(
+            case.plasma, omega=w_si, k=complex(units.k_to_si(k)), angle_deg=case.angle_deg)),
         **identity,
     }
 
@@ -66,6 +68,11 @@ def survey_rows(case: Case, k: float, s: SurveyResult) -> list[dict[str, Any]]:
                      "reason": f"counted {s.count} zeros, found {len(s.values)}: "
                                + "; ".join(s.notes)})
     return rows
+
+
+def with_note(reason: str, note: str) -> str:
+    """``reason`` with ``note`` appended (either may be empty)."""
+    return "; ".join(x for x in (reason, note) if x)
 
 
 def branch_rows(sol: Solution) -> list[dict[str, Any]]:

@@ -24,9 +24,9 @@ from typing import Any
 import numpy as np
 
 from kinroots.physics.models.base import Builder, Susceptibility
-from kinroots.physics.plasma import EV, Component, Species
+from kinroots.physics.plasma import EV, Component, Plasma, Species
 
-__all__ = ["builder_for_plasma", "negative_region", "plain_species"]
+__all__ = ["branch_point_note", "builder_for_plasma", "negative_region", "plain_species"]
 
 #: (model, magnetized, scaled) -> "module:function" of the kappa builder.
 _KAPPA: dict[tuple[str, bool, bool], str] = {
@@ -111,7 +111,8 @@ def negative_region(
         Particle mass [kg].
     rtol : float
         f counts as negative below −rtol times the largest term at that point (rounding
-        at a point where f vanishes exactly, as at the edge of a full loss cone).
+        at a point where f vanishes exactly, as at the edge of a full loss cone), plus
+        the rounding of the exponents (64 ε times their size).
 
     Returns
     -------
@@ -150,7 +151,52 @@ def negative_region(
     )
     top = np.max(log_terms, axis=0)
     rel = np.sum(np.sign(w)[:, None, None] * np.exp(log_terms - top[None]), axis=0)
+    # the exponents carry an absolute rounding error of a few ε·|exponent|
+    rel = rel + rtol + 64.0 * np.finfo(float).eps * np.abs(top)
     worst = np.unravel_index(int(np.argmin(rel)), rel.shape)
-    if rel[worst] >= -rtol:
+    if rel[worst] >= 0.0:
         return None
     return float(vpar[worst]), float(vperp[worst])
+
+
+def branch_point_note(plasma: Plasma, *, omega: complex, k: complex, angle_deg: float) -> str:
+    """A note for a root lying beyond a kappa species' branch point, else ``""``.
+
+    Parameters
+    ----------
+    plasma : Plasma
+        The species (only kappa species with non-integer κ can give a note).
+    omega : complex
+        The root ω [rad/s] (or the real ω of a spatial root).
+    k : complex
+        |k| [1/m] (complex for a spatial root).
+    angle_deg : float
+        Angle between k and z [degrees].
+
+    Returns
+    -------
+    str
+        Empty, or which species has Im ζ < −√κ at the root, ζ = (ω − k∥V)/Θ
+        (:func:`kinroots.physics.zfunc_kappa.beyond_branch_point`): such a root is on the
+        principal sheet but is damped faster than the branch-point response and depends
+        on the choice of the cut.
+    """
+    from kinroots.physics.models.kappa_unmagnetized import kappa_widths_squared
+    from kinroots.physics.zfunc_kappa import beyond_branch_point
+
+    t = math.radians(angle_deg)
+    kpar, kperp = k * math.cos(t), k * math.sin(t)
+    names = []
+    for s in plasma.species:
+        if s.distribution != "kappa" or s.kappa is None:
+            continue
+        tpar2, tperp2 = kappa_widths_squared(s)
+        with np.errstate(all="ignore"):
+            theta = np.sqrt(kperp * kperp * tperp2 + kpar * kpar * tpar2)
+            zeta = (omega - kpar * s.drift) / theta
+        if bool(beyond_branch_point(np.asarray(zeta), s.kappa)):
+            names.append(s.name)
+    if not names:
+        return ""
+    return ("beyond the branch point of kappa species " + ", ".join(names)
+            + " (Im zeta < -sqrt(kappa)): not the dominant response; depends on the cut")
