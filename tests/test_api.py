@@ -10,6 +10,7 @@ from __future__ import annotations
 import concurrent.futures
 import math
 import multiprocessing
+import pickle
 import tomllib
 from pathlib import Path
 
@@ -232,10 +233,14 @@ def _check_sweep(ds, case):
     assert tomllib.loads(ds.attrs["case"]) == case.raw
 
 
-def test_sweep_to_a_dataset():
+def test_sweep_to_a_dataset(tmp_path):
     case = _sweep_case()
     ds = kinroots.sweep(case, workers=1)
     _check_sweep(ds, case)
+    ds.to_netcdf(tmp_path / "sweep.nc")
+    with xr.open_dataset(tmp_path / "sweep.nc") as back:
+        _check_sweep(back, case)
+        np.testing.assert_array_equal(back["growth_max"].values, ds["growth_max"].values)
     assert (ds["converged"] == 1).all()
     # the maximum over k can only exceed the largest growth found at the scan's k values
     raw = case.raw
@@ -279,6 +284,8 @@ def test_use_under_a_dask_local_cluster():
 
 def test_netcdf_round_trip(tmp_path):
     sol = kinroots.solve(_langmuir_case(k={"start": 0.2, "stop": 0.3, "points": 3}))
+    again = pickle.loads(pickle.dumps(sol))
+    assert repr(again) == repr(sol) and again.failed_points == sol.failed_points
     ds = sol.to_xarray()
     path = tmp_path / "branches.nc"
     ds.to_netcdf(path)
