@@ -8,6 +8,7 @@ Data go to stdout; messages to stderr.
 
 from __future__ import annotations
 
+import enum
 import functools
 from collections.abc import Callable
 from pathlib import Path
@@ -259,3 +260,34 @@ def check_output_dir(out: Path) -> None:
         raise typer.Exit(EXIT_BAD_INPUT) from None
 
 
+
+
+# ----------------------------------------------------------------- figures
+
+class FigureFormat(enum.StrEnum):
+    """File formats of figures (kinroots.plots.FIGURE_FORMATS)."""
+
+    png = "png"
+    svg = "svg"
+    pdf = "pdf"
+
+
+FigureFormatOpt = Annotated[
+    FigureFormat,
+    typer.Option("--figure-format", help="Format of the figure file."),
+]
+NoPlotOpt = Annotated[
+    bool,
+    typer.Option("--no-plot", help="Write the tables only, no figure (faster batch runs)."),
+]
+
+
+def figure_path(output: Path, stem: str, fmt: FigureFormat | str, no_plot: bool
+                ) -> Path | None:
+    """Where the figure ``stem`` goes (``output/stem.fmt``), or None with --no-plot."""
+    return None if no_plot else output / f"{stem}.{FigureFormat(fmt).value}"
+
+
+def written(*paths: Path | None) -> str:
+    """'wrote a, b, c' for the files actually written (None skipped)."""
+    return "wrote " + ", ".join(str(p) for p in paths if p is not None)

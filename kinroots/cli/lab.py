@@ -17,10 +17,15 @@ from kinroots.cli._common import (
     EXIT_BAD_INPUT,
     CaseArg,
     DefaultOpt,
+    FigureFormat,
+    FigureFormatOpt,
+    NoPlotOpt,
     OutOpt,
     check_output_dir,
+    figure_path,
     load_case_or_exit,
     stderr_console,
+    written,
 )
 
 __all__ = ["register"]
@@ -38,6 +43,8 @@ def launch_command(
     case: CaseArg = None,
     output: OutOpt = Path("kinroots-out"),
     default: DefaultOpt = False,
+    figure_format: FigureFormatOpt = FigureFormat.png,
+    no_plot: NoPlotOpt = False,
 ) -> None:
     """Waves launched at real driving frequencies ([launch] table, Hz): complex k of every
     wave in the k box, traced across frequency; writes launch.csv, launch.json and
@@ -51,7 +58,6 @@ def launch_command(
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
     from kinroots.io.tables import write_csv, write_json
-    from kinroots.plots.lab import LaunchCurve, plot_launch
     from kinroots.study import launch as launch_mod
     from kinroots.study.rows import metadata
 
@@ -98,15 +104,11 @@ def launch_command(
     summary.pop("least_damped", None)
     write_csv(output / "launch.csv", rows, columns)
     write_json(output / "launch.json", summary)
-    curves = []
-    for b in res.branches:
-        pts = sorted(b.points.items())
-        curves.append(LaunchCurve(
-            f"wave {b.id}",
-            [float(u.omega_to_si(w)) / (2 * math.pi) for w, _ in pts],
-            [complex(u.k_to_si(r.value)) if r.converged else complex("nan") for _, r in pts],
-        ))
-    plot_launch(output / "launch.png", curves, title=loaded.title)
+    fig_path = figure_path(output, "launch", figure_format, no_plot)
+    if fig_path is not None:
+        from kinroots.plots.lab import launch_curves_from_rows, plot_launch
+
+        plot_launch(launch_curves_from_rows(rows), title=loaded.title, path=fig_path)
     console.print(f"{len(res.branches)} wave(s) in the k box over {n} frequencies")
     for r in rows:
         if r["converged"] and r is rows[0]:
@@ -115,8 +117,7 @@ def launch_command(
                           f"{r['damping_length_cm']:.4g} cm")
     for note in res.notes:
         console.print(f"note: {note}")
-    console.print(f"wrote {output / 'launch.csv'}, {output / 'launch.json'}, "
-                  f"{output / 'launch.png'}")
+    console.print(written(output / "launch.csv", output / "launch.json", fig_path))
     if res.failed_points:
         console.print(f"{res.failed_points} point(s) failed: flagged in the table", style="red")
         raise typer.Exit(1)
@@ -131,6 +132,8 @@ def scatter_command(
     points: Annotated[int, typer.Option("--points", help="Spectrum samples.")] = 4001,
     output: OutOpt = Path("kinroots-out"),
     default: DefaultOpt = False,
+    figure_format: FigureFormatOpt = FigureFormat.png,
+    no_plot: NoPlotOpt = False,
 ) -> None:
     """Thermal fluctuation spectrum seen by a probe laser: S(k, ω) against scattered
     wavelength, with α = 1/(k λ_De); writes spectrum.csv, spectrum.json, spectrum.png.
@@ -144,7 +147,6 @@ def scatter_command(
     from kinroots.io.tables import write_csv, write_json
     from kinroots.physics import spectrum
     from kinroots.physics.plasma import CONVENTIONS, derived_quantities
-    from kinroots.plots.lab import plot_spectrum
 
     loaded = load_case_or_exit(case, default)
     problems = []
@@ -206,13 +208,16 @@ def scatter_command(
     }
     write_csv(output / "spectrum.csv", rows, spectrum.SPECTRUM_COLUMNS)
     write_json(output / "spectrum.json", meta)
-    plot_spectrum(output / "spectrum.png", cols["wavelength_shift_nm"],
-                  cols["relative_power_per_nm"], ion_window_nm=ion_nm,
-                  title=f"{loaded.title}: λ_i = {laser_wavelength * 1e9:.4g} nm, "
-                        f"θ = {angle:g}°, α = {sp.alpha_bragg:.3g}")
+    fig_path = figure_path(output, "spectrum", figure_format, no_plot)
+    if fig_path is not None:
+        from kinroots.plots.lab import plot_spectrum
+
+        plot_spectrum(cols["wavelength_shift_nm"], cols["relative_power_per_nm"],
+                      ion_window_nm=ion_nm, alpha=sp.alpha_bragg,
+                      title=f"{loaded.title}: λ_i = {laser_wavelength * 1e9:.4g} nm, "
+                            f"θ = {angle:g}°, α = {sp.alpha_bragg:.3g}", path=fig_path)
     console.print(f"k = {sp.k_bragg_per_m:.6g} 1/m, α = 1/(k λ_De) = {sp.alpha_bragg:.4g}; "
-                  f"wrote {output / 'spectrum.csv'}, {output / 'spectrum.json'}, "
-                  f"{output / 'spectrum.png'}")
+                  + written(output / "spectrum.csv", output / "spectrum.json", fig_path))
 
 
 def register(app: typer.Typer) -> None:

@@ -19,9 +19,15 @@ from kinroots.cli._common import (
     EXIT_BAD_INPUT,
     CaseArg,
     DefaultOpt,
+    FigureFormat,
+    FigureFormatOpt,
+    NoPlotOpt,
     check_output_dir,
+    figure_path,
+    info,
     load_case_or_exit,
     stderr_console,
+    written,
 )
 from kinroots.io.case import Case
 
@@ -104,6 +110,8 @@ def sweep_command(
     workers: WorkersOpt = 0,
     scheduler: SchedulerOpt = None,
     default: DefaultOpt = False,
+    figure_format: FigureFormatOpt = FigureFormat.png,
+    no_plot: NoPlotOpt = False,
 ) -> None:
     """Solve every grid point of the case's [sweep] table (maximum growth over k and angle,
     least-damped root); write sweep.csv, sweep.nc, sweep.json and sweep.png (growth map
@@ -118,7 +126,6 @@ def sweep_command(
     """
     from kinroots.io.netcdf import dataset_bytes, sweep_dataset
     from kinroots.io.tables import atomic_write_bytes, write_csv, write_json
-    from kinroots.plots.maps import plot_growth_map
     from kinroots.study.sweep import SWEEP_COLUMNS, blank_failed
 
     loaded = _prepare(case, default, output, "sweep")
@@ -128,10 +135,11 @@ def sweep_command(
     write_csv(output / "sweep.csv", blank_failed(rows, "sweep"), SWEEP_COLUMNS)
     atomic_write_bytes(output / "sweep.nc", dataset_bytes(sweep_dataset(
         loaded, rows, history=f"kinroots sweep {loaded.source or 'default case'}")))
-    _draw_map(loaded, rows, output)
+    fig_path = figure_path(output, "sweep", figure_format, no_plot)
+    if fig_path is not None:
+        _draw_map(loaded, rows, fig_path, _finished(loaded, output, "threshold"))
     failed = [r for r in rows if not r.get("converged")]
     write_json(output / "sweep.json", _summary(loaded, "sweep", rows, failed))
-    _ = plot_growth_map  # imported for the figure in _draw_map
     console = stderr_console()
     best = max((r for r in rows if r.get("converged") and r.get("growth_max") is not None
                 and math.isfinite(r["growth_max"])), key=lambda r: r["growth_max"],
@@ -142,42 +150,37 @@ def sweep_command(
                       f"{spec.x.path.text} = {best['x']:.6g}"
                       + (f", {spec.y.path.text} = {best['y']:.6g}" if spec.y else "")
                       + f", k = {best['growth_k']:.4g}, angle {best['growth_angle']:.4g}°")
-    console.print(f"wrote {output / 'sweep.csv'}, {output / 'sweep.nc'}, "
-                  f"{output / 'sweep.json'}, {output / 'sweep.png'}")
+    console.print(written(output / "sweep.csv", output / "sweep.nc", output / "sweep.json",
+                          fig_path))
     if failed:
         console.print(f"{len(failed)} point(s) failed: flagged in sweep.csv", style="red")
         raise typer.Exit(1)
 
 
-def _draw_map(loaded: Case, rows: list[dict[str, Any]], output: Path,
-              threshold_rows: list[dict[str, Any]] | None = None) -> None:
-    from kinroots.plots.maps import plot_growth_map
+def _finished(loaded: Case, output: Path, kind: str) -> list[dict[str, Any]] | None:
+    """The stored rows of the other study of this case in ``output`` when all its points
+    are done (so a re-run sweep keeps the threshold curve on its map), else None."""
+    from kinroots.io.store import STORE_NAME, PointStore, StoreError
+    from kinroots.study.sweep import case_hash
 
-    spec = loaded.sweep
-    g = np.full(spec.shape, np.nan)
-    for r in rows:
-        idx = (r["i"],) if spec.y is None else (r["i"], r["j"])
-        v = r.get("growth_max")
-        if r.get("converged") and v is not None:
-            g[idx] = v
-    curve = None
-    label = ""
-    t = loaded.threshold
-    if threshold_rows and t is not None and spec.y is not None:
-        ok = [r for r in threshold_rows if r.get("converged")]
-        xs = np.array([r["across"] for r in ok])
-        ts = np.array([r["threshold"] for r in ok])
-        if t.across.path.text == spec.x.path.text and t.path.text == spec.y.path.text:
-            curve = (xs, ts)
-        elif t.across.path.text == spec.y.path.text and t.path.text == spec.x.path.text:
-            curve = (ts, xs)
-        label = f"γ_max = {t.growth:g} {loaded.units.frequency_label}"
-    plot_growth_map(output / "sweep.png", spec.x.values,
-                    spec.y.values if spec.y is not None else None, g,
-                    x_label=spec.x.path.label, y_label=spec.y.path.label if spec.y else "",
-                    growth_label=f"γ_max / {loaded.units.frequency_label}",
-                    levels=spec.growth_levels, threshold=curve, threshold_label=label,
-                    title=loaded.title)
+    spec = loaded.threshold if kind == "threshold" else loaded.sweep
+    if spec is None or not (output / STORE_NAME).exists():
+        return None
+    total = spec.across.points if kind == "threshold" else int(np.prod(spec.shape))
+    try:
+        with PointStore(output / STORE_NAME, case_hash(loaded)) as store:
+            rows = store.rows(kind)
+    except StoreError as exc:
+        info(f"kinroots: {kind} rows not read from {output / STORE_NAME}: {exc}")
+        return None
+    return rows if len(rows) == total else None
+
+
+def _draw_map(loaded: Case, rows: list[dict[str, Any]], path: Path,
+              threshold_rows: list[dict[str, Any]] | None = None) -> None:
+    from kinroots.plots.maps import sweep_map
+
+    sweep_map(loaded, rows, threshold_rows, path=path)
 
 
 def _summary(loaded: Case, kind: str, rows: list[dict[str, Any]],
@@ -214,6 +217,8 @@ def threshold_command(
     workers: WorkersOpt = 0,
     scheduler: SchedulerOpt = None,
     default: DefaultOpt = False,
+    figure_format: FigureFormatOpt = FigureFormat.png,
+    no_plot: NoPlotOpt = False,
 ) -> None:
     """Marginal-stability curve of the case's [threshold] table: for each value of the
     'across' parameter, the value of 'parameter' in 'bracket' where the maximum growth
@@ -227,7 +232,6 @@ def threshold_command(
     Example: kinroots threshold cases/sweep_proton_anisotropy.toml -o out/sweep
     """
     from kinroots.io.tables import write_csv, write_json
-    from kinroots.plots.maps import plot_threshold
     from kinroots.study.sweep import THRESHOLD_COLUMNS, blank_failed
 
     loaded = _prepare(case, default, output, "threshold")
@@ -237,30 +241,21 @@ def threshold_command(
     failed = [r for r in rows if not r.get("converged")]
     write_json(output / "threshold.json", _summary(loaded, "threshold", rows, failed))
     ok = [r for r in rows if r.get("converged")]
-    plot_threshold(output / "threshold.png", np.array([r["across"] for r in ok]),
-                   np.array([r["threshold"] for r in ok]), x_label=t.across.path.label,
-                   y_label=t.path.label,
-                   label=f"γ_max = {t.growth:g} {loaded.units.frequency_label}",
-                   title=loaded.title)
+    fig_path = figure_path(output, "threshold", figure_format, no_plot)
     console = stderr_console()
-    if loaded.sweep is not None:
-        from kinroots.io.store import STORE_NAME, PointStore, StoreError
-        from kinroots.study.sweep import case_hash
+    if fig_path is not None:
+        from kinroots.plots.maps import threshold_curve
 
-        try:
-            with PointStore(output / STORE_NAME, case_hash(loaded)) as store:
-                srows = store.rows("sweep")
-        except StoreError as exc:
-            console.print(f"threshold not drawn on the sweep map: {exc}")
-            srows = []
-        if len(srows) == int(np.prod(loaded.sweep.shape)):
-            _draw_map(loaded, srows, output, rows)
-            console.print(f"threshold drawn on {output / 'sweep.png'}")
+        threshold_curve(loaded, rows, path=fig_path)
+        srows = _finished(loaded, output, "sweep")
+        if srows is not None:
+            map_path = fig_path.with_name(f"sweep{fig_path.suffix}")
+            _draw_map(loaded, srows, map_path, rows)
+            console.print(f"threshold drawn on {map_path}")
     for r in ok:
         console.print(f"{t.across.path.text} = {r['across']:.6g}: {t.path.text} = "
                       f"{r['threshold']:.6g}")
-    console.print(f"wrote {output / 'threshold.csv'}, {output / 'threshold.json'}, "
-                  f"{output / 'threshold.png'}")
+    console.print(written(output / "threshold.csv", output / "threshold.json", fig_path))
     if failed:
         console.print(f"{len(failed)} value(s) without a threshold: "
                       + "; ".join(str(r.get("reason")) for r in failed), style="red")

@@ -12,11 +12,16 @@ from kinroots.cli._common import (
     EXIT_BAD_INPUT,
     CaseArg,
     DefaultOpt,
+    FigureFormat,
+    FigureFormatOpt,
+    NoPlotOpt,
     OutOpt,
     check_output_dir,
     err,
+    figure_path,
     load_case_or_exit,
     stderr_console,
+    written,
 )
 from kinroots.io.case import Case
 
@@ -45,6 +50,8 @@ def solve(
     case: CaseArg = None,
     output: OutOpt = Path("kinroots-out"),
     default: DefaultOpt = False,
+    figure_format: FigureFormatOpt = FigureFormat.png,
+    no_plot: NoPlotOpt = False,
 ) -> None:
     """Find every root in the search window at the first k and trace each branch across
     the scan; write branches.csv, summary.json and branches.png to the output folder.
@@ -57,7 +64,6 @@ def solve(
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
     from kinroots.io.tables import write_csv, write_json
-    from kinroots.plots.branches import BranchCurve, plot_branches
     from kinroots.study.rows import GROWTH_RESOLUTION, branch_rows
     from kinroots.study.solve import solution_summary
     from kinroots.study.solve import solve as solve_case
@@ -76,26 +82,23 @@ def solve(
     summary = solution_summary(sol, rows)
     write_csv(output / "branches.csv", rows)
     write_json(output / "summary.json", summary)
-    curves = []
-    for b in sol.branches:
-        pts = b.sorted_points()
-        curves.append(BranchCurve(
-            label=f"branch {b.id}",
-            k=[k for k, _ in pts],
-            omega=[r.value if r.converged else complex("nan") for _, r in pts],
-        ))
-    units = loaded.units
-    plot_branches(output / "branches.png", curves, k_label=units.length_label,
-                  omega_label=units.frequency_label, title=loaded.title,
-                  growth_floor=GROWTH_RESOLUTION * loaded.solver.tolerance)
+    fig_path = figure_path(output, "branches", figure_format, no_plot)
+    if fig_path is not None:
+        from kinroots.plots.branches import curves_from_rows, plot_branches
+
+        units = loaded.units
+        plot_branches(curves_from_rows(rows), k_label=units.length_label,
+                      omega_label=units.frequency_label, title=loaded.title,
+                      growth_floor=GROWTH_RESOLUTION * loaded.solver.tolerance,
+                      k_unit_per_m=float(units.k_to_si(1.0)),
+                      omega_unit_rad_per_s=float(units.omega_to_si(1.0)), path=fig_path)
     console.print(f"{len(sol.branches)} branch(es) traced over {len(loaded.k_values)} k "
                   f"points; {sol.evaluations} dispersion evaluations")
     console.print(f"fastest growing: {_describe_root(summary['fastest_growing'], loaded)}")
     console.print(f"least damped:    {_describe_root(summary['least_damped'], loaded)}")
     for note in sol.notes:
         console.print(f"note: {note}")
-    console.print(f"wrote {output / 'branches.csv'}, {output / 'summary.json'}, "
-                  f"{output / 'branches.png'}")
+    console.print(written(output / "branches.csv", output / "summary.json", fig_path))
     if sol.failed_points:
         console.print(f"{sol.failed_points} point(s) failed: flagged in the table "
                       "(converged = false) and in summary.json", style="red")
@@ -108,6 +111,8 @@ def roots(
                                              "of the case's [units] length).")] = None,
     output: OutOpt = Path("kinroots-out"),
     default: DefaultOpt = False,
+    figure_format: FigureFormatOpt = FigureFormat.png,
+    no_plot: NoPlotOpt = False,
 ) -> None:
     """Every root in the search window at one wavenumber; write roots.csv, summary.json
     and map.png (log|D| over the window, roots marked).
@@ -120,7 +125,6 @@ def roots(
     import math
 
     from kinroots.io.tables import write_csv, write_json
-    from kinroots.plots.branches import plot_root_map
     from kinroots.study.problem import function_at, survey, window
     from kinroots.study.rows import metadata, survey_rows
 
@@ -151,15 +155,23 @@ def roots(
     })
     write_csv(output / "roots.csv", rows)
     write_json(output / "summary.json", summary)
-    plot_root_map(output / "map.png", f.value, window(loaded), list(s.values),
-                  omega_label=loaded.units.frequency_label,
-                  title=f"{loaded.title}: k = {at:g} /{loaded.units.length_label}")
+    fig_path = figure_path(output, "map", figure_format, no_plot)
+    if fig_path is not None:
+        from kinroots.plots.branches import plot_root_map
+
+        ok = [r for r in rows if r.get("converged")]
+        plot_root_map(f.value, window(loaded),
+                      [complex(r["omega_real"], r["omega_imag"]) for r in ok],
+                      verified=[bool(r["verified"]) for r in ok],
+                      omega_label=loaded.units.frequency_label,
+                      title=f"{loaded.title}: k = {at:g} /{loaded.units.length_label}",
+                      path=fig_path)
     for r in rows:
         if r.get("converged"):
             console.print(_describe_root(r, loaded))
     console.print(f"{len(s.values)} root(s) in the window (argument principle: {s.count}); "
-                  f"{s.evaluations} evaluations; wrote {output / 'roots.csv'}, "
-                  f"{output / 'summary.json'}, {output / 'map.png'}")
+                  f"{s.evaluations} evaluations; "
+                  + written(output / "roots.csv", output / "summary.json", fig_path))
     if not s.complete:
         console.print("survey incomplete: " + "; ".join(s.notes), style="red")
         raise typer.Exit(1)

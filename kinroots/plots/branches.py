@@ -1,86 +1,244 @@
-"""Figures that accompany every table (matplotlib, imported inside the functions).
+"""Figures of the temporal problem: branches ω(k) and the map of |D| at one k.
 
-Each function takes plain arrays and labels, renders with the non-interactive Agg
-backend and writes the PNG atomically.
+Each function draws on the axes it is given (``ax=``) or on a new Figure, returns the
+Figure, and writes it when given ``path`` (format from the suffix: png, svg or pdf).
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
-from kinroots.plots._style import colours, new_figure, save_figure
+from kinroots.plots._style import (
+    axes_grid,
+    branch_style,
+    literal,
+    math_label,
+    save_figure,
+    set_title,
+)
+
+__all__ = ["BranchCurve", "curves_from_rows", "plot_branches", "plot_root_map", "plot_roots"]
+
+#: Light fill marking γ > 0 (growing) on growth-rate axes; hatched so it shows in grey.
+GROWING_FILL: dict[str, Any] = {"facecolor": "#D55E00", "alpha": 0.08, "hatch": "//",
+                                "edgecolor": "#D55E00", "lw": 0.0}
 
 
 @dataclass(frozen=True)
 class BranchCurve:
-    """One branch for plotting: normalized k and ω (NaN where a point failed)."""
+    """One branch for plotting.
+
+    Attributes
+    ----------
+    label : str
+        Legend text (user text is shown literally).
+    k, omega : array
+        Normalized k and complex ω (NaN where a point failed).
+    verified : array of bool, optional
+        Points confirmed by a survey of the window (argument principle); drawn as filled
+        markers.  None: no point is marked.
+    """
 
     label: str
     k: np.ndarray
     omega: np.ndarray
+    verified: np.ndarray | None = None
+
+
+def curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[BranchCurve]:
+    """Branch curves from table rows (the columns of branches.csv, typed: ``branch``,
+    ``k``, ``omega_real``, ``omega_imag``, ``converged``, ``verified``), in branch order;
+    failed points become NaN."""
+    by_branch: dict[Any, list[Mapping[str, Any]]] = {}
+    for r in rows:
+        if r.get("branch") in (None, ""):
+            continue
+        by_branch.setdefault(r["branch"], []).append(r)
+    curves = []
+    for b, pts in by_branch.items():
+        pts = sorted(pts, key=lambda r: float(r["k"]))
+        ok = [bool(r.get("converged")) for r in pts]
+        curves.append(BranchCurve(
+            label=f"branch {b}",
+            k=np.array([float(r["k"]) for r in pts]),
+            omega=np.array([complex(float(r["omega_real"]), float(r["omega_imag"])) if c
+                            else complex("nan") for r, c in zip(pts, ok, strict=True)]),
+            verified=np.array([bool(r.get("verified")) and c
+                               for r, c in zip(pts, ok, strict=True)]),
+        ))
+    return curves
+
+
+def secondary_axis(ax: Any, which: str, scale: float | None, label: str) -> Any:
+    """A secondary axis (``"x"`` on top or ``"y"`` on the right) showing the same data
+    times ``scale`` (e.g. SI units beside normalized ones); None when ``scale`` is None."""
+    if scale is None or not np.isfinite(scale) or scale == 0:
+        return None
+    fwd = (lambda v: np.asarray(v) * scale, lambda v: np.asarray(v) / scale)
+    sec = ax.secondary_xaxis("top", functions=fwd) if which == "x" else \
+        ax.secondary_yaxis("right", functions=fwd)
+    (sec.set_xlabel if which == "x" else sec.set_ylabel)(label)
+    return sec
+
+
+def mark_growing(ax: Any) -> None:
+    """Shade γ > 0 (hatched, light) and draw γ = 0 on a growth-rate axis."""
+    lo, hi = ax.get_ylim()
+    if hi > 0:
+        ax.axhspan(0.0, hi, zorder=0, **GROWING_FILL)
+        ax.text(0.995, 0.98, "growing (γ > 0)", transform=ax.transAxes, ha="right",
+                va="top", fontsize="small", color="#8a3a00")
+    if lo < 0:
+        ax.text(0.995, 0.02, "damped (γ < 0)", transform=ax.transAxes, ha="right",
+                va="bottom", fontsize="small", color="0.3")
+    ax.axhline(0.0, color="0.3", lw=0.8)
+    ax.set_ylim(lo, hi)
 
 
 def plot_branches(
-    path: Path,
     curves: Sequence[BranchCurve],
     *,
     k_label: str,
     omega_label: str,
     title: str = "",
     growth_floor: float = 0.0,
-) -> None:
-    """ω_r and γ against k, one colour per branch; growing parts (γ > 0) marked.
+    k_unit_per_m: float | None = None,
+    omega_unit_rad_per_s: float | None = None,
+    ax: Any = None,
+    path: Path | None = None,
+) -> Any:
+    """ω_r and γ against k, one colour, dash pattern and marker per branch.
+
+    Growing stretches (γ > growth_floor·|ω|) are drawn with a thick translucent band on
+    the ω_r panel; the γ > 0 half-plane is hatched on the γ panel.  Points confirmed by a
+    survey of the window carry a filled marker.  With the unit sizes given, secondary
+    axes show k in 1/m, f = ω_r/2π in Hz and γ in 1/s.
 
     Parameters
     ----------
-    path : Path
-        Output PNG.
     curves : sequence of BranchCurve
         Normalized k and complex ω per branch.
     k_label, omega_label : str
-        Axis unit labels, e.g. ``"λ_De"`` and ``"ω_pe"``.
+        Unit symbols of the normalization, e.g. ``"λ_De"`` and ``"ω_pe"``.
     growth_floor : float
-        A point is marked growing when γ > growth_floor·|ω| (the root finder's
-        resolution of the sign of γ).
+        Resolution of the sign of γ, relative to |ω|.
+    k_unit_per_m, omega_unit_rad_per_s : float, optional
+        Size of the normalized units in SI, for the secondary axes.
+    ax : (Axes, Axes), optional
+        Axes for ω_r and γ; a new Figure when omitted.
+    path : Path, optional
+        Write the figure there (png, svg or pdf by suffix).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
     """
-    fig = new_figure(figsize=(8.0, 6.5), layout="constrained")
-    ax_r, ax_i = fig.subplots(2, 1, sharex=True)
-    cmap = colours(len(curves))
-    any_growth = False
-    for colour, c in zip(cmap, curves, strict=False):
+    fig, (ax_r, ax_i) = axes_grid(ax, 2, figsize=(8.0, 7.0), sharex=True)
+    any_growth = any_verified = False
+    for i, c in enumerate(curves):
+        st = branch_style(i)
         k = np.asarray(c.k, dtype=float)
         w = np.asarray(c.omega, dtype=complex)
-        ax_r.plot(k, w.real, "-", color=colour, lw=1.5, label=c.label)
-        ax_i.plot(k, w.imag, "-", color=colour, lw=1.5, label=c.label)
-        grow = w.imag > growth_floor * np.abs(w)
+        label = literal(c.label)
+        ax_r.plot(k, w.real, ls=st["ls"], color=st["color"], lw=1.5, label=label)
+        ax_i.plot(k, w.imag, ls=st["ls"], color=st["color"], lw=1.5)
+        with np.errstate(invalid="ignore"):
+            grow = w.imag > growth_floor * np.abs(w)
         if np.any(grow):
             any_growth = True
-            ax_r.plot(k[grow], w.real[grow], "o", color=colour, ms=3.5, mfc="none")
-            ax_i.plot(k[grow], w.imag[grow], "o", color=colour, ms=3.5, mfc="none")
-    ax_i.axhline(0.0, color="0.5", lw=0.8, ls="--")
-    ax_r.set_ylabel(f"ω_r / {omega_label}")
-    ax_i.set_ylabel(f"γ / {omega_label}")
-    ax_i.set_xlabel(f"k · {k_label}")
-    if title:
-        ax_r.set_title(title)
+            ax_r.plot(k, np.where(grow, w.real, np.nan), "-", color=st["color"], lw=6,
+                      alpha=0.3, solid_capstyle="butt")
+        if c.verified is not None:
+            v = np.asarray(c.verified, dtype=bool) & np.isfinite(w)
+            if np.any(v):
+                any_verified = True
+                for a, y in ((ax_r, w.real), (ax_i, w.imag)):
+                    a.plot(k[v], y[v], ls="none", marker=st["marker"], color=st["color"],
+                           ms=5)
+    omega_unit = math_label(omega_label)
+    ax_r.set_ylabel(f"{math_label('ω_r')} / {omega_unit}")
+    ax_i.set_ylabel(f"γ / {omega_unit}")
+    ax_i.set_xlabel(f"k {math_label(k_label)}")
+    for a in (ax_r, ax_i):
+        a.grid(True, alpha=0.3)
+    if curves and len(ax_i.get_lines()):
+        mark_growing(ax_i)
+    secondary_axis(ax_r, "x", k_unit_per_m, "k [1/m]")
+    two_pi = 2 * np.pi
+    secondary_axis(ax_r, "y", None if omega_unit_rad_per_s is None
+                   else omega_unit_rad_per_s / two_pi, math_label("f = ω_r/2π [Hz]"))
+    secondary_axis(ax_i, "y", omega_unit_rad_per_s, "γ [1/s]")
+    set_title(ax_r, title)
     if curves:
-        ax_r.legend(fontsize="small", ncol=2, loc="best")
-    if any_growth:
-        ax_i.text(
-            0.01, 0.97, "open circles: growing (γ > 0)", transform=ax_i.transAxes,
-            va="top", fontsize="small",
-        )
-    for ax in (ax_r, ax_i):
-        ax.grid(True, alpha=0.3)
-    save_figure(fig, path)
+        from matplotlib.lines import Line2D
+
+        handles, labels = ax_r.get_legend_handles_labels()
+        if any_verified:
+            handles.append(Line2D([], [], ls="none", marker="o", color="0.2", ms=5))
+            labels.append("marker: verified by a survey")
+        if any_growth:
+            handles.append(Line2D([], [], color="0.2", lw=6, alpha=0.3))
+            labels.append("band: growing (γ > 0)")
+        ax_r.legend(handles, labels, fontsize="small", ncol=2, loc="best")
+    if path is not None:
+        save_figure(fig, path)
+    return fig
+
+
+def plot_roots(
+    roots: Sequence[complex],
+    verified: Sequence[bool],
+    box: tuple[float, float, float, float] | None,
+    *,
+    omega_label: str,
+    title: str = "",
+    ax: Any = None,
+    path: Path | None = None,
+) -> Any:
+    """Roots at one k in the complex ω plane (no evaluation of D): verified roots
+    filled, others open; the search window dashed; γ > 0 hatched.
+
+    Parameters
+    ----------
+    roots, verified : sequences
+        Normalized complex roots and their verification flags.
+    box : (re_min, re_max, im_min, im_max) or None
+        The search window, normalized.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    fig, (axis,) = axes_grid(ax, 1, figsize=(7.0, 5.5))
+    r = np.asarray(roots, dtype=complex)
+    v = np.asarray(verified, dtype=bool)
+    if box is not None:
+        re0, re1, im0, im1 = box
+        axis.plot([re0, re1, re1, re0, re0], [im0, im0, im1, im1, im0], "--", color="0.4",
+                  lw=1.0, label="search window")
+    if r.size:
+        axis.plot(r.real[v], r.imag[v], "o", color="#0072B2", ms=7, label="verified root")
+        axis.plot(r.real[~v], r.imag[~v], "o", mfc="white", color="#D55E00", ms=7,
+                  mew=1.5, label="not verified")
+    axis.margins(0.08)
+    mark_growing(axis)
+    u = math_label(omega_label)
+    axis.set_xlabel(f"Re ω / {u}")
+    axis.set_ylabel(f"Im ω / {u}")
+    axis.grid(True, alpha=0.3)
+    axis.legend(loc="best", fontsize="small")
+    set_title(axis, title)
+    if path is not None:
+        save_figure(fig, path)
+    return fig
 
 
 def plot_root_map(
-    path: Path,
     func: Callable[[np.ndarray], np.ndarray],
     box: tuple[float, float, float, float],
     roots: Sequence[complex],
@@ -89,7 +247,10 @@ def plot_root_map(
     title: str = "",
     resolution: int = 160,
     margin: float = 0.08,
-) -> None:
+    verified: Sequence[bool] | None = None,
+    ax: Any = None,
+    path: Path | None = None,
+) -> Any:
     """log10|D| over the search window (with a margin), the window drawn, roots marked.
 
     Parameters
@@ -99,7 +260,13 @@ def plot_root_map(
     box : (re_min, re_max, im_min, im_max)
         The search window, normalized.
     roots : sequence of complex
-        Converged roots to mark.
+        Converged roots to mark (filled when verified, open otherwise).
+    verified : sequence of bool, optional
+        Verification flag of each root (all taken as verified when omitted).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
     """
     re0, re1, im0, im1 = box
     dr, di = (re1 - re0) * margin, (im1 - im0) * margin
@@ -110,19 +277,28 @@ def plot_root_map(
         vals = np.asarray(func(zz.ravel())).reshape(zz.shape)
         logd = np.log10(np.abs(vals))
     logd[~np.isfinite(logd)] = np.nan
-    fig = new_figure(figsize=(7.5, 6.0), layout="constrained")
-    ax = fig.subplots()
-    mesh = ax.pcolormesh(x, y, logd, shading="auto", cmap="viridis")
-    fig.colorbar(mesh, ax=ax, label="log10 |D|")
-    ax.plot([re0, re1, re1, re0, re0], [im0, im0, im1, im1, im0], "w--", lw=1.0,
-            label="search window")
+    fig, (axis,) = axes_grid(ax, 1, figsize=(7.5, 6.0))
+    mesh = axis.pcolormesh(x, y, logd, shading="auto", cmap="viridis")
+    fig.colorbar(mesh, ax=axis, label="log$_{10}$ |D|")
+    axis.plot([re0, re1, re1, re0, re0], [im0, im0, im1, im1, im0], "w--", lw=1.0,
+              label="search window")
     if roots:
         r = np.asarray(roots, dtype=complex)
-        ax.plot(r.real, r.imag, "x", color="red", ms=9, mew=2, label="roots")
-    ax.axhline(0.0, color="w", lw=0.6, alpha=0.6)
-    ax.set_xlabel(f"Re ω / {omega_label}")
-    ax.set_ylabel(f"Im ω / {omega_label}")
-    if title:
-        ax.set_title(title)
-    ax.legend(loc="lower right", fontsize="small")
-    save_figure(fig, path)
+        v = np.ones(r.size, bool) if verified is None else np.asarray(verified, bool)
+        axis.plot(r.real[v], r.imag[v], "o", color="white", mec="black", ms=8, mew=1.5,
+                  label="root (verified)")
+        if np.any(~v):
+            axis.plot(r.real[~v], r.imag[~v], "o", mfc="none", mec="white", ms=8, mew=1.5,
+                      label="root (not verified)")
+    axis.axhline(0.0, color="w", lw=0.8, alpha=0.8)
+    if im1 + di > 0:
+        axis.text(0.01, 0.99, "Im ω > 0: growing", transform=axis.transAxes, va="top",
+                  color="white", fontsize="small")
+    u = math_label(omega_label)
+    axis.set_xlabel(f"Re ω / {u}")
+    axis.set_ylabel(f"Im ω / {u}")
+    set_title(axis, title)
+    axis.legend(loc="lower right", fontsize="small")
+    if path is not None:
+        save_figure(fig, path)
+    return fig
