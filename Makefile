@@ -6,7 +6,7 @@ VENV   ?= .venv
 PY     := $(VENV)/bin/python
 OUT    ?= kinroots-out
 
-.PHONY: run test lint docs bench validation clean
+.PHONY: run test lint docs bench validation clean fuzz
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
@@ -32,6 +32,11 @@ test: $(VENV)/.installed-test
 	@$(PY) -m pytest -n 2 -p no:cacheprovider; rc=$$?; \
 	if [ $$rc -eq 5 ]; then echo "make test: pytest collected no tests" >&2; exit 1; fi; \
 	exit $$rc
+
+# a longer mutation fuzz of every command than the test suite's (tests/test_fuzz_commands.py)
+fuzz: $(VENV)/.installed-test
+	KINROOTS_FUZZ_EXAMPLES=$${FUZZ_EXAMPLES:-1000} $(PY) -m pytest -n 2 -p no:cacheprovider \
+		tests/test_fuzz_commands.py
 
 lint: $(VENV)/.installed-test
 	$(VENV)/bin/ruff check kinroots tests benchmarks

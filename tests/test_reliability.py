@@ -227,3 +227,32 @@ def test_at_nan_and_unwritable_output_refused_before_work(tmp_path: Path) -> Non
         result = invoke(cmd, str(path), "-o", str(path / "inside-a-file"))
         assert result.exit_code == 2, (cmd, result.stderr)
         assert "output" in result.stderr
+
+
+def test_output_set_is_replaced_whole_or_not_at_all(monkeypatch: pytest.MonkeyPatch,
+                                                    tmp_path: Path) -> None:
+    import hashlib
+
+    import kinroots.plots.branches as branches_module
+
+    path, out = small_case(tmp_path), tmp_path / "out"
+    assert invoke("solve", str(path), "-o", str(out)).exit_code in (0, 1)
+    manifest = json.loads((out / "solve-manifest.json").read_text(encoding="utf-8"))
+    assert set(manifest["files"]) == {"branches.csv", "summary.json", "branches.png"}
+    for name, info in manifest["files"].items():
+        assert hashlib.sha256((out / name).read_bytes()).hexdigest() == info["sha256"]
+    before = {p.name: p.read_bytes() for p in out.iterdir()}
+
+    def broken(*args: Any, **kwargs: Any) -> None:
+        raise OSError("disk full (planted)")
+
+    monkeypatch.setattr(branches_module, "plot_branches", broken)
+    result = invoke("solve", str(path), "-o", str(out))
+    assert result.exit_code == 3
+    visible = {p.name: p.read_bytes() for p in out.iterdir() if not p.name.startswith(".")}
+    assert visible == before  # the previous run's set, untouched
+    monkeypatch.undo()
+    assert invoke("solve", str(path), "-o", str(out)).exit_code in (0, 1)
+    assert not [p for p in out.iterdir() if p.name.startswith(".")]  # staged files gone
+    new = json.loads((out / "solve-manifest.json").read_text(encoding="utf-8"))
+    assert new["run_id"] != manifest["run_id"]

@@ -156,3 +156,17 @@ def test_ctrl_c_stops_a_huge_sweep_within_seconds(tmp_path: Path) -> None:
     assert not [w for w in workers if _alive(w)]
     db = sqlite3.connect(tmp_path / "out" / "points.sqlite")
     assert db.execute("SELECT COUNT(*) FROM points").fetchone()[0] >= 0  # readable
+
+
+def test_non_ascii_species_name_through_sweep_and_netcdf(tmp_path: Path) -> None:
+    import xarray as xr
+
+    text = (small_case_text(1, 2, 2).replace('name = "p"', 'name = "π"')
+            .replace("species.p.", "species.π.").replace(':p"', ':π"'))
+    case = tmp_path / "case.toml"
+    case.write_text(text, encoding="utf-8")
+    res = runner.invoke(app, ["sweep", str(case), "-o", str(tmp_path / "o"), "--workers", "1"])
+    assert res.exit_code in (0, 1), res.output
+    with xr.open_dataset(tmp_path / "o" / "sweep.nc", engine="scipy") as ds:
+        assert "species_u03c0_anisotropy" in ds.dims
+        assert "π" in ds.attrs["case"]  # attributes keep their UTF-8 text

@@ -57,7 +57,7 @@ def launch_command(
     """
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
-    from kinroots.io.tables import write_csv, write_json
+    from kinroots.io.tables import OutputSet, write_csv, write_json
     from kinroots.study import launch as launch_mod
     from kinroots.study.rows import metadata
 
@@ -102,13 +102,16 @@ def launch_command(
     })
     summary.pop("fastest_growing", None)
     summary.pop("least_damped", None)
-    write_csv(output / "launch.csv", rows, columns)
-    write_json(output / "launch.json", summary)
+    out = OutputSet(output, "launch")
+    write_csv(out.stage("launch.csv"), rows, columns)
+    write_json(out.stage("launch.json"), summary)
     fig_path = figure_path(output, "launch", figure_format, no_plot)
     if fig_path is not None:
         from kinroots.plots.lab import launch_curves_from_rows, plot_launch
 
-        plot_launch(launch_curves_from_rows(rows), title=loaded.title, path=fig_path)
+        plot_launch(launch_curves_from_rows(rows), title=loaded.title,
+                    path=out.stage(fig_path.name))
+    out.commit()
     console.print(f"{len(res.branches)} wave(s) in the k box over {n} frequencies")
     for r in rows:
         if r["converged"] and r is rows[0]:
@@ -144,7 +147,7 @@ def scatter_command(
     Example: kinroots scatter cases/lab_launched_ion_acoustic.toml
              --laser-wavelength 532e-9 --angle 90 -o out/scatter
     """
-    from kinroots.io.tables import write_csv, write_json
+    from kinroots.io.tables import OutputSet, write_csv, write_json
     from kinroots.physics import spectrum
     from kinroots.physics.plasma import CONVENTIONS, derived_quantities
 
@@ -206,8 +209,9 @@ def scatter_command(
         },
         "formula": "Sheffield et al. 2011 ch. 5 (from memory); see kinroots.physics.spectrum",
     }
-    write_csv(output / "spectrum.csv", rows, spectrum.SPECTRUM_COLUMNS)
-    write_json(output / "spectrum.json", meta)
+    out = OutputSet(output, "scatter")
+    write_csv(out.stage("spectrum.csv"), rows, spectrum.SPECTRUM_COLUMNS)
+    write_json(out.stage("spectrum.json"), meta)
     fig_path = figure_path(output, "spectrum", figure_format, no_plot)
     if fig_path is not None:
         from kinroots.plots.lab import plot_spectrum
@@ -215,7 +219,9 @@ def scatter_command(
         plot_spectrum(cols["wavelength_shift_nm"], cols["relative_power_per_nm"],
                       ion_window_nm=ion_nm, alpha=sp.alpha_bragg,
                       title=f"{loaded.title}: λ_i = {laser_wavelength * 1e9:.4g} nm, "
-                            f"θ = {angle:g}°, α = {sp.alpha_bragg:.3g}", path=fig_path)
+                            f"θ = {angle:g}°, α = {sp.alpha_bragg:.3g}",
+                      path=out.stage(fig_path.name))
+    out.commit()
     console.print(f"k = {sp.k_bragg_per_m:.6g} 1/m, α = 1/(k λ_De) = {sp.alpha_bragg:.4g}; "
                   + written(output / "spectrum.csv", output / "spectrum.json", fig_path))
 

@@ -125,21 +125,24 @@ def sweep_command(
              --workers 2
     """
     from kinroots.io.netcdf import dataset_bytes, sweep_dataset
-    from kinroots.io.tables import atomic_write_bytes, write_csv, write_json
+    from kinroots.io.tables import OutputSet, atomic_write_bytes, write_csv, write_json
     from kinroots.study.sweep import SWEEP_COLUMNS, blank_failed
 
     loaded = _prepare(case, default, output, "sweep")
     spec = loaded.sweep
     total = int(np.prod(spec.shape))
     rows = _run(loaded, "sweep", total, output, workers, scheduler)
-    write_csv(output / "sweep.csv", blank_failed(rows, "sweep"), SWEEP_COLUMNS)
-    atomic_write_bytes(output / "sweep.nc", dataset_bytes(sweep_dataset(
+    out = OutputSet(output, "sweep")
+    write_csv(out.stage("sweep.csv"), blank_failed(rows, "sweep"), SWEEP_COLUMNS)
+    atomic_write_bytes(out.stage("sweep.nc"), dataset_bytes(sweep_dataset(
         loaded, rows, history=f"kinroots sweep {loaded.source or 'default case'}")))
     fig_path = figure_path(output, "sweep", figure_format, no_plot)
     if fig_path is not None:
-        _draw_map(loaded, rows, fig_path, _finished(loaded, output, "threshold"))
+        _draw_map(loaded, rows, out.stage(fig_path.name),
+                  _finished(loaded, output, "threshold"))
     failed = [r for r in rows if not r.get("converged")]
-    write_json(output / "sweep.json", _summary(loaded, "sweep", rows, failed))
+    write_json(out.stage("sweep.json"), _summary(loaded, "sweep", rows, failed))
+    out.commit()
     console = stderr_console()
     best = max((r for r in rows if r.get("converged") and r.get("growth_max") is not None
                 and math.isfinite(r["growth_max"])), key=lambda r: r["growth_max"],
@@ -231,22 +234,25 @@ def threshold_command(
 
     Example: kinroots threshold cases/sweep_proton_anisotropy.toml -o out/sweep
     """
-    from kinroots.io.tables import write_csv, write_json
+    from kinroots.io.tables import OutputSet, write_csv, write_json
     from kinroots.study.sweep import THRESHOLD_COLUMNS, blank_failed
 
     loaded = _prepare(case, default, output, "threshold")
     t = loaded.threshold
     rows = _run(loaded, "threshold", t.across.points, output, workers, scheduler)
-    write_csv(output / "threshold.csv", blank_failed(rows, "threshold"), THRESHOLD_COLUMNS)
+    out = OutputSet(output, "threshold")
+    write_csv(out.stage("threshold.csv"), blank_failed(rows, "threshold"), THRESHOLD_COLUMNS)
     failed = [r for r in rows if not r.get("converged")]
-    write_json(output / "threshold.json", _summary(loaded, "threshold", rows, failed))
+    write_json(out.stage("threshold.json"), _summary(loaded, "threshold", rows, failed))
     ok = [r for r in rows if r.get("converged")]
     fig_path = figure_path(output, "threshold", figure_format, no_plot)
     console = stderr_console()
     if fig_path is not None:
         from kinroots.plots.maps import threshold_curve
 
-        threshold_curve(loaded, rows, path=fig_path)
+        threshold_curve(loaded, rows, path=out.stage(fig_path.name))
+    out.commit()
+    if fig_path is not None:
         srows = _finished(loaded, output, "sweep")
         if srows is not None:
             map_path = fig_path.with_name(f"sweep{fig_path.suffix}")

@@ -63,7 +63,7 @@ def solve(
     """
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
-    from kinroots.io.tables import write_csv, write_json
+    from kinroots.io.tables import OutputSet, write_csv, write_json
     from kinroots.study.rows import GROWTH_RESOLUTION, branch_rows
     from kinroots.study.solve import solution_summary
     from kinroots.study.solve import solve as solve_case
@@ -80,8 +80,9 @@ def solve(
         sol = solve_case(loaded, progress=lambda done, total: bar.update(task, completed=done))
     rows = branch_rows(sol)
     summary = solution_summary(sol, rows)
-    write_csv(output / "branches.csv", rows)
-    write_json(output / "summary.json", summary)
+    out = OutputSet(output, "solve")
+    write_csv(out.stage("branches.csv"), rows)
+    write_json(out.stage("summary.json"), summary)
     fig_path = figure_path(output, "branches", figure_format, no_plot)
     if fig_path is not None:
         from kinroots.plots.branches import curves_from_rows, plot_branches
@@ -91,7 +92,9 @@ def solve(
                       omega_label=units.frequency_label, title=loaded.title,
                       growth_floor=GROWTH_RESOLUTION * loaded.solver.tolerance,
                       k_unit_per_m=float(units.k_to_si(1.0)),
-                      omega_unit_rad_per_s=float(units.omega_to_si(1.0)), path=fig_path)
+                      omega_unit_rad_per_s=float(units.omega_to_si(1.0)),
+                      path=out.stage(fig_path.name))
+    out.commit()
     console.print(f"{len(sol.branches)} branch(es) traced over {len(loaded.k_values)} k "
                   f"points; {sol.evaluations} dispersion evaluations")
     console.print(f"fastest growing: {_describe_root(summary['fastest_growing'], loaded)}")
@@ -124,7 +127,7 @@ def roots(
     """
     import math
 
-    from kinroots.io.tables import write_csv, write_json
+    from kinroots.io.tables import OutputSet, write_csv, write_json
     from kinroots.study.problem import function_at, survey, window
     from kinroots.study.rows import metadata, survey_rows
 
@@ -153,8 +156,9 @@ def roots(
         "notes": list(s.notes),
         "harmonics": f.dispersion.harmonics,
     })
-    write_csv(output / "roots.csv", rows)
-    write_json(output / "summary.json", summary)
+    out = OutputSet(output, "roots")
+    write_csv(out.stage("roots.csv"), rows)
+    write_json(out.stage("summary.json"), summary)
     fig_path = figure_path(output, "map", figure_format, no_plot)
     if fig_path is not None:
         from kinroots.plots.branches import plot_root_map
@@ -165,7 +169,8 @@ def roots(
                       verified=[bool(r["verified"]) for r in ok],
                       omega_label=loaded.units.frequency_label,
                       title=f"{loaded.title}: k = {at:g} /{loaded.units.length_label}",
-                      path=fig_path)
+                      path=out.stage(fig_path.name))
+    out.commit()
     for r in rows:
         if r.get("converged"):
             console.print(_describe_root(r, loaded))

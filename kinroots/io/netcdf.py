@@ -341,6 +341,20 @@ def sweep_dataset(case: Case, rows: Sequence[Mapping[str, Any]], *,
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
+def _netcdf_name(name: str) -> str:
+    """A name netCDF-3 can store: printable ASCII without '/'; any other character c
+    becomes ``u<hex code of c>`` (species names may be any printable Unicode)."""
+    return "".join(c if c.isascii() and c.isprintable() and c != "/" else f"u{ord(c):04x}"
+                   for c in name)
+
+
 def dataset_bytes(ds: xr.Dataset) -> bytes:
-    """The Dataset as netCDF bytes (netCDF-3 64-bit offset, scipy; no extra library)."""
+    """The Dataset as netCDF bytes (netCDF-3 64-bit offset, scipy; no extra library).
+
+    Variable and dimension names are made ASCII (`_netcdf_name`); attributes keep their
+    text (UTF-8)."""
+    names = {str(n) for n in (*ds.variables, *ds.dims)}
+    renames = {n: _netcdf_name(n) for n in names if _netcdf_name(n) != n}
+    if renames:
+        ds = ds.rename(renames)
     return bytes(ds.to_netcdf(engine="scipy"))

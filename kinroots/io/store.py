@@ -5,7 +5,8 @@ One run at a time per folder: the store holds an exclusive lock (``points.lock``
 open, and a second run is refused.  The database is never opened through a symbolic
 link, and a damaged or foreign file is refused with a message saying how to start over.
 Values are stored as plain JSON: numpy scalars (``numpy.bool_``, ``numpy.float64``)
-are converted, anything else is an error before the transaction.
+and arrays are converted (`kinroots.io.tables`), anything else is an error before the
+transaction.
 The database remembers the hash of the normalized case it was started with; opening it
 with a different case raises :class:`StoreMismatch`, so a resumed run never mixes rows
 of two cases.  Rows are stored as JSON text (floats round-trip exactly; NaN kept).
@@ -19,7 +20,9 @@ import sqlite3
 from pathlib import Path
 from typing import Any
 
-__all__ = ["STORE_NAME", "PointStore", "StoreError", "StoreMismatch", "plain_json"]
+from kinroots.io.tables import _json_default
+
+__all__ = ["STORE_NAME", "PointStore", "StoreError", "StoreMismatch"]
 
 #: File name of the database inside the output folder.
 STORE_NAME = "points.sqlite"
@@ -33,17 +36,6 @@ class StoreError(Exception):
 
 class StoreMismatch(StoreError):
     """The database in the output folder belongs to a different case."""
-
-
-def plain_json(value: Any) -> Any:
-    """``json.dumps`` hook: numpy scalars and arrays become plain Python values."""
-    item = getattr(value, "item", None)
-    if callable(item) and getattr(value, "shape", None) == ():
-        return item()
-    tolist = getattr(value, "tolist", None)
-    if callable(tolist):
-        return tolist()
-    raise TypeError(f"Object of type {type(value).__name__} is not JSON serializable")
 
 
 class PointStore:
@@ -131,7 +123,7 @@ class PointStore:
 
     def commit(self, kind: str, index: int, row: dict[str, Any]) -> None:
         """Store one finished point (its own transaction)."""
-        text = json.dumps(row, sort_keys=True, allow_nan=True, default=plain_json)
+        text = json.dumps(row, sort_keys=True, allow_nan=True, default=_json_default)
         self._db.execute("BEGIN IMMEDIATE")
         try:
             self._db.execute("INSERT OR REPLACE INTO points VALUES (?, ?, ?)",

@@ -189,3 +189,76 @@ def to_json(data: Mapping[str, Any]) -> str:
 def write_json(path: Path, data: Mapping[str, Any]) -> None:
     """Write metadata as JSON atomically."""
     atomic_write_text(path, to_json(data))
+
+
+#: Suffix of files staged by an `OutputSet` and not yet committed.
+STAGED_SUFFIX = ".kinroots-part"
+
+
+class OutputSet:
+    """The files of one run, replaced together: a kill never leaves two runs' files mixed.
+
+    Writers write to :meth:`stage` paths (hidden temporary names in the output folder);
+    :meth:`commit` then removes the previous run's files of this command (listed in its
+    manifest ``<command>-manifest.json``) and the files about to be replaced, renames the
+    staged files into place and writes the new manifest (run id, time, every file with its
+    size and SHA-256).  A kill before the removals leaves the previous set whole; a kill
+    after them leaves part of the new set and no manifest — never old and new side by
+    side.  Staged files of a run that failed are removed by the next `OutputSet` on that
+    folder.
+
+    Parameters
+    ----------
+    folder : Path
+        Output folder (created).
+    command : str
+        Command name; names the manifest.
+    """
+
+    def __init__(self, folder: Path, command: str) -> None:
+        import uuid
+
+        self.folder = Path(folder)
+        self.command = command
+        self.run_id = uuid.uuid4().hex
+        self._staged: dict[str, Path] = {}
+        self.folder.mkdir(parents=True, exist_ok=True)
+        for stale in self.folder.glob(f".*{STAGED_SUFFIX}*"):
+            stale.unlink(missing_ok=True)
+
+    @property
+    def manifest(self) -> Path:
+        return self.folder / f"{self.command}-manifest.json"
+
+    def stage(self, name: str) -> Path:
+        """Path to write ``name`` to (hidden until :meth:`commit`)."""
+        # the real suffix last, so that writers choosing a format by suffix still can
+        path = self.folder / f".{name}.{self.run_id[:12]}{STAGED_SUFFIX}{Path(name).suffix}"
+        self._staged[name] = path
+        return path
+
+    def commit(self) -> list[Path]:
+        """Swap the staged files in; return their final paths."""
+        import datetime
+        import hashlib
+
+        previous: list[str] = []
+        try:
+            previous = list(json.loads(self.manifest.read_text(encoding="utf-8"))["files"])
+        except (OSError, ValueError, KeyError, TypeError):
+            previous = []
+        self.manifest.unlink(missing_ok=True)
+        for name in {*previous, *self._staged}:
+            if isinstance(name, str) and "/" not in name and name != self.manifest.name:
+                (self.folder / name).unlink(missing_ok=True)
+        files: dict[str, dict[str, Any]] = {}
+        final = []
+        for name, staged in self._staged.items():
+            data = staged.read_bytes()
+            os.replace(staged, self.folder / name)
+            final.append(self.folder / name)
+            files[name] = {"bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()}
+        stamp = datetime.datetime.now(datetime.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+        write_json(self.manifest, {"command": self.command, "run_id": self.run_id,
+                                   "finished": stamp, "files": files})
+        return final
