@@ -302,3 +302,14 @@ def test_branch_point_note() -> None:
         assert bool(note) is flagged, note
         shallow = complex(0.3, -0.8 * math.sqrt(kappa)) * k * theta
         assert branch_point_note(Plasma((s,), 0.0), omega=shallow, k=k, angle_deg=0.0) == ""
+
+
+def test_landau_moments_at_huge_zeta_do_not_raise() -> None:
+    """|ζ| ≥ 1.3e154 once raised OverflowError (float ** 2) in the series truncation rule;
+    the asymptotic M_0 = −Z → 1/ζ (Fried & Conte 1961) must come out instead."""
+    z = np.array([1e200 + 1j, 2e200 + 0j])
+    ms, _ = es_unmagnetized.landau_moments(z, 3)
+    np.testing.assert_allclose(ms[0], 1 / z, rtol=1e-15)
+    with np.errstate(all="ignore"):  # first_moment leaves errstate to its caller
+        m1, _ = es_unmagnetized.first_moment(z)
+    assert np.all(np.isfinite(m1))

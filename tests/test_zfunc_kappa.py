@@ -123,3 +123,14 @@ def test_maxwellian_limit_is_order_one_over_kappa() -> None:
 def test_nonfinite_input_gives_nan() -> None:
     y, dy, f, df = kappa_transforms(np.array([np.nan + 0j, complex(np.inf, 0)]), 3.0, 3.0)
     assert np.all(np.isnan(y)) and np.all(np.isnan(f))
+
+
+def test_one_point_path_agrees_with_the_array_path() -> None:
+    """The Python-arithmetic path for a single ζ equals the vectorized one."""
+    for kappa, power in ((1.6, 2.6), (4.0, 4.0), (40.0, 41.0)):
+        zs = np.array([0.3 + 0.2j, 2.0 - 1.0j, 25 - 3j, 1e-8 + 0j, -0.4 - 0.7 * kappa**0.5 * 1j])
+        arr = kappa_transforms(zs, kappa, power)
+        for i, z in enumerate(zs):
+            one = kappa_transforms(np.array([z]), kappa, power)
+            for a, b in zip(one, arr, strict=True):
+                assert abs(a[0] - b[i]) <= 1e-13 * abs(b[i]), (kappa, z)

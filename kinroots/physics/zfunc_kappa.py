@@ -64,6 +64,7 @@ SIAM Review 56, 385 (2014) (aliasing error of the rule in a strip).
 
 from __future__ import annotations
 
+import cmath
 import functools
 import math
 from dataclasses import dataclass
@@ -106,6 +107,7 @@ class _Grid:
     w: np.ndarray         # h x'(u_n) g_p(x_n), the u = 0 node halved (pairs folded)
     wx2: np.ndarray       # w x_n²
     a_star: float         # Im u above which the pole correction is left out (Im ζ > 0)
+    nodes: tuple[tuple[float, float, float], ...]  # (x², w, w x²) as floats (one-point path)
 
 
 @functools.lru_cache(maxsize=64)
@@ -131,25 +133,33 @@ def _grids(kappa: float, power: float) -> tuple[_Grid, _Grid, float]:
             arr.setflags(write=False)
         wx2 = w * x2
         wx2.setflags(write=False)
-        grids.append(_Grid(h, sigma, x2, w, wx2, math.atan(2.0 * math.pi / (h * s))))
+        grids.append(_Grid(h, sigma, x2, w, wx2, math.atan(2.0 * math.pi / (h * s)),
+                           tuple(zip(x2.tolist(), w.tolist(), wx2.tolist(), strict=True))))
     return grids[0], grids[1], log_a
 
 
 def _on_grid(
-    z: np.ndarray, grid: _Grid, kappa: float, power: float, log_a: float
+    z: np.ndarray, grid: _Grid, kappa: float, power: float, log_a: float, need_y: bool
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Y, dY, F, dF at the 1-d points ``z`` with one grid (see the module notes)."""
+    """Y, dY, F, dF at the 1-d points ``z`` with one grid (see the module notes); with
+    ``need_y`` false, Y and dY are NaN (F and dF are what the electrostatic χ needs)."""
     zz = z * z
     inv = 1.0 / (grid.x2[:, None] - zz[None, :])
     inv2 = inv * inv
-    s_w = grid.w @ inv             # Σ w/(x² − ζ²)
-    s_wx2 = grid.wx2 @ inv         # Σ w x²/(x² − ζ²)
-    d_w = grid.w @ inv2            # Σ w/(x² − ζ²)²
-    d_wx2 = grid.wx2 @ inv2        # Σ w x²/(x² − ζ²)²
-    y = 2.0 * z * s_w
+    # Weighted column sums by broadcasting: a BLAS product here can be 100 times slower
+    # when its threads compete with other work on the machine (measured).
+    w, wx2 = grid.w[:, None], grid.wx2[:, None]
+    s_wx2 = (inv * wx2).sum(axis=0)    # Σ w x²/(x² − ζ²)
+    d_wx2 = (inv2 * wx2).sum(axis=0)   # Σ w x²/(x² − ζ²)²
     f = 2.0 * s_wx2
-    dy = 2.0 * (d_wx2 + zz * d_w)
     df = 4.0 * z * d_wx2
+    if need_y:
+        s_w = (inv * w).sum(axis=0)    # Σ w/(x² − ζ²)
+        d_w = (inv2 * w).sum(axis=0)   # Σ w/(x² − ζ²)²
+        y = 2.0 * z * s_w
+        dy = 2.0 * (d_wx2 + zz * d_w)
+    else:
+        y = dy = np.full_like(z, np.nan)
     # pole correction 2πi φ(ζ) fac(ζ) and its derivative
     root = math.sqrt(kappa)
     u0 = np.arcsinh(z / root)
@@ -182,8 +192,46 @@ def _on_grid(
     return y + corr, dy + dcorr, f + z * corr, df + corr + z * dcorr
 
 
+def _one_point(
+    z: complex, grid: _Grid, kappa: float, power: float, log_a: float, need_y: bool
+) -> tuple[complex, complex, complex, complex]:
+    """:func:`_on_grid` at one finite point in Python arithmetic (no per-call numpy cost)."""
+    zz = z * z
+    s_w = s_wx2 = d_w = d_wx2 = 0j
+    for x2, w, wx2 in grid.nodes:
+        inv = 1.0 / (x2 - zz)
+        inv2 = inv * inv
+        s_wx2 += wx2 * inv
+        d_wx2 += wx2 * inv2
+        if need_y:
+            s_w += w * inv
+            d_w += w * inv2
+    nan = complex(math.nan, math.nan)
+    f, df = 2.0 * s_wx2, 4.0 * z * d_wx2
+    y, dy = (2.0 * z * s_w, 2.0 * (d_wx2 + zz * d_w)) if need_y else (nan, nan)
+    u0 = cmath.asinh(z / math.sqrt(kappa))
+    c = 2j * math.pi / grid.h
+    sig = grid.sigma
+    if u0.imag >= grid.a_star:
+        return y, dy, f, df
+    du0 = 1.0 / cmath.sqrt(kappa + zz)
+    g = cmath.exp(log_a - power * cmath.log(1.0 + zz / kappa))
+    dg = -2.0 * power * z / (kappa + zz) * g
+    if u0.imag >= 0.0:
+        q = cmath.exp(c * u0)
+        den = q - sig
+        fac, dfac = q / den, -sig * c * du0 * q / (den * den)
+    else:
+        e = cmath.exp(-c * u0)
+        den = 1.0 - sig * e
+        fac, dfac = 1.0 / den, -sig * c * du0 * e / (den * den)
+    corr = 2j * math.pi * g * fac
+    dcorr = 2j * math.pi * (dg * fac + g * dfac)
+    return y + corr, dy + dcorr, f + z * corr, df + corr + z * dcorr
+
+
 def kappa_transforms(
-    zeta: np.ndarray, kappa: float, power: float
+    zeta: np.ndarray, kappa: float, power: float, *, need_y: bool = True
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Y_p(ζ), dY_p/dζ, F_p(ζ) = 1 + ζY_p and dF_p/dζ of the profile g_p (module notes).
 
@@ -195,6 +243,8 @@ def kappa_transforms(
         Width parameter κ > 0 of (1 + x²/κ).
     power : float
         Exponent p > 1/2 of the profile.
+    need_y : bool
+        False: only F and dF/dζ are computed (Y and dY/dζ are returned as NaN).
 
     Returns
     -------
@@ -216,6 +266,17 @@ def kappa_transforms(
     if not good.any():
         return tuple(o.reshape(shape) for o in out)  # type: ignore[return-value]
     grid_a, grid_b, log_a = _grids(float(kappa), float(power))
+    if flat.size == 1 and good[0]:
+        z0 = complex(flat[0])
+        u0 = cmath.asinh(z0 / math.sqrt(kappa))
+        frac = abs(u0.real) / grid_a.h
+        near = abs(frac - round(frac)) < 0.25 and abs(u0.imag) < grid_a.h
+        try:
+            vals = _one_point(z0, grid_b if near else grid_a, float(kappa), float(power),
+                              log_a, need_y)
+            return tuple(np.array([v]).reshape(shape) for v in vals)  # type: ignore[return-value]
+        except (ZeroDivisionError, OverflowError, ValueError):
+            pass  # at a branch point or overflow: the array path gives inf/nan
     with np.errstate(all="ignore"):
         zg = flat[good]
         u0 = np.arcsinh(zg / math.sqrt(kappa))
@@ -224,7 +285,7 @@ def kappa_transforms(
         idx = np.nonzero(good)[0]
         for grid, mask in ((grid_a, ~near), (grid_b, near)):
             if mask.any():
-                vals = _on_grid(zg[mask], grid, float(kappa), float(power), log_a)
+                vals = _on_grid(zg[mask], grid, float(kappa), float(power), log_a, need_y)
                 for o, v in zip(out, vals, strict=True):
                     o[idx[mask]] = v
     return tuple(o.reshape(shape) for o in out)  # type: ignore[return-value]

@@ -61,7 +61,8 @@ def _terms_needed(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     finite = np.abs(z[np.isfinite(z)])
     if finite.size == 0:
         return _A[:4], _N[:4]
-    u_max = 1.0 / float(finite.min()) ** 2
+    smallest = float(finite.min())
+    u_max = (1.0 / smallest) / smallest  # underflows to 0 (float ** 2 would raise OverflowError)
     terms = _A * u_max ** _N
     below = np.nonzero(terms[2:] < 1e-18)[0]
     count = _N_TERMS if below.size == 0 else int(below[0]) + 3

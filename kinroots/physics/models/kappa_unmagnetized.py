@@ -107,7 +107,7 @@ def susceptibility(
         theta2 = kperp * kperp * tperp2 + kpar * kpar * tpar2
         theta = np.sqrt(theta2)
         zeta = (om - kpar * species.drift) / theta
-        _, _, f, df = kappa_transforms(zeta, kappa, kappa + 1.0)
+        _, _, f, df = kappa_transforms(zeta, kappa, kappa + 1.0, need_y=False)
         coef = wp2 * (2.0 * kappa - 1.0) / kappa / theta2
         value = coef * f
         derivative = coef * df / theta
@@ -127,7 +127,7 @@ def kappa_moments(zeta: np.ndarray, kappa: float) -> Moments:
     with the bi-Maxwellian builder.)
     """
     y, dy, f, df = kappa_transforms(zeta, kappa, kappa)
-    _, _, fp, dfp = kappa_transforms(zeta, kappa, kappa + 1.0)
+    _, _, fp, dfp = kappa_transforms(zeta, kappa, kappa + 1.0, need_y=False)
     c = np.full(np.shape(zeta), (2.0 * kappa - 1.0) / kappa)
     return {"y": y, "dy": dy, "f": f, "df": df, "fp": fp, "dfp": dfp, "c": c}
 
