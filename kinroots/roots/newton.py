@@ -44,9 +44,13 @@ class _Iterate:
 
 
 def _newton_steps(
-    func: CountedFunction, z0: complex, multiplicity: int, detect_multiplicity: bool
+    func: CountedFunction, z0: complex, multiplicity: int, detect_multiplicity: bool,
+    region: Box | None = None,
 ) -> Iterator[_Iterate]:
     """Yield the iterates of damped (modified) Newton; never decides to stop by itself.
+
+    A trial point outside ``region`` is not evaluated: the step is halved as if it had
+    failed, and the iteration ends with ``LEFT_REGION`` when no halving brings it back.
 
     With ``detect_multiplicity``, two consecutive step-length ratios close to the
     same value r in (0.3, 0.95) — linear convergence, as plain Newton shows at a zero of
@@ -85,14 +89,24 @@ def _newton_steps(
         # damped step: halve while |f|^(1/m) would grow
         target = abs(fz) ** (1.0 / m)
         lam = 1.0
+        f_new = df_new = complex("nan")
+        evaluated = False
         for _ in range(_MAX_HALVINGS + 1):
             z_new = z - lam * corr
+            if not _inside(z_new, region):
+                lam *= 0.5
+                continue
             f_new, df_new = func.one(z_new)
+            evaluated = True
             good = np.isfinite(f_new) and np.isfinite(df_new)
             if good and abs(f_new) ** (1.0 / m) <= target * (1 + 1e-12):
                 break
             lam *= 0.5
         else:
+            if not evaluated:
+                yield _Iterate(z, fz, dfz, corr, m, Status.LEFT_REGION,
+                               f"the Newton step from {z!r} leaves the region {region}")
+                return
             if not (np.isfinite(f_new) and np.isfinite(df_new)):
                 yield _Iterate(z, fz, dfz, corr, m, Status.NONFINITE,
                                "f is not finite along the Newton direction")
@@ -176,7 +190,7 @@ def polish(
     tol_iter = 0
     last: _Iterate | None = None
     status, reason = Status.MAX_ITER, f"no convergence in {maxiter} Newton steps"
-    for it in _newton_steps(func, complex(z0), multiplicity, detect_multiplicity):
+    for it in _newton_steps(func, complex(z0), multiplicity, detect_multiplicity, region):
         last = it
         tol = atol + rtol * abs(it.z)
         # a zero of multiplicity m is fixed by double-precision values of f only to about
@@ -232,6 +246,46 @@ def polish(
             result = replace(again, evaluations=result.evaluations + again.evaluations,
                              iterations=result.iterations + again.iterations)
     return replace(result, verified=count is not None and count == result.multiplicity)
+
+
+def newton_starts(
+    f: AnalyticFunction,
+    z0: np.ndarray,
+    /,
+    *,
+    rtol: float,
+    atol: float,
+    region: Box | None = None,
+    maxiter: int = 12,
+) -> np.ndarray:
+    """Improve many starting points at once by plain Newton, one f call per iteration.
+
+    Only starting points: every returned value still goes through :func:`polish`, which
+    decides convergence, so this changes the cost of a survey, not its answers.  An
+    element stops moving when its correction is within ``atol + rtol·|z|``, when f or f'
+    is not finite, or when the step would leave ``region`` (it keeps its last value).
+    """
+    z = np.array(z0, dtype=complex).ravel()
+    active = np.isfinite(z)
+    if region is not None:
+        active &= np.array([_inside(complex(v), region) for v in z], dtype=bool)
+    for _ in range(maxiter):
+        if not np.any(active):
+            break
+        idx = np.flatnonzero(active)
+        fv, dv = f(z[idx])
+        with np.errstate(all="ignore"):
+            corr = fv / dv
+        good = np.isfinite(corr)
+        z_new = z[idx] - np.where(good, corr, 0)
+        if region is not None:
+            x0, x1, y0, y1 = region
+            good &= (z_new.real >= x0) & (z_new.real <= x1) & (z_new.imag >= y0) & (
+                z_new.imag <= y1)
+        z[idx[good]] = z_new[good]
+        done = ~good | (np.abs(corr) <= 0.1 * (atol + rtol * np.abs(z[idx])))
+        active[idx[done]] = False
+    return z
 
 
 def _verify_counted(f: AnalyticFunction, root: complex, radius: float) -> tuple[int | None, int]:

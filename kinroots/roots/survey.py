@@ -16,9 +16,11 @@ Method
    off-centre positions) until it holds one zero, or at most ``cluster_size`` zeros.
 4. One zero: the first contour moment gives the starting point; Newton polishes it.
    A cluster: Delves–Lyness moments and the Hankel eigenvalue problem of Kravanja & Van
-   Barel give the starting points, re-computed on a circle around the cluster when the
-   rectangle's moments are too crude; Newton polishes each; a small circle around each
-   root gives its multiplicity.  If the cell's count is not accounted for, it is split.
+   Barel give the starting points, improved together by plain Newton on arrays (one f
+   call per iteration); damped Newton polishes each.  n distinct zeros in a cell that
+   winds n times are simple; otherwise a small circle around each root gives its
+   multiplicity.  A cell whose count is not accounted for is split: no evaluation
+   ever falls outside the cells of the window (issue 14).
 
 References
 ----------
@@ -44,7 +46,7 @@ from kinroots.roots.contour import (
     hankel_zeros,
     rectangle_edges,
 )
-from kinroots.roots.newton import polish
+from kinroots.roots.newton import newton_starts, polish
 from kinroots.roots.result import (
     AnalyticFunction,
     Box,
@@ -62,6 +64,13 @@ _N_INIT_LINE = 6  # initial intervals per subdivision line
 #: windows are often symmetric about a line that holds roots (purely growing modes on
 #: Re ω = 0, real roots on Im z = 0), and a cut through a zero cannot be resolved.
 _SPLIT_FRACTIONS = (0.4871, 0.5377, 0.4213, 0.5829, 0.3419, 0.6637, 0.2731, 0.7269)
+#: The survey as it was before issue 14 (a cluster circle growing up to twice its cell,
+#: one circle per cluster root, one-point Newton): ``benchmarks/bench_survey.py`` sets
+#: it to measure its baseline in the same run.  Never set otherwise.
+_BASELINE = False
+#: Most points on a cluster's circle; a circle that needs more makes the cell split.
+_CIRCLE_POINTS = 64
+_CIRCLE_TRIES = 3
 
 
 def _inside(z: complex, box: Box, margin: float = 0.0) -> bool:
@@ -264,9 +273,17 @@ class _Survey:
                 s = s - c * ((e - center) / rho) ** p
         return s
 
-    def _polish(self, z0: complex, box: Box, multiplicity: int = 1) -> RootResult:
+    def _region(self, box: Box) -> Box:
+        """Where Newton may wander from a cell: the cell and a quarter of it around,
+        but not beyond the window (plus the margin of the stopping test)."""
         w, h = box[1] - box[0], box[3] - box[2]
-        region = (box[0] - 0.25 * w, box[1] + 0.25 * w, box[2] - 0.25 * h, box[3] + 0.25 * h)
+        m = 1e-6 * self.diam0
+        x0, x1, y0, y1 = self.box
+        return (max(box[0] - 0.25 * w, x0 - m), min(box[1] + 0.25 * w, x1 + m),
+                max(box[2] - 0.25 * h, y0 - m), min(box[3] + 0.25 * h, y1 + m))
+
+    def _polish(self, z0: complex, box: Box, multiplicity: int = 1) -> RootResult:
+        region = self._region(box)
         return polish(self.func, z0, rtol=self.rtol, atol=self.atol, maxiter=40,
                       multiplicity=multiplicity, region=region, method="survey")
 
@@ -292,7 +309,13 @@ class _Survey:
 
     def _from_estimates(self, estimates: np.ndarray, box: Box, n: int) -> list[RootResult] | None:
         found: list[RootResult] = []
-        for z0 in estimates:
+        region = self._region(box)
+        starts = estimates if _BASELINE else newton_starts(
+            self.func, np.asarray(estimates, complex), rtol=self.rtol, atol=self.atol,
+            region=region)
+        for z0 in starts:
+            if not _inside(complex(z0), region):
+                continue
             r = self._polish(complex(z0), box)
             if not self._acceptable(r, box):
                 continue
@@ -302,6 +325,11 @@ class _Survey:
             found.append(r)
         if not found:
             return None
+        if len(found) == n and not _BASELINE:
+            # n distinct converged zeros inside a cell whose boundary winds n times: each
+            # is simple, and the cell's winding verifies them all (no circles needed)
+            return [replace(r, multiplicity=1, verified=True, method="moments+newton")
+                    for r in found]
         out = []
         diam = _diameter(box)
         for r in found:
@@ -332,12 +360,45 @@ class _Survey:
         got = self._from_estimates(est, box, n)
         if got is not None:
             return got
-        # second try: moments on a circle around the cluster's centroid, whose radius
-        # is adjusted until the circle winds exactly n times (well conditioned even for
-        # a tight cluster; roots must still come out inside the cell to be accepted)
+        if _BASELINE:
+            mid = center + rho * s[1] / n
+            return None if not np.isfinite(mid) else self._cluster_circle_legacy(
+                box, n, mid, est, rho)
+        # The rectangle's moments were too crude: moments on a circle around the
+        # cluster's centroid, whose radius is adjusted until it winds exactly n times.
+        # The circle stays inside the cell (evaluations outside it resolve nothing of
+        # this cell); when it cannot, or does not resolve the cluster, the cell splits.
         mid = center + rho * s[1] / n
-        if not np.isfinite(mid):
+        if not (np.isfinite(mid) and _inside(mid, box)):
             return None
+        room = min(mid.real - box[0], box[1] - mid.real, mid.imag - box[2], box[3] - mid.imag)
+        near = [abs(z - mid) for z in est if _inside(complex(z), box)]
+        radius = min(max(2.0 * max(near, default=0.0), 1e-3 * rho), room)
+        for _ in range(_CIRCLE_TRIES):
+            if not 1e-9 * rho < radius <= room:
+                return None
+            c = circle_contour(self.func, mid, radius, n0=16, n_max=_CIRCLE_POINTS)
+            expected = n + sum((self._ex_contribution(i) or 0)
+                               for i, e in enumerate(self.excluded)
+                               if abs(complex(e) - mid) < radius)
+            if c.winding is None or c.winding < expected:
+                radius = min(4.0 * radius, room) if radius < room else 2 * room
+            elif c.winding > expected:
+                radius /= 4.0
+            else:
+                sc = self._remove_excluded(c.moments(2 * n), box, mid, radius,
+                                           circle=(mid, radius))
+                est2 = mid + radius * hankel_zeros(sc, n)
+                got = self._from_estimates(est2, box, n)
+                if got is not None:
+                    return got
+                near = [abs(z - mid) for z in est2 if abs(z - mid) < radius]
+                radius = min(2.0 * max(near, default=0.0), 0.25 * radius)
+        return None
+
+    def _cluster_circle_legacy(self, box: Box, n: int, mid: complex, est: np.ndarray,
+                               rho: float) -> list[RootResult] | None:
+        """The fallback before issue 14 (kept for the benchmark's baseline only)."""
         near = [abs(z - mid) for z in est if _inside(complex(z), box)]
         radius = min(max(2.0 * max(near, default=0.0), 1e-3 * rho), rho)
         for _ in range(8):
@@ -358,7 +419,6 @@ class _Survey:
                 got = self._from_estimates(est2, box, n)
                 if got is not None:
                     return got
-                # too coarse for the cluster: shrink around the estimates
                 near = [abs(z - mid) for z in est2 if abs(z - mid) < radius]
                 radius = min(2.0 * max(near, default=0.0), 0.25 * radius)
                 if radius < 1e-9 * rho:
