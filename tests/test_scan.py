@@ -175,9 +175,12 @@ def test_root_entering_window_later_is_found_and_backfilled():
     (b,) = sol.branches
     assert b.found_at > 0.3
     ks = sorted(b.points)
-    assert ks[0] < b.found_at  # traced backwards from the survey that found it
+    assert ks[0] == b.found_at  # counted at every k: found at the first k inside
     assert b.points[ks[0]].value.real >= 1.3
     assert b.points[ks[0]].value.real < 1.33  # it entered the window there
+    # every k counted: no rows (and count 0) before it entered, one row after
+    assert all(c.verified for c in sol.point_checks)
+    assert [c.rows for c in sol.point_checks] == [int(k >= b.found_at) for k in case.k_values]
 
 
 def test_spatial_damping_of_ion_acoustic_wave_matches_group_velocity():

@@ -183,8 +183,8 @@ class SolverOptions:
     harmonic_tolerance : float
         Relative size below which cyclotron-harmonic terms are dropped.
     resurvey_every : int
-        Re-survey the search window every this many scan points while tracing
-        (0: never).
+        Scan points per batch of boundary zero counts while tracing (0: 10); the window
+        is counted at every point (see :mod:`kinroots.study.solve`).
     """
 
     tolerance: float = 1e-10

@@ -79,13 +79,23 @@ def format_cell(value: Any) -> str:
     return str(value)
 
 
+def _umask() -> int:
+    """The process umask (read by setting and restoring it: there is no getter)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 def atomic_write_bytes(path: Path, data: bytes) -> None:
     """Write ``data`` to ``path`` atomically (temporary file in the same folder, flushed
-    to disk, then ``os.replace``), so a reader never sees a half-written file."""
+    to disk, then ``os.replace``), so a reader never sees a half-written file.  The file
+    gets the permissions of a normally created one (0666 less the umask)."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     try:
+        # mkstemp creates the file 0600; give it the mode a plain open() would (the umask)
+        os.fchmod(fd, 0o666 & ~_umask())
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

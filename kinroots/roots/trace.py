@@ -17,8 +17,11 @@ branch,
 After a step in which every branch converged in at most two Newton corrections, h is
 doubled.  Once h would fall below ``min_step`` the offending branch ends: FAILED (no
 convergence or a jump), or MERGED with the branch it collided with.  A branch whose
-corrected root lies outside the box ends with LEFT_REGION; the parameter where it leaves
-is located by bisection on that branch alone, to ``min_step``.  Failures are recorded in
+corrected root lies outside the box ends with LEFT_REGION — but only if it lies within a
+tenth of the predicted move from its prediction (or the prediction is outside as well):
+Newton thrown out of the box from a prediction inside is a jump, and the step is halved.
+The parameter where it leaves is located by bisection on that branch alone, to
+``min_step``.  Failures are recorded in
 the branches, never raised.
 
 Speculative blocks.  Given ``pairs`` — the family evaluated at arrays of (parameter, z)
@@ -60,6 +63,9 @@ BLOCK_NEWTON = 2
 _BLOCK_CONTRACTION = 0.1
 #: ... unless it is within this many tolerances (the rounding floor of f).
 _NOISE_ZONE = 100.0
+#: A corrected root outside the box counts as having left it only when it lies within this
+#: fraction of the predicted move from its prediction (or the prediction is outside too).
+_EXIT_PREDICTION = 0.1
 
 
 class BranchEnd(enum.Enum):
@@ -478,7 +484,14 @@ class Tracer:
             if abs(z - t.prediction) > allowed:
                 t.problem = "stray"
             elif not _inside(z, self.box):
-                t.problem = "left"
+                # a root that leaves moves smoothly: its prediction is good to a small part
+                # of the step.  Newton thrown outside from a prediction inside is a jump
+                # (step halved), not an exit.
+                moved = abs(t.prediction - b.path[-1][1])
+                tol = 100 * (self.atol + self.rtol * abs(z))
+                genuine = (not _inside(t.prediction, self.box)
+                           or abs(z - t.prediction) <= _EXIT_PREDICTION * moved + tol)
+                t.problem = "left" if genuine else "stray"
         return trials
 
     def _finish(self, b: Branch, t: _Trial, p_new: float, trials: dict[int, _Trial]) -> None:
@@ -510,6 +523,8 @@ class Tracer:
             r = self._correct(self.family(p_mid), b, z_pred)
             if not r.converged:
                 break
+            if abs(r.value - z_pred) > abs(z_out - z_in):
+                break  # Newton jumped: keep the bracket found so far
             if _inside(r.value, self.box):
                 p_in, z_in = p_mid, r.value
             else:

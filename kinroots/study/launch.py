@@ -120,7 +120,7 @@ def launch(
         box = (*spec.k_real, *spec.k_imag) if spec is not None else (0.01, 2.0, -0.01, 0.5)
     freqs = np.asarray(frequencies_hz, dtype=float)
     om = [float(2.0 * math.pi * f / case.units.omega_unit) for f in freqs]
-    branches, surveys_w, _, notes = follow_branches(
+    branches, surveys_w, _, notes, _ = follow_branches(
         lambda w: SpatialFunction(case, w),
         om,
         box,

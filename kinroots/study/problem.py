@@ -5,14 +5,8 @@ Everything here works in the case's normalized units: ω̂ = ω / ω_u and k̂ =
 root layer is ``f(ω̂) = D(ω̂ ω_u)`` with ``f'(ω̂) = ω_u D'(ω̂ ω_u)``; D is the scaled,
 entire dispersion function of :class:`kinroots.physics.dispersion.Dispersion`.
 
-Re-survey rule (documented in DEVELOPERS.md and in every summary.json): the window is
-surveyed at the first scan point, then again every ``solver.resurvey_every`` scan points
-and at the last point.  A surveyed root that no traced branch accounts for (farther than
-``match_tol`` from every active branch) starts a new branch; that branch is traced
-*backwards* from the survey point to the previous survey point (or until it leaves the
-window), so a root that entered the window between surveys is tabulated from where it
-entered.  At every survey point each active branch is checked against the survey:
-branches matched to a surveyed root are marked ``verified``.
+The check rule of ``kinroots solve`` (survey at the first k, zero counts on the window's
+boundary at every k) is documented in :mod:`kinroots.study.solve` and DEVELOPERS.md.
 """
 
 from __future__ import annotations

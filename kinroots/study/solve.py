@@ -1,19 +1,24 @@
 """Trace every branch of a case across its k scan (the main job of ``kinroots solve``).
 
-Re-survey rule (documented in DEVELOPERS.md and in every summary.json): the window is
-surveyed at the first scan point, then again every ``solver.resurvey_every`` scan points
-and at the last point.  A surveyed root that no traced branch accounts for (farther than
-``match_tol`` from every active branch) starts a new branch; that branch is traced
-*backwards* from the survey point to the previous survey point (or until it leaves the
-window), so a root that entered the window between surveys is tabulated from where it
-entered.  At every survey point each active branch is checked against the survey:
-branches matched to a surveyed root are marked ``verified``.
+Check rule (documented in DEVELOPERS.md and in every summary.json): the window is surveyed
+at the first scan point.  At every later scan point the zeros in the window are *counted*
+on its boundary (:class:`kinroots.roots.boundary.BoundaryCounter`; batches of
+``solver.resurvey_every`` points, default 10, share one dispersion call) and the count is
+compared with the traced roots inside the window.  Where they agree, every row at that k
+is ``verified``.  Where they differ, the window is surveyed at that k: a surveyed root that
+no traced branch accounts for starts a new branch, traced *backwards* to the last point
+where the count agreed (so a root that entered the window is tabulated from where it
+entered) and forwards to the end of the batch.  A backward or forward trace that meets a
+root already tabulated at the same k joins that branch (continuation of a branch that
+ended) or stops there: no root appears twice at one k.  A point where the count and the
+rows still differ, or where the boundary could not be resolved, is listed as unverified
+with its reason (``point_checks``).
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -29,6 +34,7 @@ from kinroots.roots import (
     Tracer,
     match_new_roots,
 )
+from kinroots.roots.boundary import BoundaryCounter
 from kinroots.study.problem import (
     MATCH_FRACTION,
     PairFunction,
@@ -42,8 +48,6 @@ from kinroots.study.rows import metadata
 
 AnalyticFunction = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
 
-#: Relative distance (to the window diameter) under which a surveyed root is taken to be
-#: a root already being traced.
 
 @dataclass
 class TracedBranch:
@@ -66,6 +70,21 @@ class TracedBranch:
         return sorted(self.points.items())
 
 
+@dataclass(frozen=True)
+class PointCheck:
+    """The zero count of the window at one scan point against the rows there.
+
+    ``count`` is ``None`` when it could not be made (``reason`` says why); ``verified``
+    when ``count`` equals ``rows`` (converged roots in the window, with multiplicity).
+    """
+
+    param: float
+    count: int | None
+    rows: int
+    verified: bool
+    reason: str = ""
+
+
 @dataclass
 class Solution:
     """Result of :func:`solve`."""
@@ -75,6 +94,7 @@ class Solution:
     surveys: list[tuple[float, SurveyResult]]
     evaluations: int
     notes: list[str]
+    point_checks: list[PointCheck] = field(default_factory=list)
 
     @property
     def failed_points(self) -> int:
@@ -103,6 +123,10 @@ def _end_text(b: Branch) -> str:
     return "end of scan"
 
 
+def _inside(z: complex, box: tuple[float, float, float, float]) -> bool:
+    return box[0] <= z.real <= box[1] and box[2] <= z.imag <= box[3]
+
+
 def follow_branches(
     family: Callable[[float], AnalyticFunction],
     params: list[float],
@@ -114,11 +138,14 @@ def follow_branches(
     label: Callable[[float], str],
     progress: Callable[[int, int], None] | None = None,
     pairs: PairFunction | None = None,
-) -> tuple[list[TracedBranch], list[tuple[float, SurveyResult]], int, list[str]]:
+    excluded: Sequence[complex] = (),
+    count: bool = True,
+) -> tuple[list[TracedBranch], list[tuple[float, SurveyResult]], int, list[str],
+           list[PointCheck]]:
     """Survey at the first parameter value, trace every root across ``params``.
 
     The driver shared by :func:`solve` (ω across k) and :func:`kinroots.study.launch.launch`
-    (complex k across ω); the re-survey rule is the module docstring's.
+    (complex k across ω); the check rule is the module docstring's.
 
     Parameters
     ----------
@@ -127,30 +154,36 @@ def follow_branches(
     params : list of float
         Increasing parameter values at which the table is wanted.
     box : (re_min, re_max, im_min, im_max)
-        Where roots are surveyed and traced.
+        Where roots are surveyed, counted and traced.
     survey_at : callable
         ``survey_at(p)`` surveys ``box`` at ``p``.
     rtol : float
         Root tolerance of the tracer.
     resurvey_every : int
-        Re-survey every this many points (0: only first and last).
+        Points per batch of boundary counts (0: 10).
     label : callable
         ``label(p)`` names a parameter value in notes (e.g. ``"k = 0.3"``).
     progress : callable, optional
         ``progress(done, total)`` after each parameter value.
     pairs : callable, optional
         ``pairs(p, z)``: ``family`` at arrays of (parameter, z) pairs; lets the tracer
-        take several parameter values at once (:class:`kinroots.roots.Tracer`).
+        take several parameter values at once and the counter count a batch in one call.
+    excluded : sequence of complex
+        Points excluded from counts (as for the survey), independent of the parameter.
+    count : bool
+        Count at every point (the default).  ``False`` traces from the first survey
+        only, with nothing verified after it (for benchmarks: the cost of tracing alone).
 
     Returns
     -------
-    branches, surveys, evaluations, notes
+    branches, surveys, evaluations, notes, point_checks
         Failed points are recorded in the branches, never raised.
     """
     diameter = math.hypot(box[1] - box[0], box[3] - box[2])
     match_tol = MATCH_FRACTION * diameter
     notes: list[str] = []
     evaluations = 0
+    batch = resurvey_every if resurvey_every > 0 else 10
 
     def family_back(q: float) -> AnalyticFunction:
         return family(-q)
@@ -161,10 +194,11 @@ def follow_branches(
             return pairs(-np.asarray(q), z)
 
     tracer = Tracer(family, box=box, param=params[0], rtol=rtol, order=4, pairs=pairs)
+    counter = BoundaryCounter(box, excluded=excluded)
     out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
     results: list[TracedBranch] = []
     surveys: list[tuple[float, SurveyResult]] = []
-    last_survey_index = 0
+    counts: dict[float, tuple[int | None, str]] = {}
 
     def do_survey(i: int) -> SurveyResult:
         nonlocal evaluations
@@ -178,58 +212,117 @@ def follow_branches(
             )
         return s
 
-    def start_branch(root: RootResult, i: int) -> TracedBranch:
-        tb_ = tracer.add_branch(root, param=params[i])
+    def rows_at(p: float) -> int:
+        return sum(b.points[p].multiplicity for b in results
+                   if p in b.points and b.points[p].converged and _inside(b.points[p].value, box))
+
+    def meets(tb: TracedBranch, p: float, z: complex) -> TracedBranch | None:
+        """Another branch with a root within merge distance of z at p."""
+        tol = max(match_tol, 100 * rtol * abs(z))
+        for o in results:
+            if o is not tb and p in o.points and o.points[p].converged \
+                    and abs(o.points[p].value - z) <= tol:
+                return o
+        return None
+
+    def new_branch(root: RootResult, i: int) -> TracedBranch:
         tb = TracedBranch(id=len(results), found_at=params[i])
         results.append(tb)
-        out[tb_.id] = tb
         tb.points[params[i]] = root
-        tb.verified_at.add(params[i])
         return tb
 
-    def backfill(tb: TracedBranch, root: RootResult, i: int, i_stop: int) -> None:
-        """Trace a newly found branch backwards from point i to i_stop."""
+    def join(tb: TracedBranch, old: TracedBranch, p: float) -> TracedBranch:
+        """``tb`` met ``old`` at p going backwards: one branch if old ended there."""
+        if max(old.points) <= p:
+            for q, r in tb.points.items():
+                if q > p:
+                    old.points[q] = r
+            old.verified_at |= {q for q in tb.verified_at if q > p}
+            old.note = (old.note + "; " if old.note else "") + (
+                f"re-found by a survey at {label(tb.found_at)} after it had ended")
+            old.end_reason, old.end_k = "end of scan", None
+            results.remove(tb)
+            for tid, v in list(out.items()):
+                if v is tb:
+                    out[tid] = old
+            return old
+        tb.note = f"met branch {old.id} at {label(p)} going backwards; traced from there on"
+        return tb
+
+    def backfill(tb: TracedBranch, root: RootResult, i: int, i_stop: int) -> TracedBranch:
+        """Trace a new branch backwards from point i to i_stop (or until it meets one)."""
         nonlocal evaluations
         if i <= i_stop:
-            return
+            return tb
         back = Tracer(family_back, box=box, param=-params[i], rtol=rtol, order=4,
                       pairs=pairs_back)
         bb = back.add_branch(root, param=-params[i])
         back.advance_through([-params[j] for j in range(i - 1, i_stop - 1, -1)])
         evaluations += back.evaluations
         for q, r in bb.points[1:]:
+            other = meets(tb, -q, r.value) if r.converged else None
+            if other is not None:
+                return join(tb, other, -q)
             tb.points[-q] = r
         if not bb.active and bb.end_reason is not BranchEnd.LEFT_REGION:
             tb.note = f"backward trace from {label(params[i])} ended: {bb.note}"
+        return tb
 
-    def reconcile(s: SurveyResult, i: int) -> None:
-        """Mark traced roots confirmed by survey ``s``; start branches for new roots."""
-        active = [(tid, b) for tid, b in enumerate(tracer.branches) if b.active]
-        current = [b.points[-1][1].value for _, b in active]
-        for tid, b in active:
-            z = b.points[-1][1].value
-            if any(abs(z - r) <= match_tol for r in s.values):
-                out[tid].verified_at.add(params[i])
+    def forward(tb: TracedBranch, root: RootResult, i: int, j: int) -> None:
+        """Trace a new branch from point i to j (the tracer's position) and hand it over."""
+        nonlocal evaluations
+        if i == j:
+            tid = tracer.add_branch(root, param=params[j]).id
+            out[tid] = tb
+            return
+        fw = Tracer(family, box=box, param=params[i], rtol=rtol, order=4, pairs=pairs)
+        fb = fw.add_branch(root, param=params[i])
+        fw.advance_through(params[i + 1:j + 1])
+        evaluations += fw.evaluations
+        for q, r in fb.points[1:]:
+            other = meets(tb, q, r.value) if r.converged else None
+            if other is not None:
+                tb.end_reason, tb.end_k = f"merged with branch {other.id}", q
+                return
+            tb.points[q] = r
+        if fb.active:
+            nb = tracer.add_branch(fb.points[-1][1], param=params[j])
+            nb.path = list(fb.path)  # the predictor keeps its history
+            out[nb.id] = tb
+        else:
+            tb.end_reason, tb.end_k, tb.note = _end_text(fb), fb.end_param, fb.note
+
+    def reconcile(i: int, j: int, last_ok: int) -> None:
+        """Survey at point i (count and rows differ) and start branches for new roots."""
+        s = do_survey(i)
+        current = [b.points[params[i]].value for b in results
+                   if params[i] in b.points and b.points[params[i]].converged]
         for root in match_new_roots(current, [r for r in s.roots if r.converged], match_tol):
-            tb = start_branch(root, i)
-            backfill(tb, root, i, last_survey_index)
+            assert isinstance(root, RootResult)
+            tb = backfill(new_branch(root, i), root, i, last_ok + 1)
+            tb.points[params[i]] = root
+            forward(tb, root, i, j)
+        for r in s.roots:
+            if not r.converged:
+                notes.append(f"unsolved root near {r.value!r} at {label(params[i])}: "
+                             f"{r.reason}")
 
     s0 = do_survey(0)
     for root in s0.roots:
         if root.converged:
-            start_branch(root, 0)
+            out[tracer.add_branch(root, param=params[0]).id] = new_branch(root, 0)
         else:
             notes.append(f"unsolved root near {root.value!r} at {label(params[0])}: "
                          f"{root.reason}")
+    counts[params[0]] = (s0.count, "" if s0.complete else "first survey incomplete")
     if progress:
         progress(1, len(params))
 
+    last_ok = 0  # the last point where the count and the rows agreed
+    surveyed_deficit: int | None = None  # count − rows where the last survey left it
     i = 1
     while i < len(params):
-        # the next survey point: every resurvey_every-th point and the last one
-        j = len(params) - 1
-        if resurvey_every > 0:
-            j = min(j, (i + resurvey_every - 1) // resurvey_every * resurvey_every)
+        j = min(len(params) - 1, i + batch - 1)
         first = i
 
         def done(n: int, first: int = first) -> None:
@@ -243,18 +336,42 @@ def follow_branches(
                 if q < params[i]:
                     break
                 tb.points[q] = r
-        s = do_survey(j)
-        reconcile(s, j)
-        last_survey_index = j
+        if count:
+            known = [[r.value for b in results if (r := b.points.get(q)) is not None
+                      and r.converged for _ in range(r.multiplicity)]
+                     for q in params[i:j + 1]]
+            got = counter.count(params[i:j + 1], pairs=pairs, family=family, known=known)
+            for c in got:
+                counts[c.param] = (c.count, c.note)
+            for m in range(i, j + 1):
+                n, _ = counts[params[m]]
+                rows = rows_at(params[m])
+                if n is None:
+                    continue
+                if n == rows:
+                    last_ok, surveyed_deficit = m, None
+                    continue
+                if surveyed_deficit != n - rows:
+                    # the count changed against the rows: find out why, here
+                    reconcile(m, j, last_ok)
+                    rows = rows_at(params[m])
+                    surveyed_deficit = n - rows
+                    if n == rows:
+                        last_ok, surveyed_deficit = m, None
+        i = j + 1
         if progress:
             progress(j + 1, len(params))
-        i = j + 1
+    evaluations += counter.evaluations
 
+    for n_, tb in enumerate(results):
+        tb.id = n_
     for tid, b in enumerate(tracer.branches):
         tb = out[tid]
         evaluations += b.evaluations
-        if not b.active:
+        if not b.active and tb.end_reason == "end of scan":
             tb.end_reason = _end_text(b)
+            if b.merged_with is not None:
+                tb.end_reason = f"merged with branch {out[b.merged_with].id}"
             tb.end_k = b.end_param
             tb.note = b.note or tb.note
             if b.end_reason is BranchEnd.FAILED:
@@ -264,10 +381,23 @@ def follow_branches(
                 if nxt:
                     prev = tb.points[last].value if tb.points else complex("nan")
                     tb.points[nxt[0]] = failed_root(prev, b.note or "tracing failed")
-    return results, surveys, evaluations, notes
+    checks: list[PointCheck] = []
+    for p in params:
+        n, why = counts.get(p, (None, "not counted (counts off)"))
+        rows = rows_at(p)
+        ok = n is not None and n == rows
+        if n is not None and not ok:
+            why = f"the window holds {n} zero(s), the table {rows}"
+        checks.append(PointCheck(p, n, rows, ok, "" if ok else why))
+        if ok:
+            for tb in results:
+                if p in tb.points and tb.points[p].converged:
+                    tb.verified_at.add(p)
+    return results, surveys, evaluations, notes, checks
 
 
-def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> Solution:
+def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
+          count: bool = True) -> Solution:
     """Survey the window at the first k, trace every branch across the scan.
 
     Parameters
@@ -276,27 +406,33 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None) -> 
         Validated case.
     progress : callable, optional
         ``progress(done, total)`` after each scan point.
+    count : bool
+        Count the window's zeros at every k (module docstring); ``False`` only for
+        benchmarks (tracing alone, nothing verified after the first k).
 
     Returns
     -------
     Solution
         Branches (with failed points recorded, never raised), the surveys made, total
-        dispersion evaluations and notes.
+        dispersion evaluations, notes and the count check at every k.
     """
-    branches, surveys, evaluations, notes = follow_branches(
+    ks = [float(k) for k in case.k_values]
+    box = window(case)
+    branches, surveys, evaluations, notes, checks = follow_branches(
         lambda k: function_at(case, k),
-        [float(k) for k in case.k_values],
-        window(case),
+        ks,
+        box,
         lambda k: survey(case, k),
         rtol=case.solver.tolerance,
         resurvey_every=case.solver.resurvey_every,
         label=lambda k: f"k = {k!r}",
         progress=progress,
         pairs=pair_function(case),
+        excluded=function_at(case, ks[0]).excluded(box),
+        count=count,
     )
     return Solution(case=case, branches=branches, surveys=surveys, evaluations=evaluations,
-                    notes=notes)
-
+                    notes=notes, point_checks=checks)
 
 
 def solution_summary(sol: Solution, rows: list[dict[str, Any]]) -> dict[str, Any]:
@@ -307,8 +443,10 @@ def solution_summary(sol: Solution, rows: list[dict[str, Any]]) -> dict[str, Any
         "model": case.model,
         "dispersion_scaling": d0.scaling,
         "resurvey_rule": (
-            "window surveyed at the first k, every resurvey_every points and at the last k; "
-            "new roots start branches traced backwards to the previous survey"
+            "window surveyed at the first k; at every k its zeros are counted on its "
+            "boundary and compared with the rows; where they differ the window is "
+            "surveyed there and new roots start branches traced backwards to the last "
+            "agreeing k; rows are verified where count and rows agree"
         ),
         "branches": [
             {
@@ -328,6 +466,12 @@ def solution_summary(sol: Solution, rows: list[dict[str, Any]]) -> dict[str, Any
              "evaluations": s.evaluations, "notes": list(s.notes)}
             for k, s in sol.surveys
         ],
+        "point_checks": [
+            {"k": c.param, "count": c.count, "rows": c.rows, "verified": c.verified,
+             "reason": c.reason}
+            for c in sol.point_checks
+        ],
+        "unverified_points": sum(1 for c in sol.point_checks if not c.verified),
         "evaluations": sol.evaluations,
         "failed_points": sol.failed_points,
         "notes": sol.notes,

@@ -1,0 +1,89 @@
+"""Cost of checking every k: ``kinroots solve`` with its boundary counts at every scan point
+against tracing alone (one survey at the first k, nothing checked after it), in one run.
+
+Case: three species (electrons, bi-Maxwellian protons, alphas), electromagnetic,
+magnetized, 45° to B, 1,000 k points (our own invented parameters, solar-wind-like).
+
+Printed: wall time of both (min over ``REPEAT`` runs) and their ratio, dispersion
+evaluations per k of both (deterministic), how they split (surveys, boundary counts,
+tracing), the points verified by a count, and the roots lost: traced points of the
+tracing-alone run that are missing from the default run's table (must be 0).
+
+Run: ``.venv/bin/python benchmarks/bench_resurvey.py`` (on a quiet machine: with other
+work on the two cores wall-time ratios move by factors of 2–3; evaluation counts do not).
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+
+from kinroots.io.case import parse_case
+from kinroots.study.solve import solve
+
+REPEAT = 2
+
+
+def case(points: int = 1000):
+    return parse_case({
+        "title": "bench: EM magnetized three species, oblique",
+        "magnetic_field": {"B": 1e-8},
+        "species": [
+            {"name": "e", "charge": -1, "mass": "electron", "density": 5.5e6, "temperature": 10.0},
+            {"name": "p", "charge": 1, "mass": "proton", "density": 5.0e6,
+             "temperature_par": 10.0, "temperature_perp": 25.0},
+            {"name": "a", "charge": 2, "mass": 4.0026, "density": 2.5e5, "temperature": 40.0},
+        ],
+        "wave": {"model": "electromagnetic", "angle": 45.0},
+        "scan": {"k": {"start": 0.2, "stop": 0.8, "points": points}},
+        "units": {"frequency": "cyclotron:p", "length": "inertial:p"},
+        "search": {"real": [0.05, 2.0], "imag": [-0.1, 0.3]},
+    }, "<bench-resurvey>")
+
+
+def timed(c, count):
+    best, sol = float("inf"), None
+    for _ in range(REPEAT):
+        t0 = time.perf_counter()
+        sol = solve(c, count=count)
+        best = min(best, time.perf_counter() - t0)
+    return best, sol
+
+
+def table(sol):
+    return {(k, r.value) for b in sol.branches for k, r in b.points.items() if r.converged}
+
+
+def lost(off, on, tol):
+    have = {}
+    for k, z in table(on):
+        have.setdefault(k, []).append(z)
+    return sum(1 for k, z in table(off)
+               if not any(abs(z - w) <= tol * max(abs(z), 1.0) for w in have.get(k, [])))
+
+
+def main() -> int:
+    points = int(sys.argv[1]) if len(sys.argv) > 1 else 1000
+    c = case(points)
+    t_off, off = timed(c, False)
+    t_on, on = timed(c, True)
+    n = len(c.k_values)
+    surveys = sum(s.evaluations for _, s in on.surveys)
+    print(f"{c.title}: {n} k points, {len(on.branches)} branches, "
+          f"{sum(len(b.points) for b in on.branches)} rows")
+    print(f"  wall time  default {t_on:.2f} s  tracing alone {t_off:.2f} s  "
+          f"ratio {t_on / t_off:.2f}  (floor 2, goal 1.3)")
+    print(f"  evaluations per k  default {on.evaluations / n:.1f}  tracing alone "
+          f"{off.evaluations / n:.1f}  (floor 8, goal 4)")
+    print(f"    default: surveys {surveys} ({len(on.surveys)} surveys), counts and tracing "
+          f"{on.evaluations - surveys}")
+    ver = sum(1 for ch in on.point_checks if ch.verified)
+    print(f"  points verified by a count  default {ver}/{n}  tracing alone "
+          f"{sum(1 for ch in off.point_checks if ch.verified)}/{n}")
+    n_lost = lost(off, on, 1e-8)
+    print(f"  roots lost (traced alone, missing with checks): {n_lost}")
+    return 1 if n_lost else 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,288 @@
+"""Zero counts on the boundary of one rectangle for many members of a family f_p.
+
+Between two parameter values a zero can enter or leave a fixed rectangle only through its
+edges, and the number of zeros inside is the winding number of f_p along the edges
+(argument principle).  :class:`BoundaryCounter` counts it at many p with samples on the
+boundary only:
+
+* the samples form one closed counter-clockwise loop (the four corners always included,
+  so the midpoint of two neighbours lies on the boundary);
+* every p starts from the loop that resolved the previous p, evaluated for a whole batch
+  of p in one call of ``pairs(p, z)`` when the family offers it;
+* a segment is refined (bisected) until it passes :func:`kinroots.roots.contour.segment_ok`
+  — the same phase-step test the survey uses, so a count here is as reliable as the
+  survey's outer count; a segment still failing below ``min_fraction`` × the box diameter
+  (a zero on or next to an edge), a zero or non-finite sample, or a phase sum more than
+  0.1 from an integer gives no count (``None``) with the reason;
+* after a batch, the loop of its last p is thinned where a merged segment still passes
+  the test (at most every other sample per batch), so the loop follows f as it becomes
+  smoother as well as rougher;
+* excluded points (poles, zeros brought in by a scaling) inside the box: their winding
+  on a small circle is subtracted, as in :func:`kinroots.roots.find_roots`.  It is measured
+  at the first and the last p of a batch and, if the two differ, at every p of it (it is
+  an integer that changes only when a zero passes within the circle's radius).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from kinroots.roots.contour import circle_contour, segment_ok
+from kinroots.roots.result import AnalyticFunction, Box, CountedFunction
+
+__all__ = ["BoundaryCount", "BoundaryCounter"]
+
+Family = Callable[[float], AnalyticFunction]
+PairFamily = Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]]
+
+
+@dataclass(frozen=True)
+class BoundaryCount:
+    """Zeros inside the box at one parameter value.
+
+    ``count`` is ``None`` when the boundary could not be resolved (``note`` says why).
+    ``evaluations`` is the number of points at which f_p was evaluated for it.
+    """
+
+    param: float
+    count: int | None
+    evaluations: int
+    note: str = ""
+
+
+def _corners(box: Box) -> np.ndarray:
+    x0, x1, y0, y1 = box
+    return np.array([complex(x0, y0), complex(x1, y0), complex(x1, y1), complex(x0, y1)])
+
+
+def _initial_loop(box: Box, n: int) -> np.ndarray:
+    c = _corners(box)
+    t = np.arange(n) / n
+    return np.concatenate([c[i] + (c[(i + 1) % 4] - c[i]) * t for i in range(4)])
+
+
+class BoundaryCounter:
+    """Argument-principle counts of f_p in ``box`` from boundary samples only.
+
+    Parameters
+    ----------
+    box : (re_min, re_max, im_min, im_max)
+        The rectangle (fixed for the life of the counter).
+    excluded : sequence of complex
+        Points whose winding is not wanted in the count (the same meaning as for
+        :func:`kinroots.roots.find_roots`); assumed independent of p.
+    n_init : int
+        Samples per edge of the first loop.
+    min_fraction : float
+        Shortest segment, relative to the box diameter, before an edge counts as
+        unresolved (a zero on it).
+    exclusion_radius : float
+        Radius of the circles around excluded points, relative to the box diameter.
+    max_points : int
+        Largest loop; beyond it the count is ``None``.
+    """
+
+    def __init__(self, box: Box, *, excluded: Sequence[complex] = (), n_init: int = 8,
+                 min_fraction: float = 1e-7, exclusion_radius: float = 1e-8,
+                 max_points: int = 4096) -> None:
+        self.box = tuple(float(v) for v in box)
+        x0, x1, y0, y1 = self.box
+        self.diameter = math.hypot(x1 - x0, y1 - y0)
+        self.min_len = min_fraction * self.diameter
+        self.max_points = max_points
+        self.loop = _initial_loop(self.box, n_init)
+        self.excluded = [complex(e) for e in excluded
+                         if x0 <= e.real <= x1 and y0 <= e.imag <= y1]
+        radius = exclusion_radius * self.diameter
+        self._radii = []
+        for i, e in enumerate(self.excluded):
+            others = [abs(e - o) for j, o in enumerate(self.excluded) if j != i]
+            self._radii.append(min([radius] + [0.1 * d for d in others]))
+        self._corner_set = set(_corners(self.box).tolist())
+        #: Thinning passes after a batch (each drops at most every other sample).
+        self.thin_passes = 3
+        #: Points evaluated by this counter (boundary and exclusion circles).
+        self.evaluations = 0
+
+    # -- public -------------------------------------------------------------------
+    def count(self, params: Sequence[float], *, family: Family | None = None,
+              pairs: PairFamily | None = None,
+              known: Sequence[Sequence[complex]] | None = None) -> list[BoundaryCount]:
+        """Counts at each of ``params``: one batch (``pairs``) or one p at a time.
+
+        ``known[i]``, optional, lists zeros of f at ``params[i]`` believed to lie inside
+        (with repetition for multiplicity), e.g. the traced roots.  The winding is then
+        taken of the deflated ``g = f / Π (z − z_j)``, and the count is that winding plus
+        the number of those inside the box: the argument principle for g (whose poles
+        inside are exactly the listed zeros), so the count stays exact whatever the list.
+        The listed zeros no longer make the phase turn fast along nearby edges, so far
+        fewer samples resolve the boundary.
+        """
+        ps = [float(p) for p in params]
+        if not ps:
+            return []
+        if pairs is None and family is None:
+            raise ValueError("give family or pairs")
+
+        def evaluate(idx: list[int], zs: list[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
+            n = sum(z.size for z in zs)
+            self.evaluations += n
+            if pairs is not None:
+                pp = np.concatenate([np.full(z.size, ps[i]) for i, z in zip(idx, zs, strict=True)])
+                f, d = pairs(pp, np.concatenate(zs))
+                f, d = np.asarray(f, complex), np.asarray(d, complex)
+                out, j = [], 0
+                for z in zs:
+                    out.append((f[j:j + z.size], d[j:j + z.size]))
+                    j += z.size
+                return out
+            assert family is not None
+            return [tuple(np.asarray(v, complex) for v in family(ps[i])(z))  # type: ignore[misc]
+                    for i, z in zip(idx, zs, strict=True)]
+
+        m = len(ps)
+        x0, x1, y0, y1 = self.box
+        poles = [np.array([complex(z) for z in (known[i] if known is not None else ())
+                           if x0 < z.real < x1 and y0 < z.imag < y1], dtype=complex)
+                 for i in range(m)]
+        raw = evaluate
+
+        def evaluate(idx: list[int], zs: list[np.ndarray]  # noqa: F811 - deflated
+                     ) -> list[tuple[np.ndarray, np.ndarray]]:
+            out = []
+            for i, z, (f, d) in zip(idx, zs, raw(idx, zs), strict=True):
+                if poles[i].size:
+                    with np.errstate(all="ignore"):
+                        diff = z[:, None] - poles[i][None, :]
+                        g = f / np.prod(diff, axis=1)
+                        d = g * (d / f - np.sum(1.0 / diff, axis=1))
+                    f = g
+                out.append((f, d))
+            return out
+
+        zl = [self.loop.copy() for _ in range(m)]
+        fd = evaluate(list(range(m)), zl)
+        fl = [a for a, _ in fd]
+        dl = [b for _, b in fd]
+        evals = [z.size for z in zl]
+        result: list[int | None] = [None] * m
+        notes = [""] * m
+        todo = list(range(m))
+        while todo:
+            req_i: list[int] = []
+            req_z: list[np.ndarray] = []
+            req_pos: list[np.ndarray] = []
+            for i in todo:
+                z, f, d = zl[i], fl[i], dl[i]
+                bad_pt = ~np.isfinite(f) | ~np.isfinite(d) | (f == 0)
+                if np.any(bad_pt):
+                    notes[i] = (f"f is zero or not finite on the boundary near "
+                                f"{complex(z[bad_pt][0]):.6g}")
+                    continue
+                ok = segment_ok(z, f, d, closed=True)
+                if np.all(ok):
+                    w = float(np.sum(np.angle(np.roll(f, -1) / f)) / (2 * math.pi))
+                    if abs(w - round(w)) > 0.1:
+                        notes[i] = f"phase sum {w:.3f}·2π is not an integer"
+                    else:
+                        result[i] = round(w)
+                    continue
+                bad = np.flatnonzero(~ok)
+                z1 = np.roll(z, -1)[bad]
+                seg = np.abs(z1 - z[bad])
+                if np.any(seg <= self.min_len) or z.size + bad.size > self.max_points:
+                    where = complex(0.5 * (z[bad[0]] + z1[0]))
+                    notes[i] = (f"boundary unresolved near {where:.6g} (a zero on or next "
+                                "to an edge)")
+                    continue
+                req_i.append(i)
+                req_z.append(0.5 * (z[bad] + z1))
+                req_pos.append(bad + 1)
+            if not req_i:
+                break
+            for i, zn, pos, (fn, dn) in zip(req_i, req_z, req_pos, evaluate(req_i, req_z),
+                                            strict=True):
+                zl[i] = np.insert(zl[i], pos, zn)
+                fl[i] = np.insert(fl[i], pos, fn)
+                dl[i] = np.insert(dl[i], pos, dn)
+                evals[i] += zn.size
+            todo = req_i
+        # next batch starts from the last resolved loop, thinned where it can be
+        good = [i for i in range(m) if result[i] is not None]
+        if good:
+            i = good[-1]
+            z, f, d = zl[i], fl[i], dl[i]
+            for _ in range(self.thin_passes):
+                keep = self._thin(z, f, d)
+                if keep.all():
+                    break
+                z, f, d = z[keep], f[keep], d[keep]
+            self.loop = z
+        ex, ex_evals = self._exclusions(ps, family, pairs)
+        out = []
+        for i, p in enumerate(ps):
+            c = result[i]
+            note = notes[i]
+            if c is not None:
+                if ex[i] is None:
+                    c, note = None, "winding around an excluded point not resolved"
+                else:
+                    c += poles[i].size - ex[i]
+            out.append(BoundaryCount(p, c, evals[i] + ex_evals[i], note))
+        return out
+
+    # -- internals ----------------------------------------------------------------
+    def _thin(self, z: np.ndarray, f: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """Mask of samples to keep: every other one whose neighbours pass without it."""
+        keep = np.ones(z.size, dtype=bool)
+        j = 1
+        while j < z.size:
+            nxt = (j + 1) % z.size
+            if z[j].item() not in self._corner_set:
+                trial = segment_ok(z[[j - 1, nxt]], f[[j - 1, nxt]], d[[j - 1, nxt]])
+                if trial[0]:
+                    keep[j] = False
+                    j += 2  # at most every other sample per batch
+                    continue
+            j += 1
+        return keep
+
+    def _exclusions(self, ps: list[float], family: Family | None, pairs: PairFamily | None
+                    ) -> tuple[list[int | None], list[int]]:
+        m = len(ps)
+        if not self.excluded:
+            return [0] * m, [0] * m
+        ex: list[int | None] = [None] * m
+        evals = [0] * m
+
+        def at(i: int) -> int | None:
+            p = ps[i]
+            if pairs is not None:
+                def f(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+                    return pairs(np.full(np.shape(z), p), z)
+            else:
+                assert family is not None
+                f = family(p)
+            total = 0
+            for e, r in zip(self.excluded, self._radii, strict=True):
+                cf = CountedFunction(f)
+                c = circle_contour(cf, e, r)
+                evals[i] += cf.evaluations
+                self.evaluations += cf.evaluations
+                if c.winding is None:
+                    return None
+                total += c.winding
+            return total
+
+        ex[0] = at(0)
+        ex[-1] = at(m - 1) if m > 1 else ex[0]
+        if ex[0] is not None and ex[0] == ex[-1]:
+            ex = [ex[0]] * m
+        else:
+            for i in range(1, m - 1):
+                ex[i] = at(i)
+        return ex, evals
