@@ -178,7 +178,9 @@ def small_case(tmp_path: Path, **changes: Any) -> Path:
 def test_user_text_is_shown_literally(tmp_path: Path) -> None:
     """Rich markup and matplotlib mathtext in a title or name are data, not commands."""
     title = r"$\notacommand$ [bold]x[/italic] [/] [link=http://x]y[/link]"
-    path = small_case(tmp_path, title=title, name="π$\\alpha$[/]")
+    path = small_case(tmp_path, title=title, name="π$\\alpha$[/][bold]x[/italic]")
+    result = invoke("plasma", str(path))
+    assert result.exit_code == 0 and "[bold]x[/italic]" in result.stdout
     for cmd, out in (("solve", "branches.png"), ("roots", "map.png")):
         result = invoke(cmd, str(path), "-o", str(tmp_path / cmd))
         assert result.exit_code in (0, 1), result.stderr
@@ -186,7 +188,7 @@ def test_user_text_is_shown_literally(tmp_path: Path) -> None:
     summary = json.loads((tmp_path / "solve" / "summary.json").read_text(encoding="utf-8"))
     assert summary["title"] == title
     header = (tmp_path / "solve" / "branches.csv").read_text(encoding="utf-8").splitlines()[0]
-    assert "density_abs_π$\\alpha$[/]" in header
+    assert "density_abs_π$\\alpha$[/][bold]x[/italic]" in header
 
 
 def test_internal_error_exits_3_with_saved_traceback(monkeypatch: pytest.MonkeyPatch,

@@ -94,7 +94,7 @@ def plasma(
         }
         typer.echo(json.dumps(out, indent=2, ensure_ascii=False, allow_nan=False))
         return
-    console = Console(highlight=False)
+    console = Console(highlight=False, markup=False)  # names and titles are user text
     u = loaded.units
     console.print(loaded.title, markup=False)
     console.print(
@@ -116,7 +116,7 @@ def plasma(
             title += f" ({len(entry['components'])} components; T and drift are moments)"
         console.print(
             _quantity_table(
-                title.replace("[", "\\["),
+                title,
                 entry["si"],
                 entry["normalized"],
                 SPECIES_QUANTITIES,
