@@ -74,6 +74,20 @@ def test_case_solves_with_no_failed_point_and_complete_surveys(tmp_path, path):
     assert all(b["failed_points"] == 0 and b["end_reason"] != "failed"
                for b in summary["branches"]), summary["branches"]
     assert rows and all(r["converged"] == "true" for r in rows)
+    # issue 18: every k counted (argument principle on the window's boundary) and the
+    # table holds exactly that many rows there; no root appears twice at one k
+    checks = summary["point_checks"]
+    assert len(checks) == len(load_case(path).k_values)
+    assert summary["unverified_points"] == 0, [c for c in checks if not c["verified"]]
+    per_k: dict[str, list[complex]] = {}
+    for r in rows:
+        per_k.setdefault(r["k"], []).append(complex(float(r["omega_real"]),
+                                                    float(r["omega_imag"])))
+    for c in checks:
+        assert len(per_k.get(repr(c["k"]), [])) == c["count"] == c["rows"], c
+    for k, zs in per_k.items():
+        for i, z in enumerate(zs):
+            assert all(abs(z - w) > 1e-8 * abs(z) for w in zs[:i]), (k, zs)
 
 
 # Physics the cases are built to show (each beside its source).

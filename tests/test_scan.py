@@ -292,3 +292,24 @@ def test_solve_with_blocks_equals_solve_one_k_at_a_time(monkeypatch, name):
             assert ra.converged and rb.converged
             assert abs(ra.value - rb.value) <= tol * abs(rb.value)
     assert batched.evaluations > 0
+
+
+def test_every_k_counted_in_the_reported_reproduction():
+    """Issue 18: hydrogen_cold_ions without [units], 4 points: the rows at each k equal an
+    independent argument-principle survey of the window there (was 1 and 0 rows against
+    4 and 2 zeros)."""
+    import tomllib
+
+    raw = tomllib.loads((Path(__file__).resolve().parent.parent / "cases"
+                         / "hydrogen_cold_ions.toml").read_text())
+    raw.pop("units")
+    raw["scan"]["k"]["points"] = 4
+    case = parse_case(raw, "<hydrogen, 4 points>")
+    sol = solve(case)
+    for c in sol.point_checks:
+        s = survey(case, c.param)
+        assert s.complete
+        assert c.verified and c.rows == c.count == s.count
+        rows = sorted((b.points[c.param].value for b in sol.branches if c.param in b.points),
+                      key=lambda z: z.real)
+        assert np.allclose(rows, sorted(s.values, key=lambda z: z.real), rtol=1e-8)
