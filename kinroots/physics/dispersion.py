@@ -447,6 +447,16 @@ class Dispersion:
 
     def _evaluate(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`__call__` for one block of ω (complex array)."""
+        if om.size <= 4 and self._species_sum is not None:
+            # a few finite ω (survey polish, tracer steps): Python arithmetic, no numpy
+            # error state or NaN masking needed (the species sum raises where they would be)
+            scalar_sum = getattr(self._species_sum, "scalar_sum", None)
+            if scalar_sum is not None:
+                try:
+                    chi, dchi = scalar_sum(om)
+                    return 1.0 + chi, dchi
+                except (OverflowError, ZeroDivisionError, ValueError):
+                    pass
         with np.errstate(all="ignore"):
             if self.electromagnetic:
                 d, dd = self._d_em(om)

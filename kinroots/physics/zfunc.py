@@ -125,11 +125,27 @@ def _f_series(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
     """
     inv = 1.0 / s
     u = 0.5 * inv * inv
-    acc = np.full_like(s, _SERIES_COEF[-1])
-    for c in _SERIES_COEF[-2::-1]:
+    # terms kept: up to the last one above 1e-17 of the first at the smallest |s| of the
+    # array (all 20 at |s| = 8, 8 at |s| = 30)
+    count = _series_terms(float(np.max(np.abs(u))) if u.size else 0.0)
+    acc = np.full_like(s, _SERIES_COEF[count - 1])
+    for c in _SERIES_COEF[count - 2 :: -1]:
         acc *= u
         acc += c
     return -u * acc
+
+
+def _series_terms(u_max: float) -> int:
+    """Terms of the asymptotic series needed where |u| = |1/(2s²)| ≤ ``u_max``: up to the
+    last with (2n−1)!! u_max^{n−1} ≥ 1e-17 (ratio to the first term), at most all."""
+    if not u_max <= 1.0 / (2.0 * _R_SERIES**2):  # NaN or beyond the series region
+        return _N_SERIES
+    power = 1.0
+    for n, c in enumerate(_SERIES_COEF, start=1):
+        if c * power < 1e-17:
+            return max(n - 1, 1)
+        power *= u_max
+    return _N_SERIES
 
 
 def _f_trapezoid(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
@@ -229,15 +245,16 @@ def _exp_term(zeta: NDArray[np.complex128]) -> NDArray[np.complex128]:
     """
     x = zeta.real
     y = zeta.imag
-    xx, xx_e = _two_prod(x, x)
-    yy, yy_e = _two_prod(y, y)
+    # the three exact products x·x, y·y, 2x·y in one pass
+    prod, err = _two_prod(np.stack([x, y, 2.0 * x]), np.stack([x, y, y]))
+    xx, yy, p_hi = prod
+    xx_e, yy_e, p_lo = err
     a_hi = yy - xx
     bv = a_hi - yy
     a_lo = ((yy - (a_hi - bv)) + (-xx - bv)) + (yy_e - xx_e)  # two-sum error + low parts
     t = a_hi + a_lo
     a_lo = a_lo - (t - a_hi)
     a_hi = t
-    p_hi, p_lo = _two_prod(2.0 * x, y)
     mag = (2.0 * _SQRT_PI) * np.exp(a_hi)
     rot = np.cos(p_hi) - 1j * np.sin(p_hi)
     fine = np.exp(a_lo - 1j * p_lo)

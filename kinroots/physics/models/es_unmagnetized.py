@@ -532,7 +532,7 @@ class SpeciesSum:
         om = np.asarray(omega, dtype=complex)
         if om.size <= _SCALAR_POINTS:
             try:
-                return self._scalar_sum(om)
+                return self.scalar_sum(om)
             except (OverflowError, ZeroDivisionError, ValueError):
                 pass  # non-finite ω or exp overflow: the array path gives inf/nan
         if self._arrays is None:
@@ -549,9 +549,10 @@ class SpeciesSum:
             derivative = np.vecdot(dcoef.conj()[:, None], dm1.reshape(-1, n), axis=0)
         return value.reshape(om.shape), derivative.reshape(om.shape)
 
-    def _scalar_sum(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def scalar_sum(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """The sums at each of a few finite ω, in Python arithmetic (raises ValueError for a
-        non-finite ω and OverflowError where an exponential overflows)."""
+        non-finite ω and OverflowError where an exponential overflows; no numpy error
+        state is needed, and the results are finite where no exception is raised)."""
         values = []
         derivatives = []
         for w in om.ravel().tolist():
