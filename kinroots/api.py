@@ -143,9 +143,9 @@ class RootSet:
         return bool(self.survey.complete)
 
     @property
-    def count(self) -> int:
-        """Zeros in the window by the argument principle."""
-        return int(self.survey.count)
+    def count(self) -> int | None:
+        """Zeros in the window by the argument principle (None when it was not counted)."""
+        return None if self.survey.count is None else int(self.survey.count)
 
     @property
     def evaluations(self) -> int:

@@ -14,6 +14,8 @@ for _module in (case_commands, waves, lab, stability):
     _module.register(app)
 # No traceback reaches a user: internal errors exit 3 with the traceback in a file.
 for _info in app.registered_commands:
+    if _info.callback is None:
+        continue
     _info.callback = guarded(_info.callback)
     # Examples are shown line by line as written (click's "\b" marker), not re-wrapped
     # like the paragraphs above them, so a command is never broken inside an option name.

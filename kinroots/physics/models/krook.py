@@ -238,17 +238,17 @@ def scaled_dispersion(
         fk = np.zeros_like(om)
         # F = Π_r Q_r + Σ_s N_s Π_{r≠s} Q_r, differentiated term by term
         m = len(species)
-        for s in range(-1, m):
-            prod = np.ones_like(om) if s < 0 else ns[s]
-            d_w = np.zeros_like(om) if s < 0 else dnw[s]
-            d_k = np.zeros_like(om) if s < 0 else dnk[s]
+        for j in range(-1, m):
+            prod = np.ones_like(om) if j < 0 else ns[j]
+            d_w = np.zeros_like(om) if j < 0 else dnw[j]
+            d_k = np.zeros_like(om) if j < 0 else dnk[j]
             for r in range(m):
-                if r == s:
+                if r == j:
                     continue
                 d_w = d_w * qs[r] + prod * dqw[r]
                 d_k = d_k * qs[r] + prod * dqk[r]
                 prod = prod * qs[r]
-            if s < 0:
+            if j < 0:
                 f = prod
             else:
                 f = f + prod
@@ -355,6 +355,8 @@ def magnetized_parts(
     omega_c, wt = setup.omega_c, setup.weights
     wp2 = species.plasma_frequency**2
     n_om = wt.n * omega_c
+    n: np.ndarray
+    dn: np.ndarray
     with np.errstate(all="ignore"):
         if kpar == 0:
             r = 1.0 / (om[..., None] - n_om + 1j * nu)
