@@ -313,3 +313,23 @@ def test_landau_moments_at_huge_zeta_do_not_raise() -> None:
     with np.errstate(all="ignore"):  # first_moment leaves errstate to its caller
         m1, _ = es_unmagnetized.first_moment(z)
     assert np.all(np.isfinite(m1))
+
+
+def test_integer_kappa_pole_is_excluded_from_surveys() -> None:
+    """Integer κ: D has a pole at ζ = −i√κ (rational profile); it is listed among the
+    singular points, so that a survey box around it still counts zeros only (argument
+    principle, poles excluded) and completes."""
+    from kinroots.roots import find_roots
+
+    e = kappa_species(2.0)  # electrons alone (ions would overflow this deep)
+    wp = e.plasma_frequency
+    k = 0.6 / e.debye_length
+    d = Dispersion(Plasma((e,), 0.0), k=k, angle_deg=0.0, model="electrostatic",
+                   omega_ref=wp)
+    theta = math.sqrt((2 * 2.0 - 3) / 2.0 * e.temperature_par * EV / e.mass)
+    pole = -1j * math.sqrt(2.0) * k * theta
+    box = (-0.3 * wp, 0.3 * wp, 1.5 * pole.imag, 0.5 * pole.imag)
+    pts = d.singular_points(*box)
+    assert any(abs(q - pole) < 1e-9 * abs(pole) for q in pts)
+    res = find_roots(lambda w: d(w), box, excluded=pts)
+    assert res.complete, res.notes

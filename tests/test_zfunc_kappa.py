@@ -134,3 +134,14 @@ def test_one_point_path_agrees_with_the_array_path() -> None:
             one = kappa_transforms(np.array([z]), kappa, power)
             for a, b in zip(one, arr, strict=True):
                 assert abs(a[0] - b[i]) <= 1e-13 * abs(b[i]), (kappa, z)
+
+
+def test_not_evaluated_about_the_cut() -> None:
+    """Non-integer κ: NaN on and about the cut Re ζ = 0, Im ζ < −√κ (module notes);
+    integer κ (rational profile, no cut): finite there."""
+    root = math.sqrt(2.5)
+    z = np.array([0.01 - 1.5 * root * 1j, 0.3 - 5 * root * 1j, 0.5 - 1.5 * root * 1j])
+    y = kappa_transforms(z, 2.5, 2.5)[0]
+    assert np.isnan(y[0]) and np.isnan(y[1]) and np.isfinite(y[2])
+    assert np.isnan(kappa_transforms(z[:1], 2.5, 2.5)[0][0])  # one-point path too
+    assert np.all(np.isfinite(kappa_transforms(z * math.sqrt(3 / 2.5), 3.0, 3.0)[0]))

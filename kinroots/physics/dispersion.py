@@ -17,7 +17,11 @@ from typing import Any
 import numpy as np
 
 from kinroots.physics.models.base import Builder, Susceptibility
-from kinroots.physics.models.species_models import builder_for_plasma, plain_species
+from kinroots.physics.models.species_models import (
+    builder_for_plasma,
+    kappa_poles,
+    plain_species,
+)
 from kinroots.physics.plasma import C_LIGHT, EV, Plasma
 
 __all__ = [
@@ -525,7 +529,9 @@ class Dispersion:
 
         ω = 0 for electromagnetic models (a zero that the scaling may introduce); for
         magnetized plasmas with k∥ = 0 exactly, the cyclotron harmonics n Ω_s (n ≠ 0,
-        every species), which are poles of D.  Sorted by real part, without repeats.
+        every species), which are poles of D; the poles of the continued kappa functions
+        of integer-κ species (:func:`~kinroots.physics.models.species_models.kappa_poles`).
+        Sorted by real part, without repeats.
         """
         pts: set[complex] = set()
         on_axis = im_min <= 0.0 <= im_max
@@ -541,6 +547,10 @@ class Dispersion:
                 for n in range(n_lo, n_hi + 1):
                     if n != 0:
                         pts.add(complex(n * om_c, 0.0))
+        for pole in kappa_poles(self.plasma, k_par=self.k_par, k_perp=self.k_perp,
+                                electromagnetic=self.electromagnetic):
+            if re_min <= pole.real <= re_max and im_min <= pole.imag <= im_max:
+                pts.add(pole)
         return sorted(pts, key=lambda z: (z.real, z.imag))
 
 

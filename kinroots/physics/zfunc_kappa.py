@@ -46,7 +46,10 @@ For non-integer p the continued profile (1 + ζ²/κ)^(−p) has branch points a
 everywhere except on the cut Re ζ = 0, Im ζ ≤ −√κ.  A root below the branch point,
 Im ζ < −√κ, lies on that principal sheet but is damped faster than the branch-point
 response (which decays like exp(−√κ k θ t) times a power of t) and depends on the
-choice of the cut: such roots are flagged by :func:`beyond_branch_point`.  For integer p
+choice of the cut: such roots are flagged by :func:`beyond_branch_point`.  About the
+cut (and the branch point) the functions are not evaluated (NaN, see
+:func:`kappa_transforms`), so that a root-finding contour that reaches the cut meets
+non-finite values, which the survey reports, instead of a jump.  For integer p
 the profile is rational (poles of order p at ±i√κ) and the continuation is valid in
 the whole plane except at the pole ζ = −i√κ.  Near ζ = ±i√κ the aliasing error grows
 (u₀ approaches the strip edge): relative errors stay below 1e-9 beyond |ζ ∓ i√κ| > 0.05√κ
@@ -87,6 +90,9 @@ _TAIL = 1e-17
 _H_MAX = 0.2
 #: Step in units of the width 1/√(2p − 1) of cosh(u)^(1−2p) near u = 0 (large p).
 _H_WIDTH = 0.6
+#: Half-width of the region about the cut (and the branch point) left unevaluated for
+#: non-integer p: |Re ζ| < 0.05 (√κ + depth below −i√κ), from 0.05√κ above the branch point.
+_CUT_WIDTH = 0.05
 
 
 def profile_norm(kappa: float, power: float) -> float:
@@ -249,13 +255,14 @@ def kappa_transforms(
     Returns
     -------
     y, dy, f, df : ndarray of complex
-        Shaped like ``zeta``; NaN where ζ is not finite, and non-finite at ζ = ±i√κ.
+        Shaped like ``zeta``; NaN where ζ is not finite, and, for non-integer p, about
+        the cut: Im ζ < −0.95√κ and |Re ζ| < 0.05(√κ + max(0, −Im ζ − √κ)).
 
     Notes
     -----
     dY/dζ = ∫ g/(x − ζ)² dx and dF/dζ = Y + ζ dY/dζ are summed from the same folded
     nodes (Σ w (x² + ζ²)/(x² − ζ²)², Σ w x² ζ/(x² − ζ²)²), so dF, like F, has no
-    cancellation at large |ζ|.  Cost: one matrix product over about 15 (large κ) to 80
+    cancellation at large |ζ|.  Cost: weighted sums over about 15 (large κ) to 90
     (κ → 3/2) nodes per point.
     """
     z = np.asarray(zeta, dtype=complex)
@@ -263,9 +270,16 @@ def kappa_transforms(
     flat = z.reshape(-1)
     out = [np.full(flat.shape, np.nan + 0j) for _ in range(4)]
     good = np.isfinite(flat)
+    grid_a, grid_b, log_a = _grids(float(kappa), float(power))
+    if not float(power).is_integer():
+        # about the cut (and the branch point): not evaluated, so that a contour that
+        # reaches the cut meets non-finite values instead of a silent jump
+        root = math.sqrt(kappa)
+        depth = -flat.imag - root
+        good &= ~((depth > -_CUT_WIDTH * root)
+                  & (np.abs(flat.real) < _CUT_WIDTH * (root + np.maximum(depth, 0.0))))
     if not good.any():
         return tuple(o.reshape(shape) for o in out)  # type: ignore[return-value]
-    grid_a, grid_b, log_a = _grids(float(kappa), float(power))
     if flat.size == 1 and good[0]:
         z0 = complex(flat[0])
         u0 = cmath.asinh(z0 / math.sqrt(kappa))

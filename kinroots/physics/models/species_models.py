@@ -26,7 +26,13 @@ import numpy as np
 from kinroots.physics.models.base import Builder, Susceptibility
 from kinroots.physics.plasma import EV, Component, Plasma, Species
 
-__all__ = ["branch_point_note", "builder_for_plasma", "negative_region", "plain_species"]
+__all__ = [
+    "branch_point_note",
+    "builder_for_plasma",
+    "kappa_poles",
+    "negative_region",
+    "plain_species",
+]
 
 #: (model, magnetized, scaled) -> "module:function" of the kappa builder.
 _KAPPA: dict[tuple[str, bool, bool], str] = {
@@ -200,3 +206,31 @@ def branch_point_note(plasma: Plasma, *, omega: complex, k: complex, angle_deg: 
         return ""
     return ("beyond the branch point of kappa species " + ", ".join(names)
             + " (Im zeta < -sqrt(kappa)): not the dominant response; depends on the cut")
+
+
+def kappa_poles(plasma: Plasma, *, k_par: complex, k_perp: complex,
+                electromagnetic: bool) -> list[complex]:
+    """Poles of D [rad/s] from kappa species with integer κ: ζ = −i√κ.
+
+    For an integer κ the continued profile (1 + ζ²/κ)^−p is rational with a pole of
+    order p at ζ = −i√κ (:mod:`kinroots.physics.zfunc_kappa`), i.e. at
+    ω = k∥V + nΩ − i√κ Θ, Θ = √(k⊥²θ⊥² + k∥²θ∥²), with n = 0 and, for the magnetized
+    electromagnetic model (k ∥ B), n = ±1.  The root finder excludes them (a pole
+    inside a contour would cancel zeros in the count).  Non-integer κ: branch points,
+    see :func:`kinroots.physics.zfunc_kappa.kappa_transforms` (NaN about the cut).
+    """
+    from kinroots.physics.models.kappa_unmagnetized import kappa_widths_squared
+
+    out = []
+    for s in plasma.species:
+        if s.distribution != "kappa" or s.kappa is None or not float(s.kappa).is_integer():
+            continue
+        tpar2, tperp2 = kappa_widths_squared(s)
+        theta = complex(np.sqrt(complex(k_perp) ** 2 * tperp2 + complex(k_par) ** 2 * tpar2))
+        base = complex(k_par) * s.drift - 1j * math.sqrt(s.kappa) * theta
+        shifts = [0.0]
+        if plasma.magnetized and electromagnetic:
+            oc = s.cyclotron_frequency(plasma.B)
+            shifts += [oc, -oc]
+        out += [base + d for d in shifts]
+    return out
