@@ -87,8 +87,8 @@ def test_output_path_that_is_a_file_is_bad_input(tmp_path):
 def test_failed_point_exit_1_and_flagged_with_empty_values(tmp_path, monkeypatch):
     real_solve = solve
 
-    def solve_with_a_failure(case, *, progress=None):
-        sol = real_solve(case, progress=progress)
+    def solve_with_a_failure(case, *, progress=None, **kwargs):
+        sol = real_solve(case, progress=progress, **kwargs)
         b = sol.branches[0]
         k_fail = sorted(b.points)[3]
         b.points[k_fail] = RootResult(

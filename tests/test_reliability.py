@@ -258,3 +258,37 @@ def test_output_set_is_replaced_whole_or_not_at_all(monkeypatch: pytest.MonkeyPa
     assert not [p for p in out.iterdir() if p.name.startswith(".")]  # staged files gone
     new = json.loads((out / "solve-manifest.json").read_text(encoding="utf-8"))
     assert new["run_id"] != manifest["run_id"]
+
+
+def test_ctrl_c_during_solve_keeps_the_points_done(monkeypatch: pytest.MonkeyPatch,
+                                                   tmp_path: Path) -> None:
+    import csv
+    import signal
+
+    import kinroots.study.solve as solve_module
+
+    data = base()
+    data["scan"]["k"]["points"] = 30
+    data["solver"] = {"resurvey_every": 5}
+    path = tmp_path / "case.toml"
+    path.write_text(toml_document(data), encoding="utf-8")
+    original = solve_module.solve
+
+    def solve_with_ctrl_c(case: Any, *, progress: Any = None, **kwargs: Any) -> Any:
+        def progress_then_ctrl_c(done: int, total: int) -> None:
+            if done == 1:
+                os.kill(os.getpid(), signal.SIGINT)  # the real signal, once
+            progress(done, total)
+
+        return original(case, progress=progress_then_ctrl_c, **kwargs)
+
+    monkeypatch.setattr(solve_module, "solve", solve_with_ctrl_c)
+    out = tmp_path / "out"
+    result = invoke("solve", str(path), "-o", str(out))
+    assert result.exit_code == 130, result.stderr
+    summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    assert summary["interrupted"] is True
+    with open(out / "branches.csv", newline="", encoding="utf-8") as fh:
+        ks = {float(r["k"]) for r in csv.DictReader(fh)}
+    assert ks and max(ks) < data["scan"]["k"]["stop"]  # the points before Ctrl-C only
+    assert len(summary["point_checks"]) == 6  # first k + one batch of 5

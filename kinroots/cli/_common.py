@@ -165,6 +165,40 @@ def guarded(command: Callable[..., Any]) -> Callable[..., Any]:
     return run
 
 
+class CtrlC:
+    """Within ``with CtrlC() as stop``: the first Ctrl-C only sets ``stop()`` to True (the
+    work stops at its next checkpoint and keeps what is done); a second one interrupts at
+    once (KeyboardInterrupt).  Outside the main thread it changes nothing."""
+
+    def __init__(self) -> None:
+        self.requested = False
+        self._old: Any = None
+
+    def __call__(self) -> bool:
+        return self.requested
+
+    def _handle(self, signum: int, frame: Any) -> None:
+        if self.requested:
+            raise KeyboardInterrupt
+        self.requested = True
+        err("kinroots: Ctrl-C: stopping after the current points and writing what is done "
+            "(Ctrl-C again to stop at once, writing nothing)")
+
+    def __enter__(self) -> CtrlC:
+        import signal
+        import threading
+
+        if threading.current_thread() is threading.main_thread():
+            self._old = signal.signal(signal.SIGINT, self._handle)
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        import signal
+
+        if self._old is not None:
+            signal.signal(signal.SIGINT, self._old)
+
+
 def stderr_console() -> Console:
     """Rich console on stderr that shows every string literally (no markup, no
     highlighting): titles, names and paths are user text.  Styles are passed with

@@ -10,7 +10,9 @@ from rich.markup import escape
 
 from kinroots.cli._common import (
     EXIT_BAD_INPUT,
+    EXIT_INTERRUPTED,
     CaseArg,
+    CtrlC,
     DefaultOpt,
     FigureFormat,
     FigureFormatOpt,
@@ -71,13 +73,14 @@ def solve(
     loaded = load_case_or_exit(case, default)
     check_output_dir(output)
     console = stderr_console()
-    with Progress(
+    with CtrlC() as stop, Progress(
         TextColumn("[bold]tracing[/bold] {task.description}"), BarColumn(),
         TextColumn("{task.completed}/{task.total} k"), TimeElapsedColumn(),
         console=console, transient=True,
     ) as bar:
         task = bar.add_task(escape(loaded.title), total=len(loaded.k_values))
-        sol = solve_case(loaded, progress=lambda done, total: bar.update(task, completed=done))
+        sol = solve_case(loaded, progress=lambda done, total: bar.update(task, completed=done),
+                         should_stop=stop)
     rows = branch_rows(sol)
     summary = solution_summary(sol, rows)
     out = OutputSet(output, "solve")
@@ -102,6 +105,10 @@ def solve(
     for note in sol.notes:
         console.print(f"note: {note}")
     console.print(written(output / "branches.csv", output / "summary.json", fig_path))
+    if sol.interrupted:
+        console.print("interrupted: the tables hold the scan points done before Ctrl-C "
+                      "(summary.json: interrupted = true)", style="red")
+        raise typer.Exit(EXIT_INTERRUPTED)
     if sol.failed_points:
         console.print(f"{sol.failed_points} point(s) failed: flagged in the table "
                       "(converged = false) and in summary.json", style="red")

@@ -85,6 +85,10 @@ class PointCheck:
     reason: str = ""
 
 
+#: Start of the note that says a trace was stopped early (``should_stop``).
+INTERRUPTED = "interrupted"
+
+
 @dataclass
 class Solution:
     """Result of :func:`solve`."""
@@ -95,6 +99,11 @@ class Solution:
     evaluations: int
     notes: list[str]
     point_checks: list[PointCheck] = field(default_factory=list)
+
+    @property
+    def interrupted(self) -> bool:
+        """True when the trace was stopped before the last scan point (``should_stop``)."""
+        return any(n.startswith(INTERRUPTED) for n in self.notes)
 
     @property
     def failed_points(self) -> int:
@@ -140,6 +149,7 @@ def follow_branches(
     pairs: PairFunction | None = None,
     excluded: Sequence[complex] = (),
     count: bool = True,
+    should_stop: Callable[[], bool] | None = None,
 ) -> tuple[list[TracedBranch], list[tuple[float, SurveyResult]], int, list[str],
            list[PointCheck]]:
     """Survey at the first parameter value, trace every root across ``params``.
@@ -173,6 +183,10 @@ def follow_branches(
     count : bool
         Count at every point (the default).  ``False`` traces from the first survey
         only, with nothing verified after it (for benchmarks: the cost of tracing alone).
+    should_stop : callable, optional
+        Asked after each batch of points; when it returns True the trace stops there
+        (e.g. after Ctrl-C) and the results cover the points done so far (a note says
+        where it stopped; point_checks cover only those points).
 
     Returns
     -------
@@ -361,6 +375,10 @@ def follow_branches(
         i = j + 1
         if progress:
             progress(j + 1, len(params))
+        if should_stop is not None and should_stop() and i < len(params):
+            notes.append(f"{INTERRUPTED}: stopped before {label(params[i])}; "
+                         f"{len(params) - i} of {len(params)} points not computed")
+            break
     evaluations += counter.evaluations
 
     for n_, tb in enumerate(results):
@@ -382,7 +400,7 @@ def follow_branches(
                     prev = tb.points[last].value if tb.points else complex("nan")
                     tb.points[nxt[0]] = failed_root(prev, b.note or "tracing failed")
     checks: list[PointCheck] = []
-    for p in params:
+    for p in params[:i]:  # the points done (all of them unless stopped)
         n, why = counts.get(p, (None, "not counted (counts off)"))
         rows = rows_at(p)
         ok = n is not None and n == rows
@@ -397,7 +415,7 @@ def follow_branches(
 
 
 def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
-          count: bool = True) -> Solution:
+          count: bool = True, should_stop: Callable[[], bool] | None = None) -> Solution:
     """Survey the window at the first k, trace every branch across the scan.
 
     Parameters
@@ -409,6 +427,9 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
     count : bool
         Count the window's zeros at every k (module docstring); ``False`` only for
         benchmarks (tracing alone, nothing verified after the first k).
+    should_stop : callable, optional
+        Asked between batches of scan points; True stops the trace there and the
+        solution holds the points done (`Solution.interrupted`).
 
     Returns
     -------
@@ -430,6 +451,7 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
         pairs=pair_function(case),
         excluded=function_at(case, ks[0]).excluded(box),
         count=count,
+        should_stop=should_stop,
     )
     return Solution(case=case, branches=branches, surveys=surveys, evaluations=evaluations,
                     notes=notes, point_checks=checks)
@@ -474,6 +496,7 @@ def solution_summary(sol: Solution, rows: list[dict[str, Any]]) -> dict[str, Any
         "unverified_points": sum(1 for c in sol.point_checks if not c.verified),
         "evaluations": sol.evaluations,
         "failed_points": sol.failed_points,
+        "interrupted": sol.interrupted,
         "notes": sol.notes,
     })
 
