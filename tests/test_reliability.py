@@ -251,6 +251,7 @@ def test_output_set_is_replaced_whole_or_not_at_all(monkeypatch: pytest.MonkeyPa
     monkeypatch.setattr(branches_module, "plot_branches", broken)
     result = invoke("solve", str(path), "-o", str(out))
     assert result.exit_code == 3
+    Path(result.stderr.rsplit("traceback saved to ", 1)[1].strip()).unlink()
     visible = {p.name: p.read_bytes() for p in out.iterdir() if not p.name.startswith(".")}
     assert visible == before  # the previous run's set, untouched
     monkeypatch.undo()
