@@ -333,3 +333,26 @@ def test_integer_kappa_pole_is_excluded_from_surveys() -> None:
     assert any(abs(q - pole) < 1e-9 * abs(pole) for q in pts)
     res = find_roots(lambda w: d(w), box, excluded=pts)
     assert res.complete, res.notes
+
+
+@pytest.mark.parametrize(("model", "B", "angle"), [
+    ("electrostatic", 0.0, 30.0), ("electromagnetic", 0.0, 50.0),
+    ("electromagnetic", 1e-6, 0.0)])
+def test_spatial_derivative_with_kappa_species(model: str, B: float, angle: float) -> None:
+    """dD/dk of the spatial problem (Euler homogeneity unmagnetized, Cauchy circle
+    magnetized) against a central difference, with kappa electrons and a component
+    species of protons (complex k)."""
+    from kinroots.physics.dispersion import dispersion_in_k
+
+    e = kappa_species(2.5, t_par=10.0, t_perp=14.0)
+    p = Species("p", 1, M_PROTON, 1e16, 2.0, 2.0, components=(
+        Component(0.7, 2.0, 2.0), Component(0.3, 8.0, 8.0, 1e4)))
+    plasma = Plasma((e, p), B)
+    wp = e.plasma_frequency
+    k = np.array([0.5, 0.7 + 0.02j]) / e.debye_length
+    om = 0.9 * wp
+    kw = {"omega": om, "angle_deg": angle, "model": model, "omega_ref": wp}
+    d, dd = dispersion_in_k(plasma, k=k, **kw)
+    h = 1e-6 * np.abs(k)
+    fd = (dispersion_in_k(plasma, k=k + h, **kw)[0] - dispersion_in_k(plasma, k=k - h, **kw)[0])
+    np.testing.assert_allclose(fd / (2 * h), dd, rtol=1e-7)
