@@ -12,13 +12,14 @@ import enum
 import functools
 from collections.abc import Callable
 from pathlib import Path
-from typing import Annotated, Any, NoReturn
+from typing import TYPE_CHECKING, Annotated, Any, NoReturn
 
 import click
 import typer
 from rich.console import Console
 
-from kinroots.io.case import Case, CaseError, default_case_path, load_case
+if TYPE_CHECKING:  # the case layer (and numpy) load only when a command reads a case
+    from kinroots.io.case import Case
 
 #: Exit code for bad input (docs/design.md, "Exit codes").
 EXIT_BAD_INPUT = 2
@@ -224,6 +225,8 @@ def load_case_or_exit(case: Path | None, use_default: bool = False) -> Case:
     use_default : bool
         ``--default`` given: must not be combined with a case file.
     """
+    from kinroots.io.case import CaseError, default_case_path, load_case
+
     if use_default and case is not None:
         err(f"kinroots: give either a case file or --default, not both (got {case})")
         raise typer.Exit(EXIT_BAD_INPUT)

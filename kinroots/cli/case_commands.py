@@ -3,16 +3,17 @@
 from __future__ import annotations
 
 import json
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
 from rich.console import Console
 from rich.table import Table
 
-from kinroots import __version__
+import kinroots
 from kinroots.cli._common import CaseArg, DefaultOpt, case_summary, load_case_or_exit
-from kinroots.io.case import Case
-from kinroots.physics.plasma import PLASMA_QUANTITIES, SPECIES_QUANTITIES, derived_quantities
+
+if TYPE_CHECKING:
+    from kinroots.io.case import Case
 
 
 def version() -> None:
@@ -20,7 +21,7 @@ def version() -> None:
 
     Example: kinroots version
     """
-    typer.echo(__version__)
+    typer.echo(kinroots.__version__)
 
 
 def check(case: CaseArg = None, default: DefaultOpt = False) -> None:
@@ -83,11 +84,17 @@ def plasma(
 
     Example: kinroots plasma cases/space_protons_alphas.toml --json
     """
+    from kinroots.physics.plasma import (
+        PLASMA_QUANTITIES,
+        SPECIES_QUANTITIES,
+        derived_quantities,
+    )
+
     loaded = load_case_or_exit(case, default)
     data = derived_quantities(loaded.plasma, loaded.units)
     if as_json:
         out: dict[str, Any] = {
-            "kinroots_version": __version__,
+            "kinroots_version": kinroots.__version__,
             "title": loaded.title,
             "source": None if loaded.source is None else str(loaded.source),
             **data,

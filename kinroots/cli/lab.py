@@ -9,7 +9,6 @@ import math
 from pathlib import Path
 from typing import Annotated, Any
 
-import numpy as np
 import typer
 from rich.markup import escape
 
@@ -188,6 +187,8 @@ def scatter_command(
                                          k_angle_deg=loaded.angle_deg, points=points)
     rows = sp.rows()
     cols = sp.columns
+    import numpy as np
+
     ion_nm = float(np.max(np.abs(cols["wavelength_shift_nm"][
         np.abs(cols["omega_rad_per_s"]) <= 0.02 * np.max(np.abs(cols["omega_rad_per_s"]))])))
     meta = {

@@ -9,9 +9,8 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
-import numpy as np
 import typer
 from rich.markup import escape
 
@@ -29,7 +28,9 @@ from kinroots.cli._common import (
     stderr_console,
     written,
 )
-from kinroots.io.case import Case
+
+if TYPE_CHECKING:
+    from kinroots.io.case import Case
 
 __all__ = ["register"]
 
@@ -130,7 +131,7 @@ def sweep_command(
 
     loaded = _prepare(case, default, output, "sweep")
     spec = loaded.sweep
-    total = int(np.prod(spec.shape))
+    total = math.prod(spec.shape)
     rows = _run(loaded, "sweep", total, output, workers, scheduler)
     out = OutputSet(output, "sweep")
     write_csv(out.stage("sweep.csv"), blank_failed(rows, "sweep"), SWEEP_COLUMNS)
@@ -169,7 +170,7 @@ def _finished(loaded: Case, output: Path, kind: str) -> list[dict[str, Any]] | N
     spec = loaded.threshold if kind == "threshold" else loaded.sweep
     if spec is None or not (output / STORE_NAME).exists():
         return None
-    total = spec.across.points if kind == "threshold" else int(np.prod(spec.shape))
+    total = spec.across.points if kind == "threshold" else math.prod(spec.shape)
     try:
         with PointStore(output / STORE_NAME, case_hash(loaded)) as store:
             rows = store.rows(kind)

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
 from rich.markup import escape
@@ -25,7 +25,9 @@ from kinroots.cli._common import (
     stderr_console,
     written,
 )
-from kinroots.io.case import Case
+
+if TYPE_CHECKING:
+    from kinroots.io.case import Case
 
 
 def _describe_root(row: dict[str, Any] | None, case: Case) -> str:
