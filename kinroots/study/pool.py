@@ -30,8 +30,10 @@ from typing import Any
 
 __all__ = ["chunk_size", "run_pool"]
 
-#: Modules the fork server imports once, before forking workers.
-PRELOAD: tuple[str, ...] = ("kinroots.study.sweep",)
+#: Modules imported once before the workers start (forked workers inherit them; a fork
+#: server imports them).  kinroots imports scipy.optimize lazily, at the first point: were
+#: it not imported here, every worker would pay that import again.
+PRELOAD: tuple[str, ...] = ("kinroots.study.sweep", "scipy.optimize")
 #: Largest chunk of points per task.
 MAX_CHUNK: int = 16
 
@@ -71,6 +73,10 @@ def _context() -> Any:
 
     methods = mp.get_all_start_methods()
     if sys.platform.startswith("linux") and "fork" in methods:
+        import importlib
+
+        for name in PRELOAD:
+            importlib.import_module(name)
         return mp.get_context("fork")
     if "forkserver" in methods:
         ctx = mp.get_context("forkserver")
