@@ -361,8 +361,9 @@ class Dispersion:
             module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
             factory = getattr(module, "SpeciesSum", None)
             if factory is not None:
+                extra = {"B": plasma.B, "tol": self.harmonic_tol} if self.magnetized else {}
                 self._species_sum = factory.for_species(
-                    tuple(plasma.species), k_par=self.k_par, k_perp=self.k_perp
+                    tuple(plasma.species), k_par=self.k_par, k_perp=self.k_perp, **extra
                 )
         if self.electromagnetic:
             self.scaling = (

@@ -20,7 +20,7 @@ from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
 from kinroots.physics.zfunc import plasma_z_and_prime
 
-__all__ = ["susceptibility"]
+__all__ = ["SpeciesSum", "susceptibility"]
 
 
 def susceptibility(
@@ -152,3 +152,100 @@ def _parts(
     term = f + (ratio / a) * (n_om * zf)
     dterm = q / a + (ratio / (a * a)) * (n_om * zp)
     return c * sums.dot(term, w.gamma), c * sums.dot(dterm, w.gamma)
+
+
+class SpeciesSum:
+    r"""Σ_s χ_s and Σ_s ∂χ_s/∂ω of :func:`susceptibility` at one fixed k, all species at once
+    (plain collisionless drifting bi-Maxwellians, k∥ ≠ 0).
+
+    Parameters
+    ----------
+    species : tuple of Species
+        The species (see :meth:`for_species` for when this class applies).
+    k_par, k_perp : complex
+        Wave-vector components [1/m] (scalars, k∥ ≠ 0).
+    B, tol : float
+        As for :func:`susceptibility`.
+
+    Notes
+    -----
+    The first form of :func:`susceptibility`, χ_s = c_s Σ_n Γ_n [F_n + (T∥/T⊥)(nΩ/a) Z_n]
+    with c_s = 2ω_p²/(k²w∥²), a = k∥w∥, written as two dot products over the harmonics of
+    every species at once: Σ_{s,n} (c_sΓ_n) F_n + Σ_{s,n} (c_s (T∥/T⊥) nΩ_sΓ_n/a_s) Z_n,
+    and likewise for the derivative (dF/dζ = Z + ζZ', dZ/dζ = Z', d/dω = (1/a) d/dζ).
+    The weights are formed once here (k is fixed); a call forms ζ_n of every species in
+    one array and evaluates Z and Z' there in one call. The sums are those of the builder
+    in another order (equal to rounding; tests/test_models_species_sums.py).
+    """
+
+    def __init__(self, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
+                 B: float, tol: float) -> None:
+        from kinroots.physics.models._harmonics import prepare_species
+
+        kpar, kperp = complex(k_par), complex(k_perp)
+        sign = landau_sign(kpar)
+        shift, nw, inv_sa, w_f, w_z, w_q, w_zp = ([] for _ in range(7))
+        for s in species:
+            setup = prepare_species((), s, k_par=kpar, k_perp=kperp, B=B, tol=tol,
+                                    model="es_magnetized")
+            if isinstance(setup, Susceptibility):
+                raise ValueError("non-finite species constants or no converged harmonic sum")
+            w = setup.weights
+            a = kpar * setup.w_par
+            n_om = w.n * setup.omega_c
+            ratio = s.temperature_par / s.temperature_perp
+            c = 2.0 * s.plasma_frequency**2 / ((kperp * kperp + kpar * kpar) * setup.w_par**2)
+            size = w.n.size
+            shift.append(np.full(size, kpar * setup.drift))
+            nw.append(n_om)
+            inv_sa.append(np.full(size, 1.0 / (sign * a)))
+            w_f.append(c * w.gamma)
+            w_z.append(c * (ratio / a) * (n_om * w.gamma))
+            w_q.append((c / a) * w.gamma)
+            w_zp.append(c * (ratio / (a * a)) * (n_om * w.gamma))
+        self._sign = sign
+        self._shift = np.concatenate(shift)
+        self._nw = np.concatenate(nw)
+        self._inv_sa = np.concatenate(inv_sa)
+        # rows (F, Z_eff) for χ and (dF/dζ, Z') for ∂χ/∂ω, conjugated for np.vecdot
+        self._wv = np.array([np.concatenate(w_f), np.concatenate(w_z)]).conj()
+        self._wd = np.array([np.concatenate(w_q), np.concatenate(w_zp)]).conj()
+
+    @classmethod
+    def for_species(cls, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
+                    B: float, tol: float) -> SpeciesSum | None:
+        """The sum, or None where the builder must serve: k∥ = 0, a species that is not one
+        plain collisionless bi-Maxwellian, a non-finite constant or a harmonic sum that
+        does not converge."""
+        if complex(k_par) == 0 or not species or B == 0:
+            return None
+        if not all(getattr(s, "is_plain_maxwellian", True) and s.collision_frequency == 0.0
+                   for s in species):
+            return None
+        try:
+            with np.errstate(all="ignore"):
+                out = cls(tuple(species), k_par=k_par, k_perp=k_perp, B=B, tol=tol)
+        except (ValueError, ZeroDivisionError, OverflowError):
+            return None
+        if not all(np.all(np.isfinite(x)) for x in (out._nw, out._inv_sa, out._wv, out._wd)):
+            return None
+        return out
+
+    def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Σ_s χ_s(ω) and Σ_s ∂χ_s/∂ω, shaped like ``omega`` (call under
+        ``np.errstate(all="ignore")``)."""
+        om = np.asarray(omega, dtype=complex)
+        w = om.reshape(-1, 1)
+        zt = (w - self._shift - self._nw) * self._inv_sa
+        zf, zp = plasma_z_and_prime(zt)
+        rows = np.empty((w.shape[0], 2, zt.shape[1]), dtype=complex)
+        np.multiply(zp, -0.5, out=rows[:, 0])  # F = −Z'(sζ)/2
+        if self._sign < 0:
+            np.negative(zf, out=rows[:, 1])
+        else:
+            rows[:, 1] = zf
+        value = np.vecdot(self._wv, rows).sum(axis=-1)
+        rows[:, 0] = rows[:, 1] + (self._sign * zt) * zp  # dF/dζ = Z_eff + ζ Z_eff'
+        rows[:, 1] = zp
+        derivative = np.vecdot(self._wd, rows).sum(axis=-1)
+        return value.reshape(om.shape), derivative.reshape(om.shape)

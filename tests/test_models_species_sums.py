@@ -1,4 +1,4 @@
-"""em_magnetized.ScaledSum: the species sum of scaled_susceptibility at fixed k.
+"""Species sums at fixed k: em_magnetized.ScaledSum and es_magnetized.SpeciesSum.
 
 The reference is the builder itself (``scaled_susceptibility`` summed over species),
 which tests/test_models_magnetized.py checks against mpmath recomputations, published
@@ -81,3 +81,42 @@ def test_scaled_sum_declines_where_the_builders_must_serve() -> None:
     assert em.ScaledSum.for_species((ELECTRON, cold), k_par=1e3, k_perp=1e3, **kw) is None
     krook = Species("k", 1, M_PROTON, 1e18, 5.0, 5.0, collision_frequency=1e6)
     assert em.ScaledSum.for_species((ELECTRON, krook), k_par=1e3, k_perp=1e3, **kw) is None
+
+
+@pytest.mark.parametrize("angle", [5.0, 60.0, 89.0, 120.0])
+@pytest.mark.parametrize("kfac", [0.05, 0.4, 1.5 + 0.2j])
+def test_es_species_sum_matches_the_builder(angle: float, kfac: complex) -> None:
+    from kinroots.physics.models import es_magnetized as es
+
+    k = kfac * WPE / ELECTRON.thermal_speed_par
+    t = np.radians(angle)
+    k_par, k_perp = k * np.cos(t), k * np.sin(t)
+    fast = es.SpeciesSum.for_species(THREE, k_par=k_par, k_perp=k_perp, B=B0, tol=1e-14)
+    assert fast is not None
+    rng = np.random.default_rng(2)
+    om = np.concatenate([
+        (rng.uniform(-2.0, 2.0, 40) + 1j * rng.uniform(-0.05, 0.3, 40)) * WPE,
+        (rng.uniform(-3.0, 3.0, 20) + 1j * rng.uniform(-0.2, 0.5, 20)) * WCP,
+        [0.0, 1e-5 * WCP],
+    ])
+    with np.errstate(all="ignore"):
+        v, d = fast(om)
+        rv = rd = 0
+        for s in THREE:
+            r = es.susceptibility(om, s, k_par=k_par, k_perp=k_perp, B=B0, tol=1e-14)
+            rv = rv + r.value
+            rd = rd + r.derivative
+    ok = np.isfinite(rv)
+    assert ok.sum() > 50
+    # relative to the size of the terms: the species sum may cancel (1 + Σχ ≈ 0 at roots)
+    np.testing.assert_allclose(v[ok], rv[ok], rtol=1e-12, atol=1e-12 * np.abs(rv[ok]).max())
+    np.testing.assert_allclose(d[ok], rd[ok], rtol=1e-12, atol=1e-12 * np.abs(rd[ok]).max())
+
+
+def test_es_species_sum_declines_where_the_builder_must_serve() -> None:
+    from kinroots.physics.models import es_magnetized as es
+
+    kw = {"B": B0, "tol": 1e-14}
+    assert es.SpeciesSum.for_species(THREE, k_par=0.0, k_perp=1e3, **kw) is None
+    krook = Species("k", 1, M_PROTON, 1e18, 5.0, 5.0, collision_frequency=1e6)
+    assert es.SpeciesSum.for_species((ELECTRON, krook), k_par=1e3, k_perp=1e3, **kw) is None
