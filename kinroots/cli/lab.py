@@ -14,7 +14,9 @@ from rich.markup import escape
 
 from kinroots.cli._common import (
     EXIT_BAD_INPUT,
+    EXIT_INTERRUPTED,
     CaseArg,
+    CtrlC,
     DefaultOpt,
     FigureFormat,
     FigureFormatOpt,
@@ -68,13 +70,14 @@ def launch_command(
     check_output_dir(output)
     console = stderr_console()
     n = len(loaded.launch.frequencies_hz)
-    with Progress(
+    with CtrlC() as stop, Progress(
         TextColumn("[bold]launching[/bold] {task.description}"), BarColumn(),
         TextColumn("{task.completed}/{task.total} f"), TimeElapsedColumn(),
         console=console, transient=True,
     ) as bar:
         task = bar.add_task(escape(loaded.title), total=n)
-        res = launch_mod.launch(loaded, progress=lambda d, t: bar.update(task, completed=d))
+        res = launch_mod.launch(loaded, progress=lambda d, t: bar.update(task, completed=d),
+                                should_stop=stop)
     rows = launch_mod.launch_rows(res)
     columns = launch_mod.launch_columns(loaded)
     u = loaded.units
@@ -97,6 +100,7 @@ def launch_command(
         "surveys": [{"freq_hz": f, "count": s.count, "found": len(s.values),
                      "complete": s.complete} for f, s in res.surveys],
         "failed_points": res.failed_points,
+        "interrupted": res.interrupted,
         "notes": res.notes,
     })
     summary.pop("fastest_growing", None)
@@ -120,6 +124,10 @@ def launch_command(
     for note in res.notes:
         console.print(f"note: {note}")
     console.print(written(output / "launch.csv", output / "launch.json", fig_path))
+    if res.interrupted:
+        console.print("interrupted: the tables hold the frequencies done before Ctrl-C "
+                      "(launch.json: interrupted = true)", style="red")
+        raise typer.Exit(EXIT_INTERRUPTED)
     if res.failed_points:
         console.print(f"{res.failed_points} point(s) failed: flagged in the table", style="red")
         raise typer.Exit(1)

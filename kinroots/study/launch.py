@@ -30,7 +30,7 @@ from kinroots.physics.models.species_models import branch_point_note
 from kinroots.roots import RootResult, SurveyResult
 from kinroots.study.problem import SpatialFunction, spatial_roots
 from kinroots.study.rows import with_note
-from kinroots.study.solve import TracedBranch, follow_branches
+from kinroots.study.solve import INTERRUPTED, TracedBranch, follow_branches
 
 __all__ = [
     "LAUNCH_COLUMNS",
@@ -80,6 +80,11 @@ class LaunchResult:
     notes: list[str]
 
     @property
+    def interrupted(self) -> bool:
+        """True when the trace was stopped before the last frequency (``should_stop``)."""
+        return any(n.startswith(INTERRUPTED) for n in self.notes)
+
+    @property
     def failed_points(self) -> int:
         """Failed points plus incomplete surveys (the CLI's exit code 1)."""
         n = sum(1 for b in self.branches for r in b.points.values() if not r.converged)
@@ -93,6 +98,7 @@ def launch(
     frequencies_hz: Sequence[float] | None = None,
     box: tuple[float, float, float, float] | None = None,
     progress: Callable[[int, int], None] | None = None,
+    should_stop: Callable[[], bool] | None = None,
 ) -> LaunchResult:
     """Complex wavenumbers of the waves launched at each real frequency.
 
@@ -106,6 +112,9 @@ def launch(
         Search box in normalized k, Re k > 0 (default: ``case.launch`` k_real, k_imag).
     progress : callable, optional
         ``progress(done, total)`` after each frequency.
+    should_stop : callable, optional
+        Asked between batches of frequencies; True stops there (Ctrl-C), keeping the
+        frequencies done (`LaunchResult.interrupted`).
 
     Returns
     -------
@@ -129,6 +138,7 @@ def launch(
         resurvey_every=case.solver.resurvey_every,
         label=lambda w: f"f = {w * case.units.omega_unit / (2.0 * math.pi):.6g} Hz",
         progress=progress,
+        should_stop=should_stop,
     )
     to_hz = {w: float(f) for w, f in zip(om, freqs, strict=True)}
     surveys = [(to_hz[w], s) for w, s in surveys_w]
