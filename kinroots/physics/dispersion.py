@@ -120,14 +120,18 @@ def _cos_sin_deg(angle_deg: float) -> tuple[float, float]:
 
 def _det_and_cofactors(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """det M and the cofactor matrix C (C_ij = ∂ det M / ∂M_ij) of stacked 3×3 M."""
-    c = np.empty_like(m)
-    for i in range(3):
-        i1, i2 = (i + 1) % 3, (i + 2) % 3
-        for j in range(3):
-            j1, j2 = (j + 1) % 3, (j + 2) % 3
-            c[..., i, j] = m[..., i1, j1] * m[..., i2, j2] - m[..., i1, j2] * m[..., i2, j1]
-    det = np.sum(m[..., 0, :] * c[..., 0, :], axis=-1)
-    return det, c
+    # C_ij = M[i1, j1] M[i2, j2] − M[i1, j2] M[i2, j1], i1 = i+1, i2 = i+2 (mod 3), for all
+    # (i, j) at once by index arrays (the same products as entry by entry)
+    a = m[..., _I1, _J1] * m[..., _I2, _J2]
+    a -= m[..., _I1, _J2] * m[..., _I2, _J1]
+    det = np.sum(m[..., 0, :] * a[..., 0, :], axis=-1)
+    return det, a
+
+
+_ROWS = np.arange(3)[:, None] + np.zeros(3, dtype=int)
+_COLS = np.zeros(3, dtype=int)[:, None] + np.arange(3)
+_I1, _I2 = (_ROWS + 1) % 3, (_ROWS + 2) % 3
+_J1, _J2 = (_COLS + 1) % 3, (_COLS + 2) % 3
 
 
 def _nan_where(bad: np.ndarray, d: np.ndarray, dd: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
