@@ -75,21 +75,21 @@ _NODES_INT = _nodes(0.0)
 _NODES_HALF = _nodes(0.5)
 
 
-def _node_table(index: int) -> np.ndarray:
-    """Rows (integer grid, half-integer grid) of t_k² (index 0) or weights (index 1), the
-    shorter row padded with zero-weight nodes so that both grids fit one array."""
-    size = max(len(_NODES_INT), len(_NODES_HALF))
-    table = np.zeros((2, size))
-    if index == 0:
-        table[:] = 4.0 * _T_MAX * _T_MAX  # padding: far from every pole, weight 0
-    for row, nodes in enumerate((_NODES_INT, _NODES_HALF)):
-        table[row, : len(nodes)] = [node[index] for node in nodes]
-    return table
+def _node_arrays(nodes: tuple[tuple[float, float], ...]) -> tuple[np.ndarray, np.ndarray]:
+    """t_k² and the weights of one grid as arrays."""
+    return np.array([t2 for t2, _ in nodes]), np.array([w for _, w in nodes])
 
 
-#: t_k² and weights of both grids (row 0: t = kh, row 1: t = (k + ½)h).
-_T2_TABLE = _node_table(0)
-_W_TABLE = _node_table(1)
+#: t_k² and weights of the integer grid (t = kh) and of the half-integer grid.
+_T2_INT, _W_INT = _node_arrays(_NODES_INT)
+_T2_HALF, _W_HALF = _node_arrays(_NODES_HALF)
+
+
+def _grid_sum(mr: np.ndarray, mi: np.ndarray, t2: np.ndarray, w: np.ndarray) -> np.ndarray:
+    """T = Σ_k w_k / (t_k² − s²) for s² = mr + i·mi (1-d), one grid for all points."""
+    d = t2 - mr[:, None]
+    g = w / (d * d + (mi * mi)[:, None])
+    return np.vecdot(g, d) + 1j * (g.sum(axis=1) * mi)
 
 
 def _as_complex(zeta: Any) -> NDArray[np.complex128]:
@@ -166,17 +166,18 @@ def _f_trapezoid(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
     the upper sign for integer nodes, the lower for half-integer nodes, with an error of
     order ``exp(-π²/h²)``. For each point the grid whose nearest node is farther from
     ``Re s`` is used, so that no node sits near the pole; all points and nodes are summed
-    in one (points × nodes) array pass.
+    in one (points × nodes) array pass per grid.
     """
     frac = np.mod(s.real * (1.0 / _H), 1.0)
     half = (frac < 0.25) | (frac > 0.75)  # nearest integer node within h/4: half grid
-    row = half.view(np.int8)
     m = s * s
     mr = m.real
     mi = m.imag
-    d = _T2_TABLE[row] - mr[:, None]
-    g = _W_TABLE[row] / (d * d + (mi * mi)[:, None])
-    acc = np.einsum("ij,ij->i", g, d) + 1j * (g.sum(axis=1) * mi)
+    # each grid on its own points (the node arrays broadcast; no per-point node tables)
+    acc = np.empty_like(s)
+    other = ~half
+    acc[half] = _grid_sum(mr[half], mi[half], _T2_HALF, _W_HALF)
+    acc[other] = _grid_sum(mr[other], mi[other], _T2_INT, _W_INT)
     q_arg = (2.0j * np.pi / _H) * s
     sign = np.where(half, 1.0, -1.0)
     corr = (2.0j * _SQRT_PI) * s * np.exp(q_arg - m) * sign
