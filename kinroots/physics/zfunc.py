@@ -399,9 +399,35 @@ def _z_and_f_block(
     return z, f
 
 
+#: Up to this many points, Z and F are computed point by point in Python arithmetic
+#: (:func:`z_and_f_scalar`): below it that is cheaper than the array path's fixed cost of
+#: some hundred numpy calls (measured: 3 points 23 against 190 µs, 30 points 177 against
+#: 264 µs, 64 points 338 against 276 µs, on a loaded machine).
+_SCALAR_MAX = 32
+
+
+def _z_and_f_short(flat: NDArray[np.complex128]) -> tuple[NDArray, NDArray] | None:
+    """Z and F at a few finite points by :func:`z_and_f_scalar`; None (use the array
+    path) if a point is not finite or its exponential term overflows."""
+    values = flat.tolist()
+    if not all(cmath.isfinite(v) for v in values):
+        return None
+    try:
+        pairs = [z_and_f_scalar(v) for v in values]
+    except OverflowError:
+        return None
+    z = np.array([p[0] for p in pairs], dtype=complex)
+    f = np.array([p[1] for p in pairs], dtype=complex)
+    return z, f
+
+
 def _z_and_f(zeta: NDArray[np.complex128], want_f: bool = True) -> tuple[NDArray, NDArray]:
     """Z and F = 1 + ζZ (F only if ``want_f``) for a complex128 array of any shape."""
     flat = zeta.ravel()
+    if want_f and 1 < flat.size <= _SCALAR_MAX:
+        short = _z_and_f_short(flat)
+        if short is not None:
+            return short[0].reshape(zeta.shape), short[1].reshape(zeta.shape)
     with np.errstate(over="ignore", invalid="ignore", under="ignore", divide="ignore"):
         if flat.size <= _BLOCK:
             z, f = _z_and_f_block(flat, want_f)
