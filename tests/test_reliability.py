@@ -223,8 +223,10 @@ def test_ctrl_c_exits_130(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> No
 
 def test_at_nan_and_unwritable_output_refused_before_work(tmp_path: Path) -> None:
     path = small_case(tmp_path)
-    result = invoke("roots", str(path), "--at", "nan", "-o", str(tmp_path / "out"))
-    assert result.exit_code == 2 and "--at" in result.stderr
+    for at in ("nan", "inf", "1e300", "0"):
+        result = invoke("roots", str(path), "--at", at, "-o", str(tmp_path / "out"))
+        assert result.exit_code == 2 and "--at" in result.stderr
+        assert not (tmp_path / "out").exists()
     for cmd in ("solve", "roots"):
         result = invoke(cmd, str(path), "-o", str(path / "inside-a-file"))
         assert result.exit_code == 2, (cmd, result.stderr)

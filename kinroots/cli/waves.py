@@ -144,8 +144,11 @@ def roots(
     if at is None:
         at = float(loaded.k_values[0])
         err(f"kinroots: no --at given; using the first scan point k = {at:g}")
-    if not (math.isfinite(at) and at > 0):
-        err(f"error: option --at: {at!r}: expected a finite wavenumber > 0")
+    from kinroots.io.limits import LIMITS
+
+    if not (math.isfinite(at) and LIMITS["scan.k"](at)):
+        err(f"error: option --at: {at!r}: expected a wavenumber, "
+            f"{LIMITS['scan.k'].expected()}")
         raise typer.Exit(EXIT_BAD_INPUT)
     check_output_dir(output)
     console = stderr_console()
