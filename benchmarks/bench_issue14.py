@@ -33,11 +33,11 @@ import timeit
 from pathlib import Path
 
 import numpy as np
+from bench_dispersion import plasma  # the same three species (this folder is on sys.path)
 from scipy.special import ive, wofz
 
 from kinroots.physics.dispersion import Dispersion
 from kinroots.physics.models._harmonics import bessel_weights
-from kinroots.physics.plasma import AMU, M_ELECTRON, M_PROTON, Plasma, Species
 from kinroots.physics.zfunc import plasma_z_and_prime
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -49,32 +49,26 @@ def timed(f, number: int, repeat: int = 7) -> tuple[float, float]:
     return ts[0], ts[len(ts) // 2]
 
 
-def plasma(B: float) -> Plasma:
-    return Plasma(
-        (
-            Species("e", -1, M_ELECTRON, 1.0e19, 10.0, 10.0),
-            Species("p", 1, M_PROTON, 0.9e19, 5.0, 12.0),
-            Species("alpha", 2, 4.001506 * AMU, 0.05e19, 20.0, 20.0),
-        ),
-        B=B,
-    )
-
-
 def row(name: str, ratio: float, floor: float, goal: float, extra: str = "") -> None:
     mark = "goal met" if ratio <= goal else ("floor met" if ratio <= floor else "NOT MET")
     print(f"{name:52s} {ratio:8.2f}   floor <= {floor:<6g} goal <= {goal:<6g} {mark}"
           + (f"   ({extra})" if extra else ""))
 
 
-def single_omega_em() -> None:
-    pl = plasma(1.0)
+def one_omega(B: float, angle: float, model: str, number: int):
+    """The plasma, k, the Dispersion, one ω and the (min, median) time of D there."""
+    pl = plasma(B)
     e = pl.species[0]
     wpe = e.plasma_frequency
     k = 0.3 * wpe / e.thermal_speed_par
-    disp = Dispersion(pl, k=k, angle_deg=45.0, model="em", omega_ref=wpe)
+    disp = Dispersion(pl, k=k, angle_deg=angle, model=model, omega_ref=wpe)
     one = np.array([1.1 * wpe + 0.05j * wpe])
     disp(one)
-    t_d, m_d = timed(lambda: disp(one), 300)
+    return pl, k, disp, one, timed(lambda: disp(one), number)
+
+
+def single_omega_em() -> None:
+    pl, k, disp, one, (t_d, m_d) = one_omega(1.0, 45.0, "em", 300)
     # the special functions of that call: wofz on every ζ_n, ive per species
     zetas = []
     lams = []
@@ -107,14 +101,7 @@ def single_omega_em() -> None:
 
 
 def single_omega_es() -> None:
-    pl = plasma(0.0)
-    e = pl.species[0]
-    wpe = e.plasma_frequency
-    k = 0.3 * wpe / e.thermal_speed_par
-    disp = Dispersion(pl, k=k, angle_deg=30.0, model="es", omega_ref=wpe)
-    one = np.array([1.1 * wpe + 0.05j * wpe])
-    disp(one)
-    t_d, m_d = timed(lambda: disp(one), 3000)
+    pl, k, disp, one, (t_d, m_d) = one_omega(0.0, 30.0, "es", 3000)
     zeta = np.array([(one[0] - 0.0) / (k * s.thermal_speed_par) for s in pl.species])
     t_f, m_f = timed(lambda: wofz(zeta), 3000)
     row("single-omega D / special functions, ES", t_d / t_f, 5, 2,

@@ -29,7 +29,7 @@ import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 from scipy.special import ive
@@ -515,6 +515,38 @@ def harmonics_needed(species: Species, *, k_perp: complex, B: float, tol: float)
         if B != 0 and cmath.isfinite(lam):
             needed = max(needed, int(bessel_weights(lam, tol).harmonics))
     return needed
+
+
+def fixed_k_sum(cls: Callable[..., Any], species: tuple[Species, ...], *, k_par: complex,
+                B: float, **kwargs: Any) -> Any:
+    """``cls(species, k_par=…, B=…, **kwargs)``, a species sum at fixed k, or None where
+    the builders must serve instead: k∥ = 0, no species, B = 0, a species that is not one
+    plain collisionless bi-Maxwellian, a non-finite constant (``cls`` raises ValueError
+    or an arithmetic error, or one of its ``constant_arrays()`` is not finite) or a
+    harmonic sum that does not converge (:func:`species_setup` raises)."""
+    if complex(k_par) == 0 or not species or B == 0:
+        return None
+    if not all(getattr(s, "is_plain_maxwellian", True) and s.collision_frequency == 0.0
+               for s in species):
+        return None
+    try:
+        with np.errstate(all="ignore"):
+            out = cls(tuple(species), k_par=k_par, B=B, **kwargs)
+    except (ValueError, ZeroDivisionError, OverflowError):
+        return None
+    if not all(np.all(np.isfinite(x)) for x in out.constant_arrays()):
+        return None
+    return out
+
+
+def species_setup(species: Species, *, k_par: complex, k_perp: complex, B: float, tol: float,
+                  model: str) -> SpeciesSetup:
+    """:func:`prepare_species` for one species of a fixed-k sum; ValueError where the
+    builder would return NaN (non-finite constants, no converged harmonic sum)."""
+    setup = prepare_species((), species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model=model)
+    if isinstance(setup, Susceptibility):
+        raise ValueError("non-finite species constants or no converged harmonic sum")
+    return setup
 
 
 #: Number of ω at one k from which an array-k call evaluates that k with shared weights

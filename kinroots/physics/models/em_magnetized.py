@@ -13,9 +13,11 @@ from kinroots.physics.models._harmonics import (
     BesselWeights,
     SpeciesSetup,
     evaluate,
+    fixed_k_sum,
     harmonic_sums,
     landau_sign,
     landau_z,
+    species_setup,
 )
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
@@ -545,8 +547,6 @@ class ScaledSum:
 
     def __init__(self, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
                  B: float, tol: float, omega_ref: float) -> None:
-        from kinroots.physics.models._harmonics import prepare_species
-
         kpar, kperp = complex(k_par), complex(k_perp)
         consts = []
         cols = []
@@ -559,10 +559,8 @@ class ScaledSum:
         self.harmonics: dict[str, int] = {}
         sign = landau_sign(kpar)
         for s in species:
-            setup = prepare_species((), s, k_par=kpar, k_perp=kperp, B=B, tol=tol,
-                                    model="em_magnetized")
-            if isinstance(setup, Susceptibility):
-                raise ValueError("non-finite species constants or no converged harmonic sum")
+            setup = species_setup(s, k_par=kpar, k_perp=kperp, B=B, tol=tol,
+                                  model="em_magnetized")
             w = setup.weights
             self.harmonics[s.name] = w.harmonics
             lam = setup.lam
@@ -607,24 +605,15 @@ class ScaledSum:
     @classmethod
     def for_species(cls, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
                     B: float, tol: float, omega_ref: float) -> ScaledSum | None:
-        """The sum, or None where the builders' general path must serve: k∥ = 0, a species
-        that is not one plain collisionless bi-Maxwellian, a non-finite constant or a
-        harmonic sum that does not converge."""
-        if complex(k_par) == 0 or not species or B == 0:
-            return None
-        if not all(getattr(s, "is_plain_maxwellian", True) and s.collision_frequency == 0.0
-                   for s in species):
-            return None
-        try:
-            with np.errstate(all="ignore"):
-                out = cls(tuple(species), k_par=k_par, k_perp=k_perp, B=B, tol=tol,
-                          omega_ref=omega_ref)
-        except (ValueError, ZeroDivisionError, OverflowError):
-            return None
-        finite = [out._nw, out._nwt, out._inv_sa, out._fixed, out._slope]
-        if not all(np.all(np.isfinite(x)) for x in finite):
-            return None
+        """The sum, or None where the builders' general path must serve
+        (:func:`kinroots.physics.models._harmonics.fixed_k_sum`)."""
+        out: ScaledSum | None = fixed_k_sum(cls, species, k_par=k_par, k_perp=k_perp, B=B,
+                                            tol=tol, omega_ref=omega_ref)
         return out
+
+    def constant_arrays(self) -> tuple[np.ndarray, ...]:
+        """The per-k arrays (checked finite by ``fixed_k_sum``)."""
+        return (self._nw, self._nwt, self._inv_sa, self._fixed, self._slope)
 
     def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Σ_s S_s and Σ_s dS_s/dω, shaped ``omega.shape + (3, 3)`` (call under

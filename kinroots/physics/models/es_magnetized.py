@@ -12,9 +12,11 @@ import numpy as np
 from kinroots.physics.models._harmonics import (
     SpeciesSetup,
     evaluate,
+    fixed_k_sum,
     harmonic_sums,
     is_array_k,
     landau_sign,
+    species_setup,
 )
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
@@ -180,16 +182,12 @@ class SpeciesSum:
 
     def __init__(self, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
                  B: float, tol: float) -> None:
-        from kinroots.physics.models._harmonics import prepare_species
-
         kpar, kperp = complex(k_par), complex(k_perp)
         sign = landau_sign(kpar)
         shift, nw, inv_sa, w_f, w_z, w_q, w_zp = ([] for _ in range(7))
         for s in species:
-            setup = prepare_species((), s, k_par=kpar, k_perp=kperp, B=B, tol=tol,
-                                    model="es_magnetized")
-            if isinstance(setup, Susceptibility):
-                raise ValueError("non-finite species constants or no converged harmonic sum")
+            setup = species_setup(s, k_par=kpar, k_perp=kperp, B=B, tol=tol,
+                                  model="es_magnetized")
             w = setup.weights
             a = kpar * setup.w_par
             n_om = w.n * setup.omega_c
@@ -214,22 +212,15 @@ class SpeciesSum:
     @classmethod
     def for_species(cls, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
                     B: float, tol: float) -> SpeciesSum | None:
-        """The sum, or None where the builder must serve: k∥ = 0, a species that is not one
-        plain collisionless bi-Maxwellian, a non-finite constant or a harmonic sum that
-        does not converge."""
-        if complex(k_par) == 0 or not species or B == 0:
-            return None
-        if not all(getattr(s, "is_plain_maxwellian", True) and s.collision_frequency == 0.0
-                   for s in species):
-            return None
-        try:
-            with np.errstate(all="ignore"):
-                out = cls(tuple(species), k_par=k_par, k_perp=k_perp, B=B, tol=tol)
-        except (ValueError, ZeroDivisionError, OverflowError):
-            return None
-        if not all(np.all(np.isfinite(x)) for x in (out._nw, out._inv_sa, out._wv, out._wd)):
-            return None
+        """The sum, or None where the builder must serve
+        (:func:`kinroots.physics.models._harmonics.fixed_k_sum`)."""
+        out: SpeciesSum | None = fixed_k_sum(cls, species, k_par=k_par, k_perp=k_perp, B=B,
+                                             tol=tol)
         return out
+
+    def constant_arrays(self) -> tuple[np.ndarray, ...]:
+        """The per-k arrays (checked finite by ``fixed_k_sum``)."""
+        return (self._nw, self._inv_sa, self._wv, self._wd)
 
     def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Σ_s χ_s(ω) and Σ_s ∂χ_s/∂ω, shaped like ``omega`` (call under
