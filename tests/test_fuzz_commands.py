@@ -142,7 +142,7 @@ def test_check_and_plasma_survive_mutations(case: tuple, command: str) -> None:
 
 
 @pytest.mark.slow
-@settings(max_examples=EXAMPLES or 20, deadline=None,
+@settings(max_examples=EXAMPLES or 60, deadline=None,
           suppress_health_check=[HealthCheck.too_slow])
 @given(case=mutated_cases(),
        command=st.sampled_from(["solve", "roots", "launch", "scatter", "sweep", "threshold"]))
