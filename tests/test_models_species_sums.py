@@ -120,3 +120,27 @@ def test_es_species_sum_declines_where_the_builder_must_serve() -> None:
     assert es.SpeciesSum.for_species(THREE, k_par=0.0, k_perp=1e3, **kw) is None
     krook = Species("k", 1, M_PROTON, 1e18, 5.0, 5.0, collision_frequency=1e6)
     assert es.SpeciesSum.for_species((ELECTRON, krook), k_par=1e3, k_perp=1e3, **kw) is None
+
+
+@pytest.mark.parametrize("model", ["em", "es"])
+def test_dispersion_with_the_sums_keeps_shapes_and_nan(model: str) -> None:
+    # the fixed-k sums serve Dispersion: empty, 0-d and 2-d ω keep their shapes, non-finite
+    # ω give NaN, and the values equal those of the builders' path
+    from kinroots.physics.dispersion import Dispersion
+    from kinroots.physics.plasma import Plasma
+
+    disp = Dispersion(Plasma(THREE, B=B0), k=0.4 * WPE / ELECTRON.thermal_speed_par,
+                      angle_deg=50.0, model=model, omega_ref=WPE)
+    assert (disp._scaled_sum if model == "em" else disp._species_sum) is not None
+    assert disp(np.array([], dtype=complex))[0].shape == (0,)
+    assert disp(np.zeros((2, 0)))[1].shape == (2, 0)
+    assert disp(0.7 * WPE)[0].shape == ()
+    om = np.array([[0.7 * WPE, (1.3 + 0.1j) * WPE, np.nan], [np.inf, 0.2j * WPE, 2.0 * WPE]])
+    d, dd = disp(om)
+    assert d.shape == dd.shape == (2, 3)
+    assert np.isnan(d[0, 2]) and np.isnan(d[1, 0]) and np.isnan(dd[0, 2])
+    disp._scaled_sum = disp._species_sum = None  # the builders' path
+    d_ref, dd_ref = disp(om)
+    ok = np.isfinite(d_ref)
+    np.testing.assert_allclose(d[ok], d_ref[ok], rtol=1e-11)
+    np.testing.assert_allclose(dd[ok], dd_ref[ok], rtol=1e-11)

@@ -642,7 +642,7 @@ class ScaledSum:
             np.vecdot(cols, rows[:, 0:3, None, sl], out=sums[:, i, 0:21].reshape(m, 3, 7))
             np.vecdot(cols[3:6], rows[:, 3:5, None, sl], out=sums[:, i, 21:27].reshape(m, 2, 3))
             np.vecdot(cols[5], rows[:, 5:7, sl], out=sums[:, i, 27:29])
-        x = sums.reshape(m, 1, -1)
+        x = sums.reshape(m, 1, len(self._cols) * _PER_SPECIES)
         out = np.vecdot(self._fixed, x) + w * np.vecdot(self._slope, x)
         shape = om.shape + (3, 3)
         return out[:, :9].reshape(shape), out[:, 9:].reshape(shape)
