@@ -295,3 +295,22 @@ def test_ctrl_c_during_solve_keeps_the_points_done(monkeypatch: pytest.MonkeyPat
         ks = {float(r["k"]) for r in csv.DictReader(fh)}
     assert ks and max(ks) < data["scan"]["k"]["stop"]  # the points before Ctrl-C only
     assert len(summary["point_checks"]) == 6  # first k + one batch of 5
+
+
+@pytest.mark.skipif(os.name != "posix", reason="flock")
+def test_second_run_on_a_busy_folder_is_refused(tmp_path: Path) -> None:
+    import fcntl
+
+    out = tmp_path / "out"
+    out.mkdir()
+    fd = os.open(out, os.O_RDONLY)  # another run holds the folder
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        result = invoke("solve", str(small_case(tmp_path)), "-o", str(out))
+        assert result.exit_code == 2 and "another kinroots run" in result.stderr
+        assert not list(out.iterdir())
+    finally:
+        os.close(fd)
+    result = invoke("solve", str(small_case(tmp_path)), "-o", str(out))
+    assert result.exit_code in (0, 1)  # free again; and released after each run:
+    assert invoke("solve", str(small_case(tmp_path)), "-o", str(out)).exit_code in (0, 1)

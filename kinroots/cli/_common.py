@@ -162,6 +162,8 @@ def guarded(command: Callable[..., Any]) -> Callable[..., Any]:
             err(f"kinroots: internal error ({what}); this is a bug in kinroots, please "
                 f"report it; {where}")
             raise typer.Exit(EXIT_INTERNAL) from None
+        finally:
+            _release_folders()
 
     return run
 
@@ -295,6 +297,38 @@ def check_output_dir(out: Path) -> None:
         err(f"error: output {out}: cannot write there ({exc.strerror or exc}); expected a "
             "folder that can be created and written")
         raise typer.Exit(EXIT_BAD_INPUT) from None
+    _lock_folder(out)
+
+
+#: Output folders locked by the running command (released when it ends, see `guarded`).
+_HELD: list[int] = []
+
+
+def _lock_folder(out: Path) -> None:
+    """One command at a time per output folder: an exclusive lock on the folder itself
+    (no file is created), held until the command ends; exit 2 if another run holds it."""
+    import os
+
+    try:
+        import fcntl
+    except ImportError:  # not POSIX: no lock
+        return
+    fd = os.open(out, os.O_RDONLY)
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        os.close(fd)
+        err(f"error: output {out}: another kinroots run is writing into this folder; "
+            "expected one run per folder: wait for it to finish or use another folder")
+        raise typer.Exit(EXIT_BAD_INPUT) from None
+    _HELD.append(fd)
+
+
+def _release_folders() -> None:
+    import os
+
+    while _HELD:
+        os.close(_HELD.pop())
 
 
 
