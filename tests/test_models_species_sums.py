@@ -144,3 +144,34 @@ def test_dispersion_with_the_sums_keeps_shapes_and_nan(model: str) -> None:
     ok = np.isfinite(d_ref)
     np.testing.assert_allclose(d[ok], d_ref[ok], rtol=1e-11)
     np.testing.assert_allclose(dd[ok], dd_ref[ok], rtol=1e-11)
+
+
+@pytest.mark.parametrize("angle", [0.0, 30.0, 90.0, 135.0])
+@pytest.mark.parametrize("kfac", [0.05, 0.4, 1.5 + 0.2j])
+def test_unmagnetized_scaled_sum_matches_the_builder(angle: float, kfac: complex) -> None:
+    from kinroots.physics.models import em_unmagnetized as emu
+
+    k = kfac * WPE / ELECTRON.thermal_speed_par
+    t = np.radians(angle)
+    k_par, k_perp = k * np.cos(t), k * np.sin(t)
+    if angle == 90.0:
+        k_par = 0.0
+    fast = emu.ScaledSum.for_species(THREE, k_par=k_par, k_perp=k_perp, omega_ref=WPE)
+    assert fast is not None
+    rng = np.random.default_rng(3)
+    om = np.concatenate([
+        (rng.uniform(-2.0, 2.0, 40) + 1j * rng.uniform(-0.05, 0.3, 40)) * WPE,
+        (rng.uniform(-0.05, 0.05, 20) + 1j * rng.uniform(-0.01, 0.05, 20)) * WPE,
+        [0.0, 1e-7 * WPE, 1e-7j * WPE],
+    ])
+    with np.errstate(all="ignore"):
+        v, d = fast(om)
+        rv = rd = 0
+        for s in THREE:
+            r = emu.scaled_susceptibility(om, s, k_par=k_par, k_perp=k_perp, omega_ref=WPE)
+            rv = rv + r.value
+            rd = rd + r.derivative
+    ok = np.all(np.isfinite(rv), axis=(1, 2))
+    assert ok.sum() > 50
+    _close(v[ok], rv[ok], 1e-12)
+    _close(d[ok], rd[ok], 1e-12)

@@ -347,12 +347,12 @@ class Dispersion:
                                model=self.model, magnetized=self.magnetized, scaled=True)
             if self.electromagnetic else None
         )
-        #: Electromagnetic magnetized plasmas of plain species at k∥ ≠ 0: Σ_s S_s from the
-        #: module's ``ScaledSum`` (per-k weight columns cached, one Z call for every
+        #: Electromagnetic models with plain species (magnetized: k∥ ≠ 0): Σ_s S_s from the
+        #: module's ``ScaledSum`` (per-k constants cached, one Z or moment call for every
         #: species and harmonic); None where the builders serve.
         self._scaled_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
-        if self.electromagnetic and self.magnetized and plain_species(plasma.species):
-            module = importlib.import_module(_REGISTRY[(self.model, True)])
+        if self.electromagnetic and plain_species(plasma.species):
+            module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
             factory = getattr(module, "ScaledSum", None)
             if factory is not None:
                 self._scaled_sum = factory.for_species(

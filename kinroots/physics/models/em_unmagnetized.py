@@ -13,7 +13,7 @@ from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.models.es_unmagnetized import landau_moments, thermal_speeds_squared
 from kinroots.physics.plasma import Species
 
-__all__ = ["scaled_susceptibility", "susceptibility"]
+__all__ = ["ScaledSum", "scaled_susceptibility", "susceptibility"]
 
 
 def _bracket_linear(
@@ -262,3 +262,137 @@ def scaled_susceptibility(
         deriv[..., 0, 2] = deriv[..., 2, 0] = s_l * di1 * dz
         deriv[..., 2, 2] = -2.0 * wp2 * d1 / (kappa2 * kappa)
     return Susceptibility(value=value, derivative=deriv, harmonics=0)
+
+
+#: Moments per species handed to the linear maps of :class:`ScaledSum`: M_0 … M_3 and
+#: their ζ-derivatives.
+_MOMENTS = 8
+
+
+class ScaledSum:
+    r"""Σ_s S_s and Σ_s dS_s/dω of :func:`scaled_susceptibility` at one fixed k, all species
+    at once (plain collisionless drifting bi-Maxwellians).
+
+    Parameters
+    ----------
+    species : tuple of Species
+        The species (see :meth:`for_species`).
+    k_par, k_perp : complex
+        Wave-vector components [1/m] (scalars).
+    omega_ref : float
+        As for :func:`scaled_susceptibility`.
+    B, tol : float
+        Ignored (common signature).
+
+    Notes
+    -----
+    The formulas of :func:`scaled_susceptibility`, organized for fixed k: a call forms
+    ζ_s = (ω − k∥V_s)/κ_s of every species in one array and evaluates the Landau moments
+    there in one call; every entry of S and dS/dω is then a constant (the c − 1 terms)
+    plus a combination of M_0 … M_3, dM_0 … dM_3 with coefficients α + ωβ (ω enters
+    only through ζ in ζM_0 and M_0 + ζ dM_0). So the species sum is one fixed vector and
+    two fixed matrices per k, computed here by running the assembly on unit vectors
+    (:meth:`_assemble`), the ω-free part and the coefficient of ω separately. For a
+    species without drift ζM_0 stays the product ω·(M_0/κ), as in the builder.
+    """
+
+    def __init__(self, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
+                 omega_ref: float, B: float = 0.0, tol: float = 1e-14) -> None:
+        kpar, kperp = complex(k_par), complex(k_perp)
+        rows = []
+        for s in species:
+            wpar2, wperp2 = thermal_speeds_squared(s)
+            delta = wperp2 - wpar2
+            v = float(s.drift)
+            kappa2 = kperp * kperp * wperp2 + kpar * kpar * wpar2
+            kappa = np.sqrt(kappa2)
+            k = np.sqrt(kperp * kperp + kpar * kpar)
+            rows.append((
+                kpar * v, kappa, kappa2, k * k / kappa2,  # shift, κ, κ², q
+                kperp * kpar * delta / (k * kappa), -v * kperp / k,  # β₁, V₁
+                -delta * kperp * kpar * k / (2.0 * kappa2),  # g₁
+                (k * k) ** 2 * wperp2 * wpar2 / (kappa2 * kappa2),  # c₁
+                -delta * (kperp**4 * wperp2 - kpar**4 * wpar2) / (kappa2 * kappa2),  # c₁ − 1
+                k * k * wperp2 / kappa2, kpar * kpar * delta / kappa2,  # c₂, c₂ − 1
+                s.plasma_frequency**2, s.plasma_frequency**2 / (omega_ref * k),  # ω_p², s_l
+            ))
+        self._c = tuple(np.array(col, dtype=complex) for col in zip(*rows, strict=True))
+        self._s_t = 1.0 / omega_ref**2
+        n_in = _MOMENTS * len(species)
+        basis = np.eye(n_in, dtype=complex).reshape(n_in, len(species), _MOMENTS)
+        zero = np.zeros((1, len(species), _MOMENTS), dtype=complex)
+        const = np.concatenate(self._assemble(zero, "const"), axis=1).reshape(1, 18)
+        fixed = np.concatenate(self._assemble(basis, "fixed"), axis=1).reshape(n_in, 18)
+        slope = np.concatenate(self._assemble(basis, "slope"), axis=1).reshape(n_in, 18)
+        self._const = const[0]
+        self._fixed = np.ascontiguousarray(fixed.T.conj())  # for np.vecdot
+        self._slope = np.ascontiguousarray(slope.T.conj())
+        self._shift = self._c[0]
+        self._kappa = self._c[1]
+
+    @classmethod
+    def for_species(cls, species: tuple[Species, ...], *, k_par: complex, k_perp: complex,
+                    omega_ref: float, B: float = 0.0, tol: float = 1e-14) -> ScaledSum | None:
+        """The sum, or None where the builder must serve: no species, a species that is
+        not one plain collisionless bi-Maxwellian, or a constant that is not finite
+        (κ_s = 0 or k = 0 included)."""
+        if not species or not all(getattr(s, "is_plain_maxwellian", True)
+                                  and s.collision_frequency == 0.0 for s in species):
+            return None
+        try:
+            with np.errstate(all="ignore"):
+                out = cls(tuple(species), k_par=k_par, k_perp=k_perp, omega_ref=omega_ref)
+        except (ValueError, ZeroDivisionError, OverflowError):
+            return None
+        arrays = (*out._c, out._const, out._fixed, out._slope)
+        if not all(np.all(np.isfinite(x)) for x in arrays) or np.any(out._kappa == 0):
+            return None
+        return out
+
+    def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Σ_s S_s and Σ_s dS_s/dω, shaped ``omega.shape + (3, 3)`` (call under
+        ``np.errstate(all="ignore")``)."""
+        om = np.asarray(omega, dtype=complex)
+        w = om.reshape(-1, 1)
+        zeta = (w - self._shift) / self._kappa  # (ω, species)
+        moments, derivatives = landau_moments(zeta, order=3)
+        x = np.stack([*moments, *derivatives], axis=-1)  # (ω, species, 8)
+        x = x.reshape(w.shape[0], 1, self._shift.size * _MOMENTS)
+        out = self._const + np.vecdot(self._fixed, x) + w * np.vecdot(self._slope, x)
+        shape = om.shape + (3, 3)
+        return out[:, :9].reshape(shape), out[:, 9:].reshape(shape)
+
+    def _assemble(self, x: np.ndarray, part: str) -> tuple[np.ndarray, np.ndarray]:
+        """S and dS/dω (m, 3, 3), summed over species, from the moments ``x`` (m, species,
+        8): ``part`` "const" the terms free of moments, "fixed" the moment terms at ω = 0,
+        "slope" their coefficient of ω (formulas of :func:`scaled_susceptibility`)."""
+        (shift, kappa, kappa2, q, beta1, v1, g1, c1, c1m, c2, c2m, wp2, s_l) = self._c
+        m0, m1, m2, m3, d0, d1, d2, d3 = (x[..., i] for i in range(_MOMENTS))
+        zeta0 = -shift / kappa
+        if part == "slope":  # ζM_0 = (ω/κ)M_0 + ζ₀M_0, M_0 + ζ dM_0 = (ω/κ)dM_0 + …
+            zm0, dzm0, other, const = m0 / kappa, d0 / kappa, 0.0, 0.0
+        else:
+            zm0, dzm0 = zeta0 * m0, m0 + zeta0 * d0
+            other, const = (0.0, 1.0) if part == "const" else (1.0, 0.0)
+        b11 = const * c1m - c1 * zm0 - other * (
+            2.0 * q * (beta1 * beta1 * m3 + 2.0 * beta1 * v1 * m2 + v1 * v1 * m1)
+            + 4.0 * g1 * (beta1 * m1 + v1 * m0) / kappa)
+        db11 = -c1 * dzm0 - other * (
+            2.0 * q * (beta1 * beta1 * d3 + 2.0 * beta1 * v1 * d2 + v1 * v1 * d1)
+            + 4.0 * g1 * (beta1 * d1 + v1 * d0) / kappa)
+        b22 = const * c2m - c2 * zm0
+        db22 = -c2 * dzm0
+        i1 = other * -2.0 * (q * (v1 * m1 + beta1 * m2) + g1 * m0 / kappa)
+        di1 = other * -2.0 * (q * (v1 * d1 + beta1 * d2) + g1 * d0 / kappa)
+        s_t = self._s_t * wp2
+        value = np.zeros(x.shape[:1] + (3, 3), dtype=complex)
+        deriv = np.zeros_like(value)
+        value[:, 0, 0] = (s_t * b11).sum(axis=-1)
+        value[:, 1, 1] = (s_t * b22).sum(axis=-1)
+        value[:, 0, 2] = value[:, 2, 0] = (s_l * i1).sum(axis=-1)
+        value[:, 2, 2] = (other * -2.0 * wp2 * m1 / kappa2).sum(axis=-1)
+        deriv[:, 0, 0] = (s_t * db11 / kappa).sum(axis=-1)
+        deriv[:, 1, 1] = (s_t * db22 / kappa).sum(axis=-1)
+        deriv[:, 0, 2] = deriv[:, 2, 0] = (s_l * di1 / kappa).sum(axis=-1)
+        deriv[:, 2, 2] = (other * -2.0 * wp2 * d1 / (kappa2 * kappa)).sum(axis=-1)
+        return value, deriv
