@@ -11,6 +11,7 @@ in eV).
 from __future__ import annotations
 
 import cmath
+import functools
 import math
 from typing import Any
 
@@ -69,6 +70,27 @@ def _terms_needed(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return _A[:count], _N[:count]
 
 
+#: Up to this many points the series of :func:`_series_moments` are summed in Python.
+_SERIES_POINTS = 4
+
+
+@functools.lru_cache(maxsize=64)
+def _series_table(count: int, order: int) -> tuple[np.ndarray, tuple[tuple[float, ...], ...]]:
+    """The coefficient rows of :func:`_series_moments` for ``count`` terms (array, read-only,
+    and the same rows as tuples for the Python-arithmetic sums)."""
+    a, n = _A[:count], _N[:count]
+    rows = [a, (2 * n + 1) * a, a[1:], 2 * n[1:] * a[1:]]
+    if order >= 2:
+        rows.append((1 - 2 * n[1:]) * a[1:])
+    if order >= 3:
+        rows += [a[2:], (2 * n[2:] - 2) * a[2:]]
+    table = np.zeros((len(rows), count))
+    for r, row in enumerate(rows):
+        table[r, : row.size] = row
+    table.setflags(write=False)
+    return table, tuple(tuple(row) for row in table.tolist())
+
+
 def _series_moments(z: np.ndarray, order: int) -> tuple[list[np.ndarray], list[np.ndarray]]:
     """Moments M_0 … M_order and their ζ-derivatives for |ζ| ≥ _ZETA_SERIES.
 
@@ -78,27 +100,20 @@ def _series_moments(z: np.ndarray, order: int) -> tuple[list[np.ndarray], list[n
     """
     u = 1.0 / (z * z)
     zi = 1.0 / z
-    a, n = _terms_needed(z)
-    count = a.size
-    rows = [a, (2 * n + 1) * a, a[1:], 2 * n[1:] * a[1:]]
-    if order >= 2:
-        rows.append((1 - 2 * n[1:]) * a[1:])
-    if order >= 3:
-        rows += [a[2:], (2 * n[2:] - 2) * a[2:]]
-    table = np.zeros((len(rows), count))
-    for r, row in enumerate(rows):
-        table[r, : row.size] = row
-    if z.size == 1:  # one point: the same Horner sums in Python arithmetic
-        uu = complex(u.reshape(-1)[0])
+    count = _terms_needed(z)[0].size
+    table, rows_list = _series_table(count, order)
+    if z.size <= _SERIES_POINTS:  # a few points: the same Horner sums in Python arithmetic
         sums = []
-        for row in table.tolist():
-            s = complex(row[-1])
-            for c in row[-2::-1]:
-                s = s * uu + c
-            sums.append(s)
-        acc = np.array(sums, dtype=complex).reshape((-1,) + z.shape)
+        for uu in u.reshape(-1).tolist():
+            for row in rows_list:
+                s = complex(row[-1])
+                for c in row[-2::-1]:
+                    s = s * uu + c
+                sums.append(s)
+        acc = np.array(sums, dtype=complex).reshape(z.shape + (len(rows_list),))
+        acc = np.moveaxis(acc, -1, 0)
     else:
-        acc = np.empty((len(rows),) + z.shape, dtype=complex)
+        acc = np.empty((len(rows_list),) + z.shape, dtype=complex)
         acc[...] = table[:, -1].reshape((-1,) + (1,) * z.ndim)
         for j in range(count - 2, -1, -1):
             acc *= u
