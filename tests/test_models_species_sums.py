@@ -37,6 +37,13 @@ def _builder_sum(omega, k_par, k_perp, tol=1e-14):
     return v, d
 
 
+def _k(angle: float, kfac: complex) -> tuple[complex, complex]:
+    """k∥, k⊥ at ``angle`` degrees for |k| = kfac ω_pe/w_e (k∥ = 0 exactly at 90°)."""
+    k = kfac * WPE / ELECTRON.thermal_speed_par
+    t = np.radians(angle)
+    return (0.0 if angle == 90.0 else k * np.cos(t)), k * np.sin(t)
+
+
 def _close(a: np.ndarray, b: np.ndarray, rtol: float) -> None:
     # entry by entry, relative to the size of that entry over all ω (entries that vanish
     # identically compare absolutely against the matrix's scale)
@@ -47,9 +54,7 @@ def _close(a: np.ndarray, b: np.ndarray, rtol: float) -> None:
 @pytest.mark.parametrize("angle", [5.0, 45.0, 80.0, 100.0, 150.0])
 @pytest.mark.parametrize("kfac", [0.05, 0.4, 1.5 + 0.2j])
 def test_scaled_sum_matches_the_builders(angle: float, kfac: complex) -> None:
-    k = kfac * WPE / ELECTRON.thermal_speed_par
-    t = np.radians(angle)
-    k_par, k_perp = k * np.cos(t), k * np.sin(t)
+    k_par, k_perp = _k(angle, kfac)
     fast = em.ScaledSum.for_species(THREE, k_par=k_par, k_perp=k_perp, B=B0, tol=1e-14,
                                     omega_ref=WPE)
     assert fast is not None
@@ -88,9 +93,7 @@ def test_scaled_sum_declines_where_the_builders_must_serve() -> None:
 def test_es_species_sum_matches_the_builder(angle: float, kfac: complex) -> None:
     from kinroots.physics.models import es_magnetized as es
 
-    k = kfac * WPE / ELECTRON.thermal_speed_par
-    t = np.radians(angle)
-    k_par, k_perp = k * np.cos(t), k * np.sin(t)
+    k_par, k_perp = _k(angle, kfac)
     fast = es.SpeciesSum.for_species(THREE, k_par=k_par, k_perp=k_perp, B=B0, tol=1e-14)
     assert fast is not None
     rng = np.random.default_rng(2)
@@ -151,11 +154,7 @@ def test_dispersion_with_the_sums_keeps_shapes_and_nan(model: str) -> None:
 def test_unmagnetized_scaled_sum_matches_the_builder(angle: float, kfac: complex) -> None:
     from kinroots.physics.models import em_unmagnetized as emu
 
-    k = kfac * WPE / ELECTRON.thermal_speed_par
-    t = np.radians(angle)
-    k_par, k_perp = k * np.cos(t), k * np.sin(t)
-    if angle == 90.0:
-        k_par = 0.0
+    k_par, k_perp = _k(angle, kfac)
     fast = emu.ScaledSum.for_species(THREE, k_par=k_par, k_perp=k_perp, omega_ref=WPE)
     assert fast is not None
     rng = np.random.default_rng(3)
