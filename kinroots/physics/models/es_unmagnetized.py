@@ -559,9 +559,10 @@ class SpeciesSum:
             zeta = (om.reshape(1, -1) - shift) / kappa
             m1, dm1 = first_moment(zeta.ravel())
             n = zeta.shape[1]
-            # Σ_s as dot products (np.vecdot conjugates its first argument): no BLAS threads
-            value = np.vecdot(coef.conj()[:, None], m1.reshape(-1, n), axis=0)
-            derivative = np.vecdot(dcoef.conj()[:, None], dm1.reshape(-1, n), axis=0)
+            # Σ_s by numpy's own sum over the species axis (no BLAS threads; a strided
+            # np.vecdot along that axis is several times slower)
+            value = (coef[:, None] * m1.reshape(-1, n)).sum(axis=0)
+            derivative = (dcoef[:, None] * dm1.reshape(-1, n)).sum(axis=0)
         return value.reshape(om.shape), derivative.reshape(om.shape)
 
     def scalar_sum(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
