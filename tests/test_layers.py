@@ -137,8 +137,11 @@ def _cycles(eager_only: bool) -> set[str]:
         for t in graph.get(m, []):
             if t not in graph:
                 continue
-            if state.get(t) == 1:
-                cycles.add(" -> ".join([*stack[stack.index(t):], t]))
+            if state.get(t) == 1:  # written from its smallest module: order-independent
+                ring = stack[stack.index(t):]
+                first = ring.index(min(ring))
+                ring = ring[first:] + ring[:first]
+                cycles.add(" -> ".join([*ring, ring[0]]))
             elif t not in state:
                 visit(t)
         stack.pop()
@@ -157,11 +160,11 @@ def _cycles(eager_only: bool) -> set[str]:
 #: species to Krook; Krook reuses their Landau moments); rows and solve share the
 #: Solution type.
 KNOWN_LAZY_CYCLES = {
-    "kinroots.physics.models.krook -> kinroots.physics.models.es_magnetized -> "
-    "kinroots.physics.models.krook",
+    "kinroots.physics.models.es_magnetized -> kinroots.physics.models.krook -> "
+    "kinroots.physics.models.es_magnetized",
     "kinroots.physics.models.es_unmagnetized -> kinroots.physics.models.krook -> "
     "kinroots.physics.models.es_unmagnetized",
-    "kinroots.study.solve -> kinroots.study.rows -> kinroots.study.solve",
+    "kinroots.study.rows -> kinroots.study.solve -> kinroots.study.rows",
 }
 
 
