@@ -89,8 +89,8 @@ class BoundaryCounter:
     def __init__(self, box: Box, *, excluded: Sequence[complex] = (), n_init: int = 8,
                  min_fraction: float = 1e-7, exclusion_radius: float = 1e-8,
                  max_points: int = 4096) -> None:
-        self.box = tuple(float(v) for v in box)
-        x0, x1, y0, y1 = self.box
+        x0, x1, y0, y1 = (float(v) for v in box)
+        self.box: Box = (x0, x1, y0, y1)
         self.diameter = math.hypot(x1 - x0, y1 - y0)
         self.min_len = min_fraction * self.diameter
         self.max_points = max_points
@@ -128,7 +128,7 @@ class BoundaryCounter:
         if pairs is None and family is None:
             raise ValueError("give family or pairs")
 
-        def evaluate(idx: list[int], zs: list[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
+        def raw(idx: list[int], zs: list[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
             n = sum(z.size for z in zs)
             self.evaluations += n
             if pairs is not None:
@@ -149,10 +149,9 @@ class BoundaryCounter:
         poles = [np.array([complex(z) for z in (known[i] if known is not None else ())
                            if x0 < z.real < x1 and y0 < z.imag < y1], dtype=complex)
                  for i in range(m)]
-        raw = evaluate
 
-        def evaluate(idx: list[int], zs: list[np.ndarray]  # noqa: F811 - deflated
-                     ) -> list[tuple[np.ndarray, np.ndarray]]:
+        def evaluate(idx: list[int], zs: list[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
+            """``raw`` deflated by the known zeros of each p."""
             out = []
             for i, z, (f, d) in zip(idx, zs, raw(idx, zs), strict=True):
                 if poles[i].size:
@@ -227,11 +226,12 @@ class BoundaryCounter:
         for i, p in enumerate(ps):
             c = result[i]
             note = notes[i]
+            ex_i = ex[i]
             if c is not None:
-                if ex[i] is None:
+                if ex_i is None:
                     c, note = None, "winding around an excluded point not resolved"
                 else:
-                    c += poles[i].size - ex[i]
+                    c += poles[i].size - ex_i
             out.append(BoundaryCount(p, c, evals[i] + ex_evals[i], note))
         return out
 
@@ -261,6 +261,7 @@ class BoundaryCounter:
 
         def at(i: int) -> int | None:
             p = ps[i]
+            f: AnalyticFunction
             if pairs is not None:
                 def f(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
                     return pairs(np.full(np.shape(z), p), z)

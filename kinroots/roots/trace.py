@@ -43,7 +43,7 @@ import enum
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, overload
 
 import numpy as np
 
@@ -127,14 +127,18 @@ class Branch:
         self.end_reason, self.end_param, self.note, self.merged_with = reason, param, note, other
 
 
+@overload
+def _extrapolate(path: list[tuple[float, complex]], p: float, order: int) -> complex: ...
+@overload
+def _extrapolate(path: list[tuple[float, complex]], p: np.ndarray, order: int) -> np.ndarray: ...
 def _extrapolate(path: list[tuple[float, complex]], p: float | np.ndarray, order: int
                  ) -> complex | np.ndarray:
     """Lagrange polynomial through the last ``order + 1`` points of ``path``, at p (a float
     or an array of parameters)."""
     pts = path[-(order + 1):]
-    total = 0j
+    total: complex | np.ndarray = 0j
     for i, (pi, zi) in enumerate(pts):
-        w = 1.0
+        w: float | np.ndarray = 1.0
         for j, (pj, _) in enumerate(pts):
             if j != i:
                 w *= (p - pj) / (pi - pj)
@@ -229,7 +233,8 @@ class Tracer:
         block: int = 64,
     ) -> None:
         self.family = family
-        self.box = tuple(float(v) for v in box)
+        x0, x1, y0, y1 = (float(v) for v in box)
+        self.box: Box = (x0, x1, y0, y1)
         self.param = float(param)
         self.rtol, self.atol, self.maxiter = rtol, atol, maxiter
         self.min_step = min_step if min_step is not None else 1e-7 * max(1.0, abs(param))
