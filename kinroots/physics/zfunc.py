@@ -32,7 +32,7 @@ from __future__ import annotations
 import cmath
 import math
 from numbers import Number
-from typing import Any
+from typing import Any, Literal, TypeVar, overload
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -221,7 +221,10 @@ def _upper(s: NDArray[np.complex128]) -> tuple[NDArray[np.complex128], NDArray[n
     return z, f
 
 
-def _two_prod(a: NDArray[np.float64], b: NDArray[np.float64]) -> tuple[NDArray, NDArray]:
+_Real = TypeVar("_Real", float, NDArray[np.float64])
+
+
+def _two_prod(a: _Real, b: _Real) -> tuple[_Real, _Real]:
     """Exact product a·b = p + e (Dekker 1971 splitting; common practice)."""
     p = a * b
     c = 134217729.0 * a
@@ -333,7 +336,7 @@ def z_and_f_scalar(zeta: complex) -> tuple[complex, complex]:
         if r >= _R_SERIES:
             inv = 1.0 / s
             u = 0.5 * inv * inv
-            acc = _SERIES_COEF[-1]
+            acc: complex = _SERIES_COEF[-1]
             for c in _SERIES_COEF[-2::-1]:
                 acc = acc * u + c
             f = -u * acc
@@ -421,13 +424,21 @@ def _z_and_f_short(flat: NDArray[np.complex128]) -> tuple[NDArray, NDArray] | No
     return z, f
 
 
-def _z_and_f(zeta: NDArray[np.complex128], want_f: bool = True) -> tuple[NDArray, NDArray]:
-    """Z and F = 1 + ζZ (F only if ``want_f``) for a complex128 array of any shape."""
+@overload
+def _z_and_f(zeta: NDArray[np.complex128], want_f: Literal[True] = ...
+             ) -> tuple[NDArray, NDArray]: ...
+@overload
+def _z_and_f(zeta: NDArray[np.complex128], want_f: Literal[False]) -> tuple[NDArray, None]: ...
+def _z_and_f(zeta: NDArray[np.complex128], want_f: bool = True
+             ) -> tuple[NDArray, NDArray | None]:
+    """Z and F = 1 + ζZ (F only if ``want_f``, else None) for a complex128 array of any
+    shape."""
     flat = zeta.ravel()
     if want_f and 1 < flat.size <= _SCALAR_MAX:
         short = _z_and_f_short(flat)
         if short is not None:
             return short[0].reshape(zeta.shape), short[1].reshape(zeta.shape)
+    f: NDArray | None
     with np.errstate(over="ignore", invalid="ignore", under="ignore", divide="ignore"):
         if flat.size <= _BLOCK:
             z, f = _z_and_f_block(flat, want_f)
@@ -439,10 +450,10 @@ def _z_and_f(zeta: NDArray[np.complex128], want_f: bool = True) -> tuple[NDArray
                 z[i : i + _BLOCK] = zb
                 if fb is not None:
                     f[i : i + _BLOCK] = fb
-    return z.reshape(zeta.shape), (f.reshape(zeta.shape) if want_f else f)
+    return z.reshape(zeta.shape), (f.reshape(zeta.shape) if want_f and f is not None else None)
 
 
-def _finish(out: NDArray[np.complex128], scalar: bool) -> Any:
+def _finish(out: NDArray[Any], scalar: bool) -> Any:
     return out[()] if scalar else out
 
 

@@ -279,16 +279,16 @@ def kappa_transforms(
         good &= ~((depth > -_CUT_WIDTH * root)
                   & (np.abs(flat.real) < _CUT_WIDTH * (root + np.maximum(depth, 0.0))))
     if not good.any():
-        return tuple(o.reshape(shape) for o in out)  # type: ignore[return-value]
+        return _shaped(out, shape)
     if flat.size == 1 and good[0]:
         z0 = complex(flat[0])
         u0 = cmath.asinh(z0 / math.sqrt(kappa))
         frac = abs(u0.real) / grid_a.h
         near = abs(frac - round(frac)) < 0.25 and abs(u0.imag) < grid_a.h
         try:
-            vals = _one_point(z0, grid_b if near else grid_a, float(kappa), float(power),
-                              log_a, need_y)
-            return tuple(np.array([v]).reshape(shape) for v in vals)  # type: ignore[return-value]
+            one = _one_point(z0, grid_b if near else grid_a, float(kappa), float(power),
+                             log_a, need_y)
+            return _shaped([np.array([v]) for v in one], shape)
         except (ZeroDivisionError, OverflowError, ValueError):
             pass  # at a branch point or overflow: the array path gives inf/nan
     with np.errstate(all="ignore"):
@@ -302,7 +302,14 @@ def kappa_transforms(
                 vals = _on_grid(zg[mask], grid, float(kappa), float(power), log_a, need_y)
                 for o, v in zip(out, vals, strict=True):
                     o[idx[mask]] = v
-    return tuple(o.reshape(shape) for o in out)  # type: ignore[return-value]
+    return _shaped(out, shape)
+
+
+def _shaped(arrs: list[np.ndarray], shape: tuple[int, ...]
+            ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The four 1-d arrays Y, dY, F, dF reshaped to ``shape``."""
+    y, dy, f, df = (a.reshape(shape) for a in arrs)
+    return y, dy, f, df
 
 
 def kappa_z(zeta: np.ndarray, kappa: float) -> tuple[np.ndarray, np.ndarray]:
