@@ -132,8 +132,14 @@ def run_pool(
     except BaseException:
         for fut in pending:
             fut.cancel()
-        for proc in list(getattr(pool, "_processes", {}).values()):
+        procs = list(getattr(pool, "_processes", {}).values())
+        for proc in procs:
             proc.terminate()
-        pool.shutdown(wait=False, cancel_futures=True)
+        for proc in procs:
+            proc.join(timeout=5)
+        # Wait for the executor's manager thread too: with wait=False it can outlive the
+        # pool's pipes, and the interpreter's exit hook then fails on a closed descriptor
+        # (a traceback after Ctrl-C). The workers are gone, so this returns at once.
+        pool.shutdown(wait=True, cancel_futures=True)
         raise
     pool.shutdown(wait=True)
