@@ -9,6 +9,7 @@ the spatial problem, complex k at real ω).
 
 from __future__ import annotations
 
+import cmath
 import importlib
 import math
 from collections.abc import Callable
@@ -526,6 +527,58 @@ class Dispersion:
                 value = np.asarray(res.value)
                 out[s.name] = value if self.electromagnetic else value.reshape(om.shape)
         return out
+
+    def resonances(self, re_min: float, re_max: float) -> list[tuple[complex, float]]:
+        """Centres and widths [rad/s] of the narrow features of D near a real range.
+
+        Each species part (a Maxwellian or kappa species, or one component) resonates
+        where its Landau or cyclotron argument ζ = (ω − k∥V − nΩ)/(k w) is small: about
+        the real centre k∥V + nΩ (n = 0 unmagnetized, |n| ≤ the harmonics kept when
+        magnetized), over the width |k∥| w∥ (magnetized) or |k|w (unmagnetized,
+        w² = sin²θ w⊥² + cos²θ w∥²), widened to ν for a Krook species.  Within a few
+        widths of such a centre D can change by a large factor between samples that are
+        far apart on the scale of the window, so a root finder places samples there
+        first (:func:`kinroots.roots.find_roots`, ``features``).  The plasma-dispersion
+        function's argument is textbook (D. G. Swanson, *Plasma Waves*, 2nd ed., IOP
+        2003, ch. 4, from memory); the list is a sampling aid, not a physics result.
+
+        Centres within one window width ``re_max − re_min`` outside the range are
+        included (their features reach into a box's side edges); k∥ = 0 magnetized
+        harmonics are poles and listed by :meth:`singular_points` instead.  Sorted by
+        centre; one entry per centre (the narrowest width).
+        """
+        span = re_max - re_min
+        lo, hi = re_min - span, re_max + span
+        widths: dict[complex, float] = {}
+        kpar, kperp = complex(self.k_par), complex(self.k_perp)
+        for s in self.plasma.species:
+            for _, part in s.component_species():
+                wpar = math.sqrt(2.0 * part.temperature_par * EV / part.mass)
+                wperp = math.sqrt(2.0 * part.temperature_perp * EV / part.mass)
+                base = (kpar * part.drift).real
+                if self.magnetized:
+                    if kpar == 0:
+                        continue
+                    width = abs(kpar) * wpar
+                    om_c = abs(part.cyclotron_frequency(self.plasma.B))
+                    n_max = self.harmonics.get(s.name, 0)
+                    if om_c > 0 and n_max > 0:
+                        n_lo = max(-n_max, math.ceil((lo - base) / om_c))
+                        n_hi = min(n_max, math.floor((hi - base) / om_c))
+                        centres = [base + n * om_c for n in range(n_lo, n_hi + 1)]
+                    else:
+                        centres = [base] if lo <= base <= hi else []
+                else:
+                    width = abs(cmath.sqrt(kperp * kperp * wperp * wperp
+                                           + kpar * kpar * wpar * wpar))
+                    centres = [base] if lo <= base <= hi else []
+                width = max(width, float(s.collision_frequency))
+                if not (math.isfinite(width) and width > 0):
+                    continue
+                for c in centres:
+                    key = complex(c, 0.0)
+                    widths[key] = min(width, widths.get(key, math.inf))
+        return sorted(widths.items(), key=lambda item: item[0].real)
 
     def singular_points(
         self, re_min: float, re_max: float, im_min: float, im_max: float

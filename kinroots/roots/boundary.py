@@ -31,7 +31,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kinroots.roots.contour import circle_contour, segment_ok
+from kinroots.roots.contour import circle_contour, feature_params, rectangle_edges, segment_ok
 from kinroots.roots.result import AnalyticFunction, Box, CountedFunction
 
 __all__ = ["BoundaryCount", "BoundaryCounter"]
@@ -84,11 +84,22 @@ class BoundaryCounter:
         Radius of the circles around excluded points, relative to the box diameter.
     max_points : int
         Largest loop; beyond it the count is ``None``.
+    features : callable, optional
+        ``features(p)``: narrow features of f_p, (centre, width), as for
+        :func:`kinroots.roots.find_roots`.  Each batch's loops get the points
+        :func:`kinroots.roots.contour.feature_params` places about the features of its
+        first and last p (uniform or thinned samples can step over a narrow resonance
+        and miss whole windings); thinning never removes them for long, since they are
+        added again to every batch.
     """
 
     def __init__(self, box: Box, *, excluded: Sequence[complex] = (), n_init: int = 8,
                  min_fraction: float = 1e-7, exclusion_radius: float = 1e-8,
-                 max_points: int = 4096) -> None:
+                 max_points: int = 4096,
+                 features: Callable[[float], Sequence[tuple[complex, float]]] | None = None,
+                 ) -> None:
+        self.features = features
+        self.n_init = n_init
         x0, x1, y0, y1 = (float(v) for v in box)
         self.box: Box = (x0, x1, y0, y1)
         self.diameter = math.hypot(x1 - x0, y1 - y0)
@@ -163,7 +174,10 @@ class BoundaryCounter:
                 out.append((f, d))
             return out
 
-        zl = [self.loop.copy() for _ in range(m)]
+        loop = self.loop
+        if self.features is not None:
+            loop = self._with_features(loop, [*self.features(ps[0]), *self.features(ps[-1])])
+        zl = [loop.copy() for _ in range(m)]
         fd = evaluate(list(range(m)), zl)
         fl = [a for a, _ in fd]
         dl = [b for _, b in fd]
@@ -236,6 +250,29 @@ class BoundaryCounter:
         return out
 
     # -- internals ----------------------------------------------------------------
+    def _perimeter(self, z: np.ndarray) -> np.ndarray:
+        """Position of boundary points along the loop: edge index + fraction (0 … 4)."""
+        x0, x1, y0, y1 = self.box
+        x, y = z.real, z.imag
+        return np.select(
+            [(y == y0) & (x < x1), x == x1, y == y1],
+            [(x - x0) / (x1 - x0), 1 + (y - y0) / (y1 - y0), 2 + (x1 - x) / (x1 - x0)],
+            3 + (y1 - y) / (y1 - y0),
+        )
+
+    def _with_features(self, loop: np.ndarray, features: Sequence[tuple[complex, float]]
+                       ) -> np.ndarray:
+        """``loop`` with the feature points of every edge merged in, in loop order."""
+        if not features:
+            return loop
+        extra = []
+        for e in rectangle_edges(self.box):
+            spacing = abs(e.t1 - e.t0) / self.n_init
+            extra.append(e.point(feature_params(e, features, spacing)))
+        z = np.concatenate([loop, *extra])
+        _, idx = np.unique(self._perimeter(z), return_index=True)
+        return z[idx]
+
     def _thin(self, z: np.ndarray, f: np.ndarray, d: np.ndarray) -> np.ndarray:
         """Mask of samples to keep: every other one whose neighbours pass without it."""
         keep = np.ones(z.size, dtype=bool)

@@ -101,10 +101,12 @@ class _Survey:
         max_evaluations: int,
         cluster_size: int,
         exclusion_radius: float,
+        features: Sequence[tuple[complex, float]] = (),
     ) -> None:
         self.f_user = f
         self.func = CountedFunction(f)
-        self.sampler = BoundarySampler(self.func, max_evaluations=max_evaluations)
+        self.sampler = BoundarySampler(self.func, max_evaluations=max_evaluations,
+                                       features=features)
         self.box = box
         self.diam0 = _diameter(box)
         self.excluded = np.asarray(list(excluded), dtype=complex)
@@ -526,6 +528,7 @@ def find_roots(
     max_evaluations: int = 50_000,
     cluster_size: int = 4,
     exclusion_radius: float = 1e-8,
+    features: Sequence[tuple[complex, float]] = (),
 ) -> SurveyResult:
     """All zeros of an analytic function in a rectangle of the complex plane.
 
@@ -550,6 +553,12 @@ def find_roots(
         Cells with at most this many zeros are solved by the moment method first.
     exclusion_radius : float
         Radius of the disks around excluded points, relative to the box diameter.
+    features : sequence of (complex, float)
+        Points near which f changes on a length scale (the float) much shorter than the
+        box, e.g. a resonance of width w.  Sampling a line starts with points spaced
+        geometrically about each one's projection (:class:`BoundarySampler`): uniform
+        samples that step over a narrow feature can each pass the phase test and
+        miss whole windings (a zero next to a cyclotron harmonic, common practice).
 
     Returns
     -------
@@ -572,6 +581,6 @@ def find_roots(
     survey = _Survey(
         f, (x0, x1, y0, y1), excluded, rtol=rtol, atol=atol, max_depth=max_depth,
         max_evaluations=max_evaluations, cluster_size=cluster_size,
-        exclusion_radius=exclusion_radius,
+        exclusion_radius=exclusion_radius, features=features,
     )
     return survey.run()

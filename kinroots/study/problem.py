@@ -121,6 +121,15 @@ class NormalizedDispersion:
         pts = self.dispersion.singular_points(*(v * w_u for v in box))
         return [p / w_u for p in pts]
 
+    def features(self, box: tuple[float, float, float, float]) -> list[tuple[complex, float]]:
+        """Narrow features of D near the box (centre, width), normalized.
+
+        See :meth:`kinroots.physics.dispersion.Dispersion.resonances`.
+        """
+        w_u = self.dispersion.omega_ref
+        return [(c / w_u, w / w_u)
+                for c, w in self.dispersion.resonances(box[0] * w_u, box[1] * w_u)]
+
 
 def function_at(case: Case, k: float) -> NormalizedDispersion:
     """The normalized dispersion function of ``case`` at normalized ``k``."""
@@ -164,7 +173,8 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     # pole.
     dr, di = 0.05 * (b[1] - b[0]), 0.05 * (b[3] - b[2])
     wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
-    res = find_roots(f, b, excluded=f.excluded(wide), rtol=case.solver.tolerance)
+    res = find_roots(f, b, excluded=f.excluded(wide), rtol=case.solver.tolerance,
+                     features=f.features(wide))
     if any("is not finite" in n for n in res.notes):
         res.notes.append(
             "D overflows there: the Landau term exp(-zeta^2) of a cold species exceeds "

@@ -150,6 +150,7 @@ def follow_branches(
     excluded: Sequence[complex] = (),
     count: bool = True,
     should_stop: Callable[[], bool] | None = None,
+    features: Callable[[float], Sequence[tuple[complex, float]]] | None = None,
 ) -> tuple[list[TracedBranch], list[tuple[float, SurveyResult]], int, list[str],
            list[PointCheck]]:
     """Survey at the first parameter value, trace every root across ``params``.
@@ -187,6 +188,9 @@ def follow_branches(
         Asked after each batch of points; when it returns True the trace stops there
         (e.g. after Ctrl-C) and the results cover the points done so far (a note says
         where it stopped; point_checks cover only those points).
+    features : callable, optional
+        ``features(p)``: narrow features of ``family(p)`` near the box, (centre, width),
+        sampled first by the boundary counts (:class:`kinroots.roots.BoundaryCounter`).
 
     Returns
     -------
@@ -208,7 +212,7 @@ def follow_branches(
             return pairs(-np.asarray(q), z)
 
     tracer = Tracer(family, box=box, param=params[0], rtol=rtol, order=4, pairs=pairs)
-    counter = BoundaryCounter(box, excluded=excluded)
+    counter = BoundaryCounter(box, excluded=excluded, features=features)
     out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
     results: list[TracedBranch] = []
     surveys: list[tuple[float, SurveyResult]] = []
@@ -452,6 +456,7 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
         excluded=function_at(case, ks[0]).excluded(box),
         count=count,
         should_stop=should_stop,
+        features=lambda k: function_at(case, k).features(box),
     )
     return Solution(case=case, branches=branches, surveys=surveys, evaluations=evaluations,
                     notes=notes, point_checks=checks)
