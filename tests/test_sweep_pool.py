@@ -170,3 +170,30 @@ def test_non_ascii_species_name_through_sweep_and_netcdf(tmp_path: Path) -> None
     with xr.open_dataset(tmp_path / "o" / "sweep.nc", engine="scipy") as ds:
         assert "species_u03c0_anisotropy" in ds.dims
         assert "π" in ds.attrs["case"]  # attributes keep their UTF-8 text
+
+
+def test_after_an_abort_only_the_executors_own_thread_errors_are_dropped(capsys) -> None:
+    import threading
+
+    from kinroots.study import pool
+
+    previous = threading.excepthook
+    seen: list[str] = []
+    threading.excepthook = lambda args: seen.append(str(args.exc_value))
+    try:
+        pool._quiet_pool_threads()
+        scope: dict = {}
+        # a function whose code lives in the executor's package (as the manager thread's)
+        exec(compile("def boom():\n    raise OSError('closed pipe')\n",  # noqa: S102
+                     "/usr/lib/python3/concurrent/futures/process.py", "exec"), scope)
+
+        def ours() -> None:
+            raise ValueError("a real error")
+
+        for target in (scope["boom"], ours):
+            t = threading.Thread(target=target)
+            t.start()
+            t.join()
+    finally:
+        threading.excepthook = previous
+    assert seen == ["a real error"]

@@ -85,6 +85,31 @@ def _context() -> Any:
     return mp.get_context("spawn")
 
 
+def _quiet_pool_threads() -> None:
+    """After an abort (Ctrl-C, an error): exceptions raised in the executor's own threads
+    (its manager thread and queue feeder, racing with the workers being terminated) are
+    dropped instead of printed; any other thread's exceptions still reach the previous
+    hook.  The run is ending, and a traceback there would only hide the real message.
+    """
+    import threading
+
+    previous = threading.excepthook
+
+    def hook(args: Any) -> None:
+        tb = args.exc_traceback
+        files = []
+        while tb is not None:
+            files.append(tb.tb_frame.f_code.co_filename)
+            tb = tb.tb_next
+        internal = ("concurrent/futures", "multiprocessing")
+        if files and all(any(part in f.replace("\\", "/") for part in internal)
+                         or "threading.py" in f for f in files):
+            return
+        previous(args)
+
+    threading.excepthook = hook
+
+
 def run_pool(
     initializer: Callable[..., None],
     initargs: tuple,
@@ -130,6 +155,7 @@ def run_pool(
                 for index, result in fut.result():
                     on_result(index, result)
     except BaseException:
+        _quiet_pool_threads()
         for fut in pending:
             fut.cancel()
         procs = list(getattr(pool, "_processes", {}).values())
