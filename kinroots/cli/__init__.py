@@ -7,10 +7,10 @@ warnings on stderr.  Data go to stdout; messages to stderr.  Each module registe
 commands on the one typer app.
 """
 
-from kinroots.cli import case_commands, lab, stability, waves
+from kinroots.cli import case_commands, lab, reporting, stability, waves
 from kinroots.cli._common import app, guarded
 
-for _module in (case_commands, waves, lab, stability):
+for _module in (case_commands, waves, lab, stability, reporting):
     _module.register(app)
 # No traceback reaches a user: internal errors exit 3 with the traceback in a file.
 for _info in app.registered_commands:

@@ -29,6 +29,7 @@ __all__ = [
     "literal",
     "math_label",
     "new_figure",
+    "plain_log_ticks",
     "save_figure",
     "set_title",
 ]
@@ -153,3 +154,14 @@ def save_figure(fig: Any, path: Path, dpi: int = 150) -> Path:
     path = Path(path)
     atomic_write_bytes(path, figure_bytes(fig, figure_format(path), dpi=dpi))
     return path
+
+
+def plain_log_ticks(axis: Any, span: float = 0.0) -> None:
+    """Tick labels of a log-scaled x or y axis written as plain numbers (0.5, 2000),
+    minor ticks labelled too when the axis spans less than ``span`` decades."""
+    from matplotlib.ticker import FuncFormatter
+
+    plain = FuncFormatter(lambda v, _: f"{v:g}")
+    axis.set_major_formatter(plain)
+    if span:
+        axis.set_minor_formatter(plain)

@@ -12,7 +12,15 @@ from typing import Any
 
 import numpy as np
 
-from kinroots.plots._style import axes_grid, branch_style, literal, save_figure, set_title
+from kinroots.plots._style import (
+    axes_grid,
+    branch_style,
+    literal,
+    math_label,
+    plain_log_ticks,
+    save_figure,
+    set_title,
+)
 
 __all__ = ["LaunchCurve", "launch_curves_from_rows", "plot_launch", "plot_spectrum"]
 
@@ -79,8 +87,10 @@ def plot_launch(curves: Sequence[LaunchCurve], *, title: str = "", ax: Any = Non
             a.plot(f, y, ls=st["ls"], color=st["color"], lw=1.4,
                    label=literal(c.label) if a is ax_l else None)
             a.plot(f[ver], y[ver], ls="none", marker=st["marker"], color=st["color"], ms=4)
-        ax_d.plot(f, np.where(damp > 0, damp, np.nan), ls=st["ls"], color=st["color"],
-                  lw=1.4, marker=st["marker"], ms=4)
+        decays = np.where(damp > 0, damp, np.nan)
+        ax_d.plot(f, decays, ls=st["ls"], color=st["color"], lw=1.4)
+        ax_d.plot(f[ver], decays[ver], ls="none", marker=st["marker"], color=st["color"],
+                  ms=4)
         if np.any(damp < 0):
             any_growth = True
             ax_d.plot(f, np.where(damp < 0, -damp, np.nan), ls=":", color=st["color"],
@@ -94,11 +104,18 @@ def plot_launch(curves: Sequence[LaunchCurve], *, title: str = "", ax: Any = Non
         if any(np.any(np.isfinite(ln.get_ydata()) & (np.asarray(ln.get_ydata()) > 0))
                for ln in a.get_lines()):
             a.set_yscale("log")
+            plain_log_ticks(a.yaxis, span=1.0)
     if any_growth:
         ax_d.text(0.01, 0.02, "dotted, open markers: growing along +k (|1/Im k| shown)",
                   transform=ax_d.transAxes, fontsize="small", va="bottom")
     if curves:
-        ax_l.legend(fontsize="small", ncol=2)
+        from matplotlib.lines import Line2D
+
+        handles, labels = ax_l.get_legend_handles_labels()
+        if any(c.verified is not None and np.any(c.verified) for c in curves):
+            handles.append(Line2D([], [], ls="none", marker="o", color="0.2", ms=4))
+            labels.append("marker: verified by a survey")
+        ax_l.legend(handles, labels, fontsize="small", ncol=2)
     set_title(ax_l, title)
     if path is not None:
         save_figure(fig, path)
@@ -135,11 +152,12 @@ def plot_spectrum(
     y = np.asarray(power, dtype=float)
     ax_all.semilogy(x, np.maximum(y, 1e-12), "-", lw=1.2, color="#0072B2")
     ax_all.set_ylim(max(1e-8, float(np.nanmin(y[y > 0])) if np.any(y > 0) else 1e-8), 2.0)
-    ax_all.set_xlabel("wavelength shift λ_s − λ_i [nm]")
+    shift_label = math_label("wavelength shift λ_s − λ_i [nm]")
+    ax_all.set_xlabel(shift_label)
     ax_all.set_ylabel("relative power per nm")
     sel = np.abs(x) <= ion_window_nm
     ax_ion.plot(x[sel], y[sel], "-", lw=1.2, color="#0072B2")
-    ax_ion.set_xlabel("wavelength shift λ_s − λ_i [nm]")
+    ax_ion.set_xlabel(shift_label)
     ax_ion.set_ylabel("relative power per nm")
     if alpha is not None and alpha < 1.0:
         note = (f"centre ±{ion_window_nm:.3g} nm: non-collective (α = {alpha:.2g} < 1), "

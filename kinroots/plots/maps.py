@@ -17,6 +17,7 @@ from kinroots.plots._style import (
     axes_grid,
     literal,
     math_label,
+    plain_log_ticks,
     save_figure,
     set_title,
 )
@@ -28,15 +29,10 @@ def _scale(axis: Any, which: str, values: np.ndarray | None, log: bool) -> None:
     """Log scale for a log-spaced axis, ticks written as plain numbers (0.5, not 5×10⁻¹)."""
     if not (log and values is not None and np.all(np.asarray(values) > 0)):
         return
-    from matplotlib.ticker import FuncFormatter
-
     (axis.set_xscale if which == "x" else axis.set_yscale)("log")
-    target = axis.xaxis if which == "x" else axis.yaxis
-    plain = FuncFormatter(lambda v, _: f"{v:g}")
-    target.set_major_formatter(plain)
     v = np.asarray(values, dtype=float)
-    if v.max() / v.min() < 30:
-        target.set_minor_formatter(plain)
+    plain_log_ticks(axis.xaxis if which == "x" else axis.yaxis,
+                    span=1.0 if v.max() / v.min() < 30 else 0.0)
 
 
 def plot_growth_map(
