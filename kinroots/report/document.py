@@ -1,8 +1,8 @@
 """The report documents: report.md, report.html (self-contained, printable) and one
 LaTeX ``tabular`` per result, with the figures redrawn from the tables as SVG.
 
-:func:`build_report` makes every file in memory; :func:`write_report` then writes each
-atomically, so a failure leaves no half-written report.
+:func:`build_report` makes every file in memory; :func:`write_report` then writes them
+as one set, so a failure leaves no half-written report.
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from kinroots.io.tables import atomic_write_bytes
+from kinroots.io.tables import OutputSet, atomic_write_bytes
 from kinroots.report.folder import Output, Result, finite, read_folder
 from kinroots.report.numbers import as_latex, latex_text, user_number
 from kinroots.report.tables import Table, build_table
@@ -319,9 +319,10 @@ def build_report(folder: Path, *, points: int | None = 10, at: Sequence[float] =
 
 
 def write_report(report: Report, folder: Path) -> list[Path]:
-    """Write every file of ``report`` into ``folder`` atomically; the paths written."""
-    paths = []
+    """Write every file of ``report`` into ``folder`` as one set (staged, then swapped in
+    with ``report-manifest.json``, see :class:`kinroots.io.tables.OutputSet`): the
+    previous report's files are replaced together; the paths written."""
+    out = OutputSet(Path(folder), "report")
     for name, data in report.files.items():
-        atomic_write_bytes(Path(folder) / name, data)
-        paths.append(Path(folder) / name)
-    return paths
+        atomic_write_bytes(out.stage(name), data)
+    return out.commit()
