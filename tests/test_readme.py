@@ -87,10 +87,13 @@ def test_readme_commands_run(tmp_path):
     assert commands
     with LocalCluster(n_workers=1, threads_per_worker=1, processes=False,
                       dashboard_address=None) as cluster:
+        outputs: set[str] = set()  # folders written by earlier commands (-o)
         for line in commands:
             args = shlex.split(line)[1:]
             for i, a in enumerate(args):
-                if args[i - 1] in ("-o", "--out") and i > 0:
+                if i > 0 and args[i - 1] in ("-o", "--output"):
+                    outputs.add(a)
+                if a in outputs:  # written above, or read back (e.g. `report out`)
                     args[i] = str(tmp_path / a)
                 if a.startswith("tcp://"):
                     args[i] = cluster.scheduler_address
