@@ -213,7 +213,7 @@ def _sweep_case():
         ],
         "wave": {"model": "electrostatic"},
         "scan": {"k": {"start": 0.04, "stop": 0.12, "points": 3}},
-        "search": {"real": [0.8, 1.5], "imag": [-0.05, 0.1]},
+        "search": {"real": [0.8, 1.5], "imag": [-0.05, 0.3]},
         "sweep": {"x": {"parameter": "species.beam.drift", "start": 6e6, "stop": 8.4e6,
                         "points": 2}},
     })

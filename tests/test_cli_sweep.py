@@ -130,3 +130,20 @@ def test_threshold_command_draws_curve(tmp_path):
     # Hellinger et al. (2006) proton-cyclotron fit, from memory: 1 + 0.43/(1.0004)^0.42
     assert float(rows[0]["threshold"]) == pytest.approx(1.4299, rel=0.02)
     assert (out / "threshold.png").exists()
+
+
+def test_sweep_flags_and_warns_when_the_k_scan_ends_on_the_maximum(tmp_path):
+    f = tmp_path / "c.toml"
+    # T⊥/T∥ = 2 at β∥p = 1: proton-cyclotron growth peaks near k d_p ≈ 0.5 (from memory)
+    f.write_text(small_case_text(1, 1).replace("start = 0.2, stop = 0.8, points = 3",
+                                               "start = 0.1, stop = 0.3, points = 3")
+                 .replace("start = 1.3, stop = 2.2", "start = 2.0, stop = 2.2"))
+    out = tmp_path / "out"
+    res = runner.invoke(app, ["sweep", str(f), "-o", str(out), "--workers", "1"])
+    assert res.exit_code == 0, res.output
+    row = _rows(out / "sweep.csv")[0]
+    assert row["k_at_edge"] == "true" and row["angle_at_edge"] == "false"
+    assert float(row["growth_k"]) == pytest.approx(0.3)
+    text = " ".join(res.output.split())  # the console wraps long lines
+    assert "warning" in text and "extend [scan] k" in text
+    assert float(row["growth_handedness"]) < -0.9  # proton-cyclotron wave: left-handed

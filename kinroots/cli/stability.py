@@ -154,11 +154,29 @@ def sweep_command(
                       f"{spec.x.path.text} = {best['x']:.6g}"
                       + (f", {spec.y.path.text} = {best['y']:.6g}" if spec.y else "")
                       + f", k = {best['growth_k']:.4g}, angle {best['growth_angle']:.4g}°")
+    _warn_edges(console, rows, "points")
     console.print(written(output / "sweep.csv", output / "sweep.nc", output / "sweep.json",
                           fig_path))
     if failed:
         console.print(f"{len(failed)} point(s) failed: flagged in sweep.csv", style="red")
         raise typer.Exit(1)
+
+
+def _warn_edges(console: Any, rows: list[dict[str, Any]], where: str) -> None:
+    """Say which points' maxima the grid or the window decided, and what to extend."""
+    flagged = [r for r in rows if r.get("warnings")]
+    if not flagged:
+        return
+    console.print(f"warning: at {len(flagged)} of {len(rows)} {where} the "
+                  "maximizing root lies at an end of the k or angle range or at the edge "
+                  "of the search window (k_at_edge, angle_at_edge, root_at_window_edge), "
+                  "so a faster mode may lie outside what was searched:")
+    for r in flagged[:5]:
+        at = ", ".join(f"{c} = {r[c]:.6g}" for c in ("x", "y", "across")
+                       if isinstance(r.get(c), float) and math.isfinite(r[c]))
+        console.print(f"  {at}: {r['warnings']}")
+    if len(flagged) > 5:
+        console.print(f"  ... and {len(flagged) - 5} more (column 'warnings')")
 
 
 def _finished(loaded: Case, output: Path, kind: str) -> list[dict[str, Any]] | None:
@@ -204,9 +222,13 @@ def _summary(loaded: Case, kind: str, rows: list[dict[str, Any]],
         "units": {"growth": f"{u.frequency_label_ascii} (of the case at each point)",
                   "k": f"1/{u.length_label_ascii}", "angle": "degree"},
         "method": (
-            "survey of the search window at every k of [scan] and every angle; the largest "
-            "Im(omega) refined by bounded Brent on k (nested in bounded Brent on angle)"
-            + ("; threshold by brentq on gamma_max(p) - level" if kind == "threshold" else "")
+            "survey of the search window at every k of [scan] and every angle; roots of "
+            "neighbouring grid points linked into families by continuation; every local "
+            "maximum of Im(omega) of every family climbed between grid points (trust "
+            "region on quadratic models, batched Newton); the largest wins"
+            + ("; threshold by brentq on gamma_max(p) - level, the maximizer at the nearest "
+               "value solved being one more start, and verified: |gamma_max - level| <= 5 % "
+               "of the level at the answer" if kind == "threshold" else "")
         ),
         "points": len(rows),
         "failed_points": len(failed),
@@ -262,6 +284,7 @@ def threshold_command(
     for r in ok:
         console.print(f"{t.across.path.text} = {r['across']:.6g}: {t.path.text} = "
                       f"{r['threshold']:.6g}")
+    _warn_edges(console, rows, "values")
     console.print(written(output / "threshold.csv", output / "threshold.json", fig_path))
     if failed:
         console.print(f"{len(failed)} value(s) without a threshold: "

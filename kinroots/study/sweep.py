@@ -2,12 +2,11 @@
 
 Three layers, each a pure function of its inputs:
 
-* :func:`max_growth` — for one case: survey the search window at every k of the case's
-  scan (and every angle of a list), take the root with the largest γ, then maximize γ
-  locally (bounded Brent on γ(k) between the neighbouring grid points, nested in a
-  bounded Brent on the angle when angles are given) from roots polished by Newton's
-  method, each start taken from the nearest point already solved.  The least-damped
-  root (largest γ among the non-growing roots) is read off the grid.
+* :func:`max_growth` (:mod:`kinroots.study.growth`) — for one case: survey the search
+  window at every k of the case's scan and every angle, link the roots of neighbouring
+  grid points into families by continuation, and climb every local maximum of γ of
+  every family between the grid points; the largest refined value wins, with flags
+  when it sits at an end of the k or angle range or at the edge of the window.
 * :func:`sweep_point` / :func:`threshold_point` — one grid point of a ``[sweep]`` or one
   value of ``threshold.across``: a pure function of (case, index), so local pool and Dask
   give identical rows.
@@ -39,27 +38,39 @@ from kinroots.io.parameters import (
     ParameterPath,
     check_study_ranges,
     parameter_value,
+    with_parameter,
     with_parameters,
 )
-from kinroots.study.growth import max_growth
+from kinroots.physics import modes
+from kinroots.study.growth import GrowthResult, max_growth
 from kinroots.study.threshold import find_threshold
 
 __all__ = [
+    "MAXIMIZER_COLUMNS",
     "SWEEP_COLUMNS",
     "THRESHOLD_COLUMNS",
     "case_hash",
     "check_ranges",
+    "maximizer_cells",
     "run_points",
     "sweep_point",
     "threshold_point",
 ]
 
+#: Mode identity of the maximizing root (see :mod:`kinroots.physics.modes`).
+_MODE_CELLS = ("handedness", "db_c_over_de", "magnetic_compressibility",
+               "electrostatic_fraction")
+#: Columns describing the maximizing root, shared by sweep.csv and threshold.csv.
+MAXIMIZER_COLUMNS: tuple[str, ...] = (
+    "growth_residual", "growth_verified", *(f"growth_{c}" for c in _MODE_CELLS),
+    "k_at_edge", "angle_at_edge", "root_at_window_edge", "candidates", "warnings",
+)
 #: Columns of sweep.csv.
 SWEEP_COLUMNS: tuple[str, ...] = (
     "i", "j", "x", "y",
     "growth_max", "growth_omega_real", "growth_k", "growth_angle",
     "growth_per_s", "growth_freq_hz", "growth_k_per_m", "growing",
-    "k_at_edge", "angle_at_edge",
+    *MAXIMIZER_COLUMNS,
     "least_damped_omega_real", "least_damped_omega_imag", "least_damped_k",
     "least_damped_angle",
     "roots_found", "evaluations", "converged", "reason",
@@ -68,6 +79,7 @@ SWEEP_COLUMNS: tuple[str, ...] = (
 THRESHOLD_COLUMNS: tuple[str, ...] = (
     "j", "across", "threshold", "growth_level",
     "growth_k", "growth_angle", "growth_omega_real", "growth_omega_imag",
+    *MAXIMIZER_COLUMNS,
     "growth_at_low", "growth_at_high", "bracket_low", "bracket_high",
     "brent_iterations", "converged", "reason",
 )
@@ -75,6 +87,40 @@ _SWEEP_VALUES = ("growth_max", "growth_omega_real", "growth_k", "growth_angle",
                  "growth_per_s", "growth_freq_hz", "growth_k_per_m")
 _THRESHOLD_VALUES = ("threshold", "growth_k", "growth_angle", "growth_omega_real",
                      "growth_omega_imag")
+
+
+def _plain(v: Any) -> Any:
+    """Plain Python numbers for JSON and the store (numpy scalars do not serialize)."""
+    if isinstance(v, np.bool_ | bool):
+        return bool(v)
+    if isinstance(v, np.integer):
+        return int(v)
+    if isinstance(v, np.floating):
+        return float(v)
+    return v
+
+
+def maximizer_cells(case: Case, g: GrowthResult) -> dict[str, Any]:
+    """The :data:`MAXIMIZER_COLUMNS` cells of the maximizing root of ``g``."""
+    cells: dict[str, Any] = dict.fromkeys(f"growth_{c}" for c in _MODE_CELLS)
+    r = g.root
+    if r is not None and r.converged:
+        units = case.units
+        ident = modes.mode_columns(
+            case.plasma, omega=complex(units.omega_to_si(g.omega)),
+            k=float(units.k_to_si(g.k)), angle_deg=g.angle, model=case.model,
+            omega_ref=units.omega_unit, harmonic_tol=case.solver.harmonic_tolerance)
+        cells.update({f"growth_{c}": ident.get(c) for c in _MODE_CELLS})
+    cells.update({
+        "growth_residual": float(r.residual) if r is not None else None,
+        "growth_verified": bool(r.verified) if r is not None else False,
+        "k_at_edge": g.k_at_edge,
+        "angle_at_edge": g.angle_at_edge,
+        "root_at_window_edge": g.root_at_window_edge,
+        "candidates": g.candidates,
+        "warnings": "; ".join(g.edge_warnings()),
+    })
+    return {k: _plain(v) for k, v in cells.items()}
 
 
 
@@ -123,8 +169,7 @@ def sweep_point(case: Case, index: int) -> dict[str, Any]:
         "growth_freq_hz": w_si.real / (2 * math.pi),
         "growth_k_per_m": float(units.k_to_si(g.k)),
         "growing": g.growing,
-        "k_at_edge": g.k_at_edge,
-        "angle_at_edge": g.angle_at_edge,
+        **maximizer_cells(c, g),
         "least_damped_omega_real": ld.real if ld is not None else math.nan,
         "least_damped_omega_imag": ld.imag if ld is not None else math.nan,
         "least_damped_k": g.least_damped_k,
@@ -135,7 +180,7 @@ def sweep_point(case: Case, index: int) -> dict[str, Any]:
         "reason": "; ".join(g.notes) if g.notes else
         ("" if g.roots_found else "no root in the search window"),
     })
-    return row
+    return {k: _plain(v) for k, v in row.items()}
 
 
 
@@ -151,19 +196,25 @@ def threshold_point(case: Case, index: int) -> dict[str, Any]:
         return {**row, "converged": False, "reason": str(exc), "brent_iterations": 0}
     t = find_threshold(c, spec.path, spec.bracket, spec.growth, spec.angles)
     at = t.at
+    at_case = with_parameter(c, spec.path, t.value) if math.isfinite(t.value) else c
+    cells = maximizer_cells(at_case, at) if at else {}
+    if t.notes:
+        cells["warnings"] = "; ".join([*t.notes, *([cells["warnings"]] if cells.get(
+            "warnings") else [])])
     row.update({
         "threshold": t.value,
         "growth_k": at.k if at else math.nan,
         "growth_angle": at.angle if at else math.nan,
         "growth_omega_real": at.omega.real if at else math.nan,
         "growth_omega_imag": at.omega.imag if at else math.nan,
-        "growth_at_low": t.growth_low,
-        "growth_at_high": t.growth_high,
+        **cells,
+        "growth_at_low": t.growth_low if math.isfinite(t.growth_low) else None,
+        "growth_at_high": t.growth_high if math.isfinite(t.growth_high) else None,
         "brent_iterations": t.iterations,
         "converged": t.converged,
         "reason": t.reason,
     })
-    return row
+    return {k: _plain(v) for k, v in row.items()}
 
 
 def blank_failed(rows: list[dict[str, Any]], kind: str) -> list[dict[str, Any]]:

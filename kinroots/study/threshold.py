@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 
 from kinroots.io.case import Case
 from kinroots.io.parameters import (
@@ -12,7 +12,9 @@ from kinroots.io.parameters import (
     ParameterPath,
     with_parameter,
 )
+from kinroots.roots import polish
 from kinroots.study.growth import GrowthResult, max_growth
+from kinroots.study.problem import function_at
 
 
 @dataclass
@@ -26,13 +28,46 @@ class ThresholdResult:
     growth_high: float = math.nan
     iterations: int = 0
     at: GrowthResult | None = None
+    notes: list[str] = field(default_factory=list)
 
 
-def _growth_or_floor(case: Case, angles: Sequence[float] | None) -> tuple[float, GrowthResult]:
-    g = max_growth(case, angles)
-    if math.isnan(g.growth):  # nothing in the window: growth below its lower edge
-        return case.search_imag[0], g
-    return g.growth, g
+#: Largest |γ_max − level| / |level| at the answer for a threshold to count as converged.
+VERIFY_FRACTION = 0.05
+
+
+#: Newton steps in the parameter that carry a neighbour's maximizer to a new value.
+CARRY_STEPS = 8
+
+
+def _neighbour_seeds(case: Case, path: str | ParameterPath,
+                     memo: dict[float, tuple[float, GrowthResult]], p: float
+                     ) -> list[tuple[float, float, complex]]:
+    """The maximizers at the nearest values solved below and above ``p``, carried to ``p``.
+
+    Both sides: near a threshold the mode that grows may be damped at every (k, θ) grid
+    point on one side, and only continuation from the other side finds it.  Each
+    maximizer's root is carried at its (k, θ) from its value q to p in ``CARRY_STEPS``
+    Newton steps (continuation in the parameter); a failed step drops the seed.
+    """
+    seeds = []
+    for side in (-1.0, 1.0):
+        done = [(abs(q - p), q) for q, (_, g) in memo.items()
+                if math.isfinite(g.growth) and (q - p) * side > 0]
+        if not done:
+            continue
+        q = min(done)[1]
+        g = memo[q][1]
+        z = g.omega
+        for j in range(1, CARRY_STEPS + 1):
+            c = with_parameter(case, path, q + (p - q) * j / CARRY_STEPS)
+            c = c if g.angle == c.angle_deg else replace(c, angle_deg=g.angle)
+            r = polish(function_at(c, g.k), z, rtol=case.solver.tolerance, maxiter=20)
+            if not r.converged:
+                break
+            z = complex(r.value)
+        else:
+            seeds.append((g.k, g.angle, z))
+    return seeds
 
 
 def find_threshold(case: Case, path: str | ParameterPath, bracket: tuple[float, float],
@@ -58,14 +93,21 @@ def find_threshold(case: Case, path: str | ParameterPath, bracket: tuple[float, 
     Returns
     -------
     ThresholdResult
-        ``converged`` false, with the reason, when there is no sign change.
+        ``converged`` false, with the reason, when there is no sign change, or when the
+        maximum growth recomputed at the answer differs from ``level`` by more than
+        ``VERIFY_FRACTION`` of it (γ_max jumps there: another mode takes over).
+        ``growth_low``/``growth_high`` are NaN where the window holds no root, and
+        ``notes`` says so.
 
     Notes
     -----
     Root bracketing with Brent's method (``scipy.optimize.brentq``) on
     γ_max(p) − level, where γ_max(p) is :func:`max_growth` of the case at p (a fresh
-    survey each time, so the function is the true maximum, not a followed branch).  A case
-    with no root in the window counts as γ_max = lower edge of the window.
+    survey each time, so the function is the true maximum, not a followed branch); the
+    maximizers at the nearest values already solved on either side, carried to p by
+    Newton continuation in p, are more climb starts (so γ_max(p) is continuous where the
+    physics is).  A case with no root in the window counts as
+    γ_max below the window's lower edge for the bracketing, and is reported as such.
     """
     from scipy.optimize import brentq
 
@@ -75,7 +117,10 @@ def find_threshold(case: Case, path: str | ParameterPath, bracket: tuple[float, 
 
     def g(p: float) -> float:
         if p not in memo:
-            memo[p] = _growth_or_floor(with_parameter(case, path, p), angles)
+            gr = max_growth(with_parameter(case, path, p), angles,
+                            seeds=_neighbour_seeds(case, path, memo, p))
+            # nothing in the window: growth below its lower edge (for the sign only)
+            memo[p] = (case.search_imag[0] if math.isnan(gr.growth) else gr.growth, gr)
         return memo[p][0] - level
 
     try:
@@ -83,7 +128,12 @@ def find_threshold(case: Case, path: str | ParameterPath, bracket: tuple[float, 
     except ParameterError as exc:
         out.reason = str(exc)
         return out
-    out.growth_low, out.growth_high = glo + level, ghi + level
+    for end, v in (("lower", lo), ("upper", hi)):
+        if math.isnan(memo[v][1].growth):
+            out.notes.append(f"no root in the search window at the {end} bracket end "
+                             f"({v!r}): maximum growth below the window's lower edge "
+                             f"{case.search_imag[0]!r}")
+    out.growth_low, out.growth_high = memo[lo][1].growth, memo[hi][1].growth
     if glo == 0.0 or ghi == 0.0 or (glo < 0) != (ghi < 0):
         tol = xtol if xtol is not None else 1e-6 * abs(hi - lo)
         p, info = brentq(g, lo, hi, xtol=tol, rtol=1e-12, full_output=True, disp=False)
@@ -92,14 +142,23 @@ def find_threshold(case: Case, path: str | ParameterPath, bracket: tuple[float, 
         if p not in memo:
             g(p)
         out.at = memo[p][1]
+        off = abs(out.at.growth - level) if math.isfinite(out.at.growth) else math.inf
         if not out.converged:
             out.reason = f"Brent's method did not converge: {info.flag}"
-        elif out.at is not None and not out.at.complete:
+        elif not out.at.complete:
             out.converged = False
             out.reason = "; ".join(out.at.notes)
+        elif off > VERIFY_FRACTION * abs(level):
+            out.converged = False
+            out.reason = (f"maximum growth recomputed at {p!r} is {out.at.growth!r}, not "
+                          f"the level {level!r} within {VERIFY_FRACTION:.0%}: it jumps "
+                          f"there (another mode takes over, or the grid misses the maximum)")
     else:
+        def said(v: float) -> str:
+            return repr(v) if math.isfinite(v) else "none (no root in the window)"
         out.reason = (f"no crossing of growth level {level!r} in [{lo!r}, {hi!r}]: maximum "
-                      f"growth {out.growth_low!r} at {lo!r} and {out.growth_high!r} at {hi!r}")
+                      f"growth {said(out.growth_low)} at {lo!r} and {said(out.growth_high)} "
+                      f"at {hi!r}")
     return out
 
 
