@@ -147,3 +147,17 @@ def test_sweep_flags_and_warns_when_the_k_scan_ends_on_the_maximum(tmp_path):
     text = " ".join(res.output.split())  # the console wraps long lines
     assert "warning" in text and "extend [scan] k" in text
     assert float(row["growth_handedness"]) < -0.9  # proton-cyclotron wave: left-handed
+
+
+def test_sweep_and_threshold_tables_name_their_parameters(tmp_path):
+    f = tmp_path / "c.toml"
+    f.write_text(small_case_text(2, 1))
+    out = tmp_path / "out"
+    res = runner.invoke(app, ["sweep", str(f), "-o", str(out), "--workers", "1"])
+    assert res.exit_code in (0, 1), res.output
+    header = (out / "sweep.csv").read_text().splitlines()[0].split(",")
+    assert header[:4] == ["i", "j", "species_p_beta_par", "species_p_anisotropy"]
+    assert "x" not in header and "y" not in header
+    rows = _rows(out / "sweep.csv")
+    assert [float(r["species_p_beta_par"]) for r in rows] == pytest.approx([1.0, 2.0])
+    assert [float(r["species_p_anisotropy"]) for r in rows] == pytest.approx([1.3, 1.3])

@@ -122,3 +122,18 @@ def test_readme_case_is_the_default_case():
     assert shipped.plasma == default.plasma
     assert list(shipped.k_values) == list(default.k_values)
     assert (shipped.search_real, shipped.search_imag) == (default.search_real, default.search_imag)
+
+
+def test_readme_threshold_example_needs_no_sweep():
+    import tomllib
+
+    from kinroots.io.case import parse_case
+
+    (block,) = [b for b in _blocks("toml") if "[threshold]" in b]
+    raw = tomllib.loads((ROOT / "cases" / "sweep_proton_anisotropy.toml").read_text())
+    raw.pop("sweep")
+    raw["threshold"] = tomllib.loads(block)["threshold"]
+    case = parse_case(raw, "README threshold example")
+    assert case.sweep is None
+    assert case.threshold.across.path.text == "species.p.beta_par"
+    assert case.threshold.across.points == 6

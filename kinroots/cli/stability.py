@@ -127,14 +127,14 @@ def sweep_command(
     """
     from kinroots.io.netcdf import dataset_bytes, sweep_dataset
     from kinroots.io.tables import OutputSet, atomic_write_bytes, write_csv, write_json
-    from kinroots.study.sweep import SWEEP_COLUMNS, blank_failed
+    from kinroots.study.sweep import csv_table
 
     loaded = _prepare(case, default, output, "sweep")
     spec = loaded.sweep
     total = math.prod(spec.shape)
     rows = _run(loaded, "sweep", total, output, workers, scheduler)
     out = OutputSet(output, "sweep")
-    write_csv(out.stage("sweep.csv"), blank_failed(rows, "sweep"), SWEEP_COLUMNS)
+    write_csv(out.stage("sweep.csv"), *csv_table(loaded, rows, "sweep"))
     atomic_write_bytes(out.stage("sweep.nc"), dataset_bytes(sweep_dataset(
         loaded, rows, history=f"kinroots sweep {loaded.source or 'default case'}")))
     fig_path = figure_path(output, "sweep", figure_format, no_plot)
@@ -258,13 +258,13 @@ def threshold_command(
     Example: kinroots threshold cases/sweep_proton_anisotropy.toml -o out/sweep
     """
     from kinroots.io.tables import OutputSet, write_csv, write_json
-    from kinroots.study.sweep import THRESHOLD_COLUMNS, blank_failed
+    from kinroots.study.sweep import csv_table
 
     loaded = _prepare(case, default, output, "threshold")
     t = loaded.threshold
     rows = _run(loaded, "threshold", t.across.points, output, workers, scheduler)
     out = OutputSet(output, "threshold")
-    write_csv(out.stage("threshold.csv"), blank_failed(rows, "threshold"), THRESHOLD_COLUMNS)
+    write_csv(out.stage("threshold.csv"), *csv_table(loaded, rows, "threshold"))
     failed = [r for r in rows if not r.get("converged")]
     write_json(out.stage("threshold.json"), _summary(loaded, "threshold", rows, failed))
     ok = [r for r in rows if r.get("converged")]

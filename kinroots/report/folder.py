@@ -118,6 +118,23 @@ def _case_of(meta: Mapping[str, Any], name: str) -> tuple[Any, str]:
         return None, "; ".join(exc.errors)
 
 
+def _grid_names_back(command: str, case: Any, header: list[str],
+                     rows: list[dict[str, Any]]) -> tuple[list[str], list[dict[str, Any]]]:
+    """sweep.csv / threshold.csv name their grid columns by the parameters (e.g.
+    ``species_p_anisotropy``); the report works with the generic ``x``, ``y``, ``across``."""
+    names: dict[str, str] = {}
+    if command == "sweep" and case is not None and case.sweep is not None:
+        names[case.sweep.x.path.safe_name] = "x"
+        if case.sweep.y is not None:
+            names[case.sweep.y.path.safe_name] = "y"
+    elif command == "threshold" and case is not None and case.threshold is not None:
+        names[case.threshold.across.path.safe_name] = "across"
+    if not names or not set(names) <= set(header):
+        return header, rows
+    return ([names.get(h, h) for h in header],
+            [{names.get(k, k): v for k, v in r.items()} for r in rows])
+
+
 def read_folder(folder: Path) -> Output:
     """Every kinroots result in ``folder``.
 
@@ -153,6 +170,7 @@ def read_folder(folder: Path) -> Output:
             raise ReportError(f"{table}: columns start {', '.join(header[:3])}; expected "
                               f"{', '.join(kind.first_columns)} (kinroots {kind.command})")
         case, problem = _case_of(meta, str(meta_path))
+        header, rows = _grid_names_back(kind.command, case, header, rows)
         out.results.append(Result(kind, rows, header, meta, case, problem))
     if not out.results:
         expected = "; ".join(f"{k.table} with {k.meta} ({k.command})" for k in KINDS)

@@ -160,7 +160,7 @@ def _sweep_table(res: Result, rows: list[dict[str, Any]]) -> Table:
     case = res.case
     spec = case.sweep if case is not None else None
     x_key = "x" if "x" in res.columns else res.columns[2]
-    y_key = "y" if "y" in res.columns else res.columns[3]
+    y_key = "y" if "y" in res.columns else res.columns[3]  # used only for a 2-D sweep
     x_name = parameter_label(spec.x.path) if spec else x_key
     y_name = parameter_label(spec.y.path) if spec and spec.y else ""
     wl = case.units.frequency_label if case else "ω_unit"
@@ -183,8 +183,8 @@ def _sweep_table(res: Result, rows: list[dict[str, Any]]) -> Table:
                             _other(r.get("growth_k")), _other(r.get("growth_angle")), flag])
     t = Table("sweep: maximum growth rate at each grid point", cols, cells)
     t.notes.append(f"γ_max in units of {wl} of the case at each grid point; "
-                   f"{OTHER_DIGITS} significant digits (bounded Brent search, common "
-                   "practice).")
+                   f"{OTHER_DIGITS} significant digits (every local maximum of every root "
+                   "family climbed between grid points).")
     return t
 
 
@@ -199,8 +199,9 @@ def _threshold_table(res: Result, rows: list[dict[str, Any]]) -> Table:
             Column("at k·" + (case.units.length_label if case else "L")),
             Column("flag", numeric=False)]
     cells = []
+    across_key = "across" if "across" in res.columns else res.columns[1]
     for r in rows:
-        head = [user_number(r.get("across"))]
+        head = [user_number(r.get(across_key))]
         if not r.get("converged"):
             cells.append(head + [FAILED, user_number(r.get("growth_level")), FAILED,
                                  f"failed: {r.get('reason') or ''}".rstrip(": ")])
@@ -234,8 +235,8 @@ def build_table(res: Result, *, points: int | None, at: Sequence[float] = ()) ->
     """The report table of one result at the chosen points."""
     kind = res.kind.command
     key = POSITION[kind]
-    if kind == "sweep" and key not in res.columns:
-        key = res.columns[2]
+    if kind in ("sweep", "threshold") and key not in res.columns:
+        key = res.columns[2 if kind == "sweep" else 1]  # named by the parameter
     rows, notes = select_rows(res.rows, key, points=points, at=at)
     tol = res.meta.get("tolerances", {}) if isinstance(res.meta.get("tolerances"), dict) \
         else {}

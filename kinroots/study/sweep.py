@@ -51,6 +51,7 @@ __all__ = [
     "THRESHOLD_COLUMNS",
     "case_hash",
     "check_ranges",
+    "csv_table",
     "maximizer_cells",
     "run_points",
     "sweep_point",
@@ -228,6 +229,34 @@ def blank_failed(rows: list[dict[str, Any]], kind: str) -> list[dict[str, Any]]:
                 r[c] = None
         out.append(r)
     return out
+
+
+def csv_table(case: Case, rows: list[dict[str, Any]], kind: str
+              ) -> tuple[list[dict[str, Any]], list[str]]:
+    """Rows and columns of sweep.csv / threshold.csv as written.
+
+    Failed rows' value cells emptied (:func:`blank_failed`), and the grid columns named by
+    their parameters (``x``, ``y`` and ``across`` become e.g. ``species_p_anisotropy``,
+    the names of the netCDF dimensions; a 1-D sweep has no ``y`` column), so the table
+    reads on its own.
+    """
+    rows = blank_failed(rows, kind)
+    if kind == "sweep":
+        spec = case.sweep
+        columns = list(SWEEP_COLUMNS)
+        names = {"x": spec.x.path.safe_name} if spec is not None else {}
+        if spec is not None and spec.y is not None:
+            names["y"] = spec.y.path.safe_name
+        elif spec is not None:
+            columns.remove("y")
+    else:
+        t = case.threshold
+        columns = list(THRESHOLD_COLUMNS)
+        names = {"across": t.across.path.safe_name} if t is not None else {}
+    if len(set(names.values())) < len(names) or set(names.values()) & set(columns):
+        return rows, columns  # two axes of one name, or a clash: keep the plain names
+    columns = [names.get(c, c) for c in columns]
+    return [{names.get(k, k): v for k, v in r.items()} for r in rows], columns
 
 
 def check_ranges(case: Case) -> list[str]:
