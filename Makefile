@@ -40,6 +40,7 @@ fuzz: $(VENV)/.installed-test
 
 lint: $(VENV)/.installed-test
 	$(VENV)/bin/ruff check kinroots tests benchmarks
+	$(PY) -m mypy kinroots
 
 # the API reference from the docstrings (Sphinx + numpydoc), warnings are errors
 docs: $(VENV)/.installed-docs

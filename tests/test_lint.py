@@ -19,3 +19,13 @@ def test_ruff_clean():
         cwd=ROOT, capture_output=True, text=True,
     )
     assert res.returncode == 0, res.stdout + res.stderr
+
+
+@pytest.mark.slow
+def test_mypy_clean(tmp_path):
+    # Configuration in pyproject.toml ([tool.mypy]); the cache stays out of the tree.
+    res = subprocess.run(
+        [sys.executable, "-m", "mypy", "--cache-dir", str(tmp_path / "mypy-cache"), "kinroots"],
+        cwd=ROOT, capture_output=True, text=True,
+    )
+    assert res.returncode == 0, res.stdout + res.stderr

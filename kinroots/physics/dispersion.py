@@ -94,7 +94,7 @@ def builder_for(model: str, magnetized: bool) -> Builder:
     return builder
 
 
-def scaled_builder_for(magnetized: bool) -> Builder:
+def scaled_builder_for(magnetized: bool) -> Callable[..., Susceptibility]:
     """The electromagnetic ``scaled_susceptibility`` for ``magnetized`` (see its module).
 
     It returns S_s = diag(w, w, 1) χ'_s diag(w, w, 1), w = ω/ω_ref, χ'_s in the wave frame
@@ -151,7 +151,7 @@ def _det_and_derivative(m: np.ndarray, dm: np.ndarray) -> tuple[np.ndarray, np.n
 
 def _scaled_matrix(
     plasma: Plasma,
-    builder: Builder,
+    builder: Callable[..., Susceptibility],
     omega: np.ndarray,
     *,
     k: Any,
@@ -206,6 +206,7 @@ def in_blocks(
     flattened, and the results reshaped. Used so that the memory of one evaluation stays
     bounded (DEVELOPERS.md, "Memory"), whatever the number of points.
     """
+    arrays: tuple[np.ndarray, ...]
     if len(args) == 1:
         arrays = args
     else:
@@ -421,6 +422,7 @@ class Dispersion:
             total, dtotal = self._scaled_sum(omega)
             _add_vacuum(total, dtotal, omega, self.k, self.omega_ref)
             return total, dtotal
+        assert self._scaled_builder is not None  # electromagnetic models have one
         total, dtotal, harmonics = _scaled_matrix(
             self.plasma, self._scaled_builder, omega, k=self.k, k_par=self.k_par,
             k_perp=self.k_perp, omega_ref=self.omega_ref, tol=self.harmonic_tol,

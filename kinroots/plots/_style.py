@@ -142,9 +142,10 @@ def figure_bytes(fig: Any, fmt: str, dpi: int = 150) -> bytes:
         raise ValueError(f"figure format {fmt!r}; expected one of {', '.join(FIGURE_FORMATS)}")
     buf = io.BytesIO()
     # No dates: the same figure gives the same bytes.
-    meta: dict[str, Any] = {"png": {"Software": "kinroots"},
-                            "svg": {"Creator": "kinroots", "Date": None},
-                            "pdf": {"Creator": "kinroots", "CreationDate": None}}[fmt]
+    metas: dict[str, dict[str, Any]] = {"png": {"Software": "kinroots"},
+                             "svg": {"Creator": "kinroots", "Date": None},
+                             "pdf": {"Creator": "kinroots", "CreationDate": None}}
+    meta = metas[fmt]
     fig.savefig(buf, format=fmt, dpi=dpi, metadata=meta)
     return buf.getvalue()
 

@@ -94,7 +94,7 @@ def _flag(row: dict[str, Any]) -> str:
 
 def _residual(row: dict[str, Any]) -> str:
     r = row.get("residual")
-    return format_significant(r, 2) if finite(r) else "—"
+    return format_significant(float(r), 2) if r is not None and finite(r) else "—"
 
 
 def _root_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table:
@@ -146,7 +146,8 @@ def _launch_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table
         cells.append(head + [
             format_significant(kr, d_r), format_significant(ki, d_i),
             format_significant(float(r["wavelength_m"]), d_r),
-            format_significant(float(damp), d_i) if finite(damp) else "∞"] + tail)
+            format_significant(float(damp), d_i) if damp is not None and finite(damp)
+            else "∞"] + tail)
     return Table("launch: waves at the driving frequencies", cols, cells)
 
 

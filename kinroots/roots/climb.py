@@ -231,7 +231,8 @@ def _climb_steps(start: ClimbStart, xtol: float, ftol: float, max_iter: int):
     it = 0
 
     def done(converged: bool, reason: str) -> LocalMaximum:
-        return LocalMaximum(x=u * scale, value=float(f0), converged=converged,
+        return LocalMaximum(x=u * scale, value=math.nan if f0 is None else float(f0),
+                            converged=converged,
                             at_lower=u <= lo + 1e-9, at_upper=u >= hi - 1e-9,
                             iterations=it, calls=0, points=0, reason=reason)
 

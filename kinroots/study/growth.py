@@ -208,7 +208,7 @@ def _grid_candidates(surface: _Surface, ks: list[float], angs: list[float],
             lands[(n, r, m)] = best
     beaten = {(n, r) for (n, r, m), s in lands.items()
               if lands.get((m, s, n)) == r and grid[m][s].imag > grid[n][r].imag}
-    out = []
+    out: list[tuple[int, int, complex]] = []
     for (ai, ki), roots in grid.items():
         out.extend((ai, ki, z) for r, z in enumerate(roots) if ((ai, ki), r) not in beaten)
     return out

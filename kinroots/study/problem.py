@@ -215,7 +215,7 @@ class SpatialFunction:
         if krook.collisional(plasma) and self.case.model == "electrostatic" and not plasma.B:
             theta = math.radians(self.case.angle_deg)
             f, _, fk = krook.scaled_dispersion(
-                self.omega * units.omega_unit, plasma.species,
+                np.asarray(self.omega * units.omega_unit, dtype=complex), plasma.species,
                 k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
                 sin_theta=math.sin(theta),
             )

@@ -355,8 +355,8 @@ def follow_branches(
                     break
                 tb.points[q] = r
         if count:
-            known = [[r.value for b in results if (r := b.points.get(q)) is not None
-                      and r.converged for _ in range(r.multiplicity)]
+            known = [[pt.value for b in results if (pt := b.points.get(q)) is not None
+                      and pt.converged for _ in range(pt.multiplicity)]
                      for q in params[i:j + 1]]
             got = counter.count(params[i:j + 1], pairs=pairs, family=family, known=known)
             for c in got:

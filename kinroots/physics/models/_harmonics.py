@@ -29,7 +29,7 @@ import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, NamedTuple
+from typing import Any, NamedTuple, overload
 
 import numpy as np
 from scipy.special import ive
@@ -118,7 +118,7 @@ def _gamma_real(n: np.ndarray, x: float | np.ndarray) -> np.ndarray:
 
 def _gamma_complex(n: np.ndarray, lam: complex | np.ndarray) -> np.ndarray:
     """Γ_n(λ) for any complex λ (see :func:`gamma_table`)."""
-    return ive(n, lam) * np.exp(abs(lam.real) - lam)
+    return ive(n, lam) * np.exp(np.abs(np.real(lam)) - lam)
 
 
 def _nan_weights(nmax: int) -> BesselWeights:
@@ -260,7 +260,9 @@ def bessel_weights_array(lam: np.ndarray, tol: float) -> BesselWeights:
         out = np.full((flat.size, 2 * N + 1), np.nan + 0j)
         out[live[kept]] = values.T
         fields.append(out.reshape(lam.shape + (2 * N + 1,)))
-    return BesselWeights(part.n, *fields, harmonics=N, converged=converged.reshape(lam.shape))
+    gamma, dgamma, g = fields
+    return BesselWeights(part.n, gamma, dgamma, g, harmonics=N,
+                         converged=converged.reshape(lam.shape))
 
 
 def _weight_table(
@@ -470,6 +472,10 @@ def _species_constants(species: Species, B: float, model: str) -> tuple[float, .
     return wpar, wperp, float(species.drift), species.cyclotron_frequency(B)
 
 
+@overload
+def _lam(kperp: complex, wperp: float, omega_c: float) -> complex: ...
+@overload
+def _lam(kperp: np.ndarray, wperp: float, omega_c: float) -> np.ndarray: ...
 def _lam(kperp: complex | np.ndarray, wperp: float, omega_c: float) -> complex | np.ndarray:
     """λ = k⊥² w⊥² / (2 Ω²)."""
     return kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
@@ -649,7 +655,8 @@ def prepare_species_array(
     om_e = np.broadcast_to(om, shape).ravel()
     kpar_e = np.broadcast_to(kpar, shape).ravel()
     kperp_e = np.broadcast_to(kperp, shape).ravel()
-    good = np.isfinite(om_e) & np.isfinite(kpar_e) & np.isfinite(kperp_e) & weights.converged[row]
+    good = (np.isfinite(om_e) & np.isfinite(kpar_e) & np.isfinite(kperp_e)
+            & np.asarray(weights.converged)[row])
     return ArraySetup(shape, om_e, kpar_e, kperp_e, row, lam, weights, good, wpar, wperp, drift,
                       omega_c)
 
@@ -686,11 +693,11 @@ def evaluate(
         non-converged harmonic sum, gives NaN everywhere (scalar k) or at that element.
     """
     if is_array_k(k_par, k_perp):
-        return evaluate_array(omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol,
-                              model=model, tail=tail, parts=parts)
+        return evaluate_array(omega, species, k_par=np.asarray(k_par), k_perp=np.asarray(k_perp),
+                              B=B, tol=tol, model=model, tail=tail, parts=parts)
     om = np.asarray(omega, dtype=complex)
-    setup = prepare_species(om.shape + tail, species, k_par=k_par, k_perp=k_perp, B=B,
-                            tol=tol, model=model)
+    setup = prepare_species(om.shape + tail, species, k_par=complex(k_par),
+                            k_perp=complex(k_perp), B=B, tol=tol, model=model)
     if isinstance(setup, Susceptibility):
         return setup
     with np.errstate(all="ignore"):

@@ -12,7 +12,7 @@ the drift axis as z.  Time dependence exp(i k·x − i ω t).
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Protocol
+from typing import Any, Protocol
 
 import numpy as np
 
@@ -47,8 +47,8 @@ class Builder(Protocol):
         species: Species,
         /,
         *,
-        k_par: complex,
-        k_perp: complex,
+        k_par: Any,
+        k_perp: Any,
         B: float,
         tol: float = 1e-14,
     ) -> Susceptibility: ...

@@ -113,8 +113,8 @@ def susceptibility(
 
         if is_array_k(k_par, k_perp):
             raise ValueError("array k is not supported for collisional species")
-        return krook.magnetized_susceptibility(omega, species, k_par=k_par, k_perp=k_perp,
-                                               B=B, tol=tol)
+        return krook.magnetized_susceptibility(omega, species, k_par=complex(k_par),
+                                               k_perp=complex(k_perp), B=B, tol=tol)
     return evaluate(
         omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="es_magnetized",
         tail=(), parts=lambda om, setup, perp: _parts(om, setup, perp, species),

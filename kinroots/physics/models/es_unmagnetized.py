@@ -255,8 +255,8 @@ def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
         if _A_LIST[i] * power < 1e-18:
             count = i + 1
             break
-    acc = _A_LIST[count - 1]
-    dacc = _DA_LIST[count - 1]
+    acc: complex = _A_LIST[count - 1]
+    dacc: complex = _DA_LIST[count - 1]
     for n in range(count - 2, 0, -1):
         acc = acc * u + _A_LIST[n]
         dacc = dacc * u + _DA_LIST[n]
@@ -455,10 +455,14 @@ def susceptibility(
 
 def _zeta_and_coefficient(
     omega: Any, species: Species, k_par: Any, k_perp: Any
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """ζ = (ω − k∥V)/κ, −2ω_p²/κ² and κ of :func:`susceptibility` (k broadcast against ω)."""
+) -> tuple[np.ndarray, complex | np.ndarray, complex | np.ndarray]:
+    """ζ = (ω − k∥V)/κ, −2ω_p²/κ² and κ of :func:`susceptibility` (k broadcast against ω;
+    the last two are numpy scalars for scalar k)."""
     om = np.asarray(omega, dtype=complex)
     wpar2, wperp2 = thermal_speeds_squared(species)
+    kpar: complex | np.ndarray
+    kperp: complex | np.ndarray
+    kappa2: complex | np.ndarray
     if np.ndim(k_par) == 0 and np.ndim(k_perp) == 0:  # scalar k: no broadcast copies
         kpar = complex(k_par)
         kperp = complex(k_perp)
