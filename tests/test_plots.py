@@ -134,7 +134,7 @@ def test_no_plot_writes_tables_only(tmp_path: Path) -> None:
     res = runner.invoke(app, ["roots", str(case), "-o", str(out), "--at", "0.5", "--no-plot"])
     assert res.exit_code == 0, res.output
     assert sorted(p.name for p in out.iterdir()) == ["roots-manifest.json", "roots.csv",
-                                                     "summary.json"]
+                                                     "roots.units.csv", "summary.json"]
 
 
 def test_every_drawing_command_has_the_figure_options() -> None:

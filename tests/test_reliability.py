@@ -242,7 +242,8 @@ def test_output_set_is_replaced_whole_or_not_at_all(monkeypatch: pytest.MonkeyPa
     path, out = small_case(tmp_path), tmp_path / "out"
     assert invoke("solve", str(path), "-o", str(out)).exit_code in (0, 1)
     manifest = json.loads((out / "solve-manifest.json").read_text(encoding="utf-8"))
-    assert set(manifest["files"]) == {"branches.csv", "summary.json", "branches.png"}
+    assert set(manifest["files"]) == {"branches.csv", "branches.units.csv", "summary.json",
+                                      "branches.png"}
     for name, info in manifest["files"].items():
         assert hashlib.sha256((out / name).read_bytes()).hexdigest() == info["sha256"]
     before = {p.name: p.read_bytes() for p in out.iterdir()}

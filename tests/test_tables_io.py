@@ -21,3 +21,43 @@ def test_written_files_follow_the_umask(tmp_path):
     for name in ("t.csv", "s.json", "f.png"):
         assert stat.S_IMODE((tmp_path / name).stat().st_mode) == 0o644
     assert stat.S_IMODE((tmp_path / "private.bin").stat().st_mode) == 0o600
+
+
+def test_every_table_column_has_its_unit_beside_it(tmp_path):
+    import csv as _csv
+
+    from typer.testing import CliRunner
+
+    from kinroots.cli import app
+
+    res = CliRunner().invoke(app, ["solve", "-o", str(tmp_path), "--no-plot"])
+    assert res.exit_code == 0, res.output
+    with open(tmp_path / "branches.csv", newline="") as fh:
+        header = next(_csv.reader(fh))
+    with open(tmp_path / "branches.units.csv", newline="") as fh:
+        units = {r["column"]: r["unit"] for r in _csv.DictReader(fh)}
+    assert list(units) == header
+    # the default case: ω in ω_pe, k in 1/λ_De (its [units] table)
+    assert units["omega_real"] == units["omega_imag"] == "omega_pe"
+    assert units["k"] == "1/lambda_De"
+    assert (units["k_per_m"], units["freq_hz"], units["gamma_per_s"]) == ("1/m", "Hz", "1/s")
+    assert units["density_phase_deg_e"] == "degree" and units["residual"] == "1"
+
+
+def test_column_units_of_study_and_lab_tables():
+    from kinroots.io.tables import column_units
+    from kinroots.physics.spectrum import SPECTRUM_COLUMNS
+    from kinroots.study.launch import LAUNCH_COLUMNS
+    from kinroots.study.sweep import THRESHOLD_COLUMNS
+
+    u = dict(column_units(LAUNCH_COLUMNS, frequency="omega_pi", length="lambda_De"))
+    assert (u["omega"], u["k_imag"], u["k_imag_per_m"], u["damping_length_m"],
+            u["damping_length_cm"], u["phase_speed_m_per_s"]) == (
+        "omega_pi", "1/lambda_De", "1/m", "m", "cm", "m/s")
+    u = dict(column_units(SPECTRUM_COLUMNS, frequency="omega_pe", length="lambda_De"))
+    assert (u["wavelength_shift_nm"], u["frequency_shift_hz"], u["spectral_density_s"],
+            u["relative_power_per_nm"], u["alpha"]) == ("nm", "Hz", "s", "1/nm", "1")
+    u = dict(column_units(THRESHOLD_COLUMNS, frequency="Omega_cp", length="d_p",
+                          parameters={"threshold": "1", "across": "T"}))
+    assert (u["across"], u["growth_level"], u["growth_k"], u["growth_angle"]) == (
+        "T", "Omega_cp", "1/d_p", "degree")

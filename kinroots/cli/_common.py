@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import enum
 import functools
-from collections.abc import Callable
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated, Any, NoReturn
 
@@ -362,3 +362,13 @@ def figure_path(output: Path, stem: str, fmt: FigureFormat | str, no_plot: bool
 def written(*paths: Path | None) -> str:
     """'wrote a, b, c' for the files actually written (None skipped)."""
     return "wrote " + ", ".join(str(p) for p in paths if p is not None)
+
+
+def table_units(case: Any, columns: Sequence[str],
+                parameters: Mapping[str, str] | None = None) -> list[tuple[str, str]]:
+    """(column, unit) of a table of ``case`` (see :func:`kinroots.io.tables.column_units`)."""
+    from kinroots.io.tables import column_units
+
+    u = case.units
+    return column_units(columns, frequency=u.frequency_label_ascii,
+                        length=u.length_label_ascii, parameters=parameters)

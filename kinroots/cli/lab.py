@@ -58,7 +58,8 @@ def launch_command(
     """
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
-    from kinroots.io.tables import OutputSet, write_csv, write_json
+    from kinroots.cli._common import table_units
+    from kinroots.io.tables import OutputSet, write_csv, write_json, write_units
     from kinroots.study import launch as launch_mod
     from kinroots.study.rows import metadata
 
@@ -107,6 +108,7 @@ def launch_command(
     summary.pop("least_damped", None)
     out = OutputSet(output, "launch")
     write_csv(out.stage("launch.csv"), rows, columns)
+    write_units(out.stage("launch.units.csv"), table_units(loaded, columns))
     write_json(out.stage("launch.json"), summary)
     fig_path = figure_path(output, "launch", figure_format, no_plot)
     if fig_path is not None:
@@ -154,7 +156,8 @@ def scatter_command(
     Example: kinroots scatter cases/lab_launched_ion_acoustic.toml
              --laser-wavelength 532e-9 --angle 90 -o out/scatter
     """
-    from kinroots.io.tables import OutputSet, write_csv, write_json
+    from kinroots.cli._common import table_units
+    from kinroots.io.tables import OutputSet, write_csv, write_json, write_units
     from kinroots.physics import spectrum
     from kinroots.physics.plasma import CONVENTIONS, derived_quantities
 
@@ -220,6 +223,7 @@ def scatter_command(
     }
     out = OutputSet(output, "scatter")
     write_csv(out.stage("spectrum.csv"), rows, spectrum.SPECTRUM_COLUMNS)
+    write_units(out.stage("spectrum.units.csv"), table_units(loaded, spectrum.SPECTRUM_COLUMNS))
     write_json(out.stage("spectrum.json"), meta)
     fig_path = figure_path(output, "spectrum", figure_format, no_plot)
     if fig_path is not None:

@@ -26,6 +26,7 @@ from kinroots.cli._common import (
     info,
     load_case_or_exit,
     stderr_console,
+    table_units,
     written,
 )
 
@@ -126,7 +127,7 @@ def sweep_command(
              --workers 2
     """
     from kinroots.io.netcdf import dataset_bytes, sweep_dataset
-    from kinroots.io.tables import OutputSet, atomic_write_bytes, write_csv, write_json
+    from kinroots.io.tables import OutputSet, atomic_write_bytes, write_csv, write_json, write_units
     from kinroots.study.sweep import csv_table
 
     loaded = _prepare(case, default, output, "sweep")
@@ -134,7 +135,10 @@ def sweep_command(
     total = math.prod(spec.shape)
     rows = _run(loaded, "sweep", total, output, workers, scheduler)
     out = OutputSet(output, "sweep")
-    write_csv(out.stage("sweep.csv"), *csv_table(loaded, rows, "sweep"))
+    sweep_rows, sweep_cols = csv_table(loaded, rows, "sweep")
+    write_csv(out.stage("sweep.csv"), sweep_rows, sweep_cols)
+    write_units(out.stage("sweep.units.csv"), table_units(loaded, sweep_cols, {
+        a.path.safe_name: a.path.unit for a in spec.axes}))
     atomic_write_bytes(out.stage("sweep.nc"), dataset_bytes(sweep_dataset(
         loaded, rows, history=f"kinroots sweep {loaded.source or 'default case'}")))
     fig_path = figure_path(output, "sweep", figure_format, no_plot)
@@ -257,14 +261,18 @@ def threshold_command(
 
     Example: kinroots threshold cases/sweep_proton_anisotropy.toml -o out/sweep
     """
-    from kinroots.io.tables import OutputSet, write_csv, write_json
+    from kinroots.io.tables import OutputSet, write_csv, write_json, write_units
     from kinroots.study.sweep import csv_table
 
     loaded = _prepare(case, default, output, "threshold")
     t = loaded.threshold
     rows = _run(loaded, "threshold", t.across.points, output, workers, scheduler)
     out = OutputSet(output, "threshold")
-    write_csv(out.stage("threshold.csv"), *csv_table(loaded, rows, "threshold"))
+    t_rows, t_cols = csv_table(loaded, rows, "threshold")
+    write_csv(out.stage("threshold.csv"), t_rows, t_cols)
+    write_units(out.stage("threshold.units.csv"), table_units(loaded, t_cols, {
+        t.across.path.safe_name: t.across.path.unit, "threshold": t.path.unit,
+        "bracket_low": t.path.unit, "bracket_high": t.path.unit}))
     failed = [r for r in rows if not r.get("converged")]
     write_json(out.stage("threshold.json"), _summary(loaded, "threshold", rows, failed))
     ok = [r for r in rows if r.get("converged")]

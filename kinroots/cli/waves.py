@@ -67,7 +67,8 @@ def solve(
     """
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
-    from kinroots.io.tables import OutputSet, write_csv, write_json
+    from kinroots.cli._common import table_units
+    from kinroots.io.tables import OutputSet, root_table_columns, write_csv, write_json, write_units
     from kinroots.study.rows import GROWTH_RESOLUTION, branch_rows
     from kinroots.study.solve import solution_summary
     from kinroots.study.solve import solve as solve_case
@@ -87,6 +88,7 @@ def solve(
     summary = solution_summary(sol, rows)
     out = OutputSet(output, "solve")
     write_csv(out.stage("branches.csv"), rows)
+    write_units(out.stage("branches.units.csv"), table_units(loaded, root_table_columns(rows)))
     write_json(out.stage("summary.json"), summary)
     fig_path = figure_path(output, "branches", figure_format, no_plot)
     if fig_path is not None:
@@ -136,7 +138,8 @@ def roots(
     """
     import math
 
-    from kinroots.io.tables import OutputSet, write_csv, write_json
+    from kinroots.cli._common import table_units
+    from kinroots.io.tables import OutputSet, root_table_columns, write_csv, write_json, write_units
     from kinroots.study.problem import function_at, survey, window
     from kinroots.study.rows import metadata, survey_rows
 
@@ -170,6 +173,7 @@ def roots(
     })
     out = OutputSet(output, "roots")
     write_csv(out.stage("roots.csv"), rows)
+    write_units(out.stage("roots.units.csv"), table_units(loaded, root_table_columns(rows)))
     write_json(out.stage("summary.json"), summary)
     fig_path = figure_path(output, "map", figure_format, no_plot)
     if fig_path is not None:

@@ -124,6 +124,69 @@ def root_table_columns(rows: Iterable[Mapping[str, Any]]) -> tuple[str, ...]:
     return (*ROOT_COLUMNS, *extra)
 
 
+#: Units of columns whose unit does not depend on the case (see :func:`column_units`).
+_FIXED_UNITS: dict[str, str] = {
+    "scattered_wavelength_nm": "nm", "wavelength_shift_nm": "nm",
+    "relative_power_per_nm": "1/nm", "omega_rad_per_s": "rad/s", "spectral_density_s": "s",
+    "phase_speed_m_per_s": "m/s", "damping_length_cm": "cm",
+}
+#: Columns in the case's frequency unit (ω/ω_unit, γ/ω_unit).
+_FREQUENCY_COLUMNS = frozenset({
+    "omega_real", "omega_imag", "omega", "growth_max", "growth_omega_real",
+    "growth_omega_imag", "growth_level", "growth_at_low", "growth_at_high",
+    "least_damped_omega_real", "least_damped_omega_imag"})
+#: Columns in 1 / the case's length unit (normalized k).
+_WAVENUMBER_COLUMNS = frozenset({"k", "k_real", "k_imag", "growth_k", "least_damped_k"})
+_ANGLE_COLUMNS = frozenset({"growth_angle", "least_damped_angle"})
+
+
+def column_units(columns: Sequence[str], *, frequency: str, length: str,
+                 parameters: Mapping[str, str] | None = None) -> list[tuple[str, str]]:
+    """(column, unit) for every column of a kinroots table.
+
+    ``frequency`` and ``length`` name the case's units (ASCII, e.g. ``omega_pe`` and
+    ``lambda_De``); ``parameters`` maps columns holding a swept or bracketed parameter to
+    its unit.  SI columns carry their unit in their name (``_hz``, ``_per_s``, ``_per_m``,
+    ``_m``, ``_deg``); counts, flags, dimensionless ratios, residuals of the
+    (dimensionless) dispersion function and text get ``1`` or ``text``.  Written beside
+    every CSV as ``<table>.units.csv`` so that the units travel with the table while the
+    table itself stays plain CSV for any reader.
+    """
+    params = dict(parameters or {})
+    out = []
+    for c in columns:
+        if c in params:
+            unit = params[c]
+        elif c in _FIXED_UNITS:
+            unit = _FIXED_UNITS[c]
+        elif c in _FREQUENCY_COLUMNS:
+            unit = frequency
+        elif c in _WAVENUMBER_COLUMNS:
+            unit = f"1/{length}"
+        elif c in _ANGLE_COLUMNS or c.endswith("_deg") or c.startswith("density_phase_deg_"):
+            unit = "degree"
+        elif c.endswith(("_hz",)):
+            unit = "Hz"
+        elif c.endswith("_per_s"):
+            unit = "1/s"
+        elif c.endswith("_per_m"):
+            unit = "1/m"
+        elif c.endswith("_m"):
+            unit = "m"
+        elif c in ("status", "reason", "warnings"):
+            unit = "text"
+        else:
+            unit = "1"
+        out.append((c, unit))
+    return out
+
+
+def write_units(path: Path, units: Sequence[tuple[str, str]]) -> None:
+    """Write ``column,unit`` rows (from :func:`column_units`) atomically."""
+    atomic_write_text(path, rows_to_csv(({"column": c, "unit": u} for c, u in units),
+                                        ("column", "unit")))
+
+
 def rows_to_csv(rows: Iterable[Mapping[str, Any]], columns: Sequence[str] = ROOT_COLUMNS) -> str:
     """Render rows (mappings from column name to value) as CSV text.
 
