@@ -11,6 +11,7 @@ one circle per cluster root, one-point Newton) and as it is now.  Printed: evalu
 
 from __future__ import annotations
 
+import importlib
 import pathlib
 import sys
 import time
@@ -21,7 +22,7 @@ ROOT = pathlib.Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "tests"))
 from _problems import PROBLEMS  # noqa: E402
 
-import kinroots.roots.survey as survey_module  # noqa: E402
+survey_module = importlib.import_module("kinroots.roots.survey")  # kinroots.roots: the API function
 from kinroots.io.case import load_case  # noqa: E402
 from kinroots.roots import find_roots  # noqa: E402
 from kinroots.study.problem import survey  # noqa: E402

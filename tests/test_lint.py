@@ -29,3 +29,15 @@ def test_mypy_clean(tmp_path):
         cwd=ROOT, capture_output=True, text=True,
     )
     assert res.returncode == 0, res.stdout + res.stderr
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "benchmarks").glob("bench_*.py")),
+                         ids=lambda p: p.stem)
+def test_benchmarks_import(path, monkeypatch):
+    # `make bench` is not run in CI: at least every benchmark must still import (its
+    # imports and module-level set-up), without running its main().  As a script, its
+    # own folder is on sys.path.
+    import runpy
+
+    monkeypatch.syspath_prepend(str(path.parent))
+    runpy.run_path(str(path), run_name="bench_import_check")

@@ -73,10 +73,14 @@ def test_feature_params_are_geometric_about_the_projection():
     assert 5.0 in t and t.min() > 0.0 and t.max() < 10.0
     right = t[t > 5.0] - 5.0
     assert right[0] == pytest.approx(0.005)  # s = max(w, d)/2, d = 0.01
-    assert np.allclose(right[1:] / right[:-1], 2.0)
+    assert np.allclose(right[1:] / right[:-1], 4.0)
     assert right[-1] >= 1.25  # reaches the uniform spacing
-    # a feature broader than the uniform spacing needs nothing
-    assert feature_params(edge, [(complex(5.0, 0.0), 3.0)], spacing=1.25).size == 0
+    # a pole a/(z − c) at distance d turns by less than π/4 between these samples
+    c = complex(5.0, 0.0)
+    z = np.concatenate(([5.0], 5.0 + right)) - 0.01j
+    assert np.max(np.abs(np.diff(np.unwrap(np.angle(1.0 / (z - c)))))) < math.pi / 4
+    # a feature the uniform samples resolve (scale ≥ spacing/8) needs nothing
+    assert feature_params(edge, [(complex(5.0, 0.0), 0.4)], spacing=1.25).size == 0
 
 
 def test_boundary_counts_see_zeros_next_to_a_resonance():

@@ -40,6 +40,9 @@ __all__ = [
 
 #: Largest phase change of f accepted between neighbouring samples (radians).
 PHASE_STEP = math.pi / 4
+#: A narrow feature gets its own samples when its scale is below the uniform spacing
+#: divided by this (:func:`feature_params`).
+FEATURE_RATIO = 8.0
 
 LineKey = tuple[str, float]  # ("h", y) for Im z = y, ("v", x) for Re z = x
 
@@ -210,11 +213,13 @@ def feature_params(edge: Edge, features: Sequence[tuple[complex, float]], spacin
     """Line parameters on ``edge`` spaced geometrically about narrow features.
 
     A feature (centre c, width w) seen from a line at distance d varies along it on the
-    scale s = max(w, d); about the projection t₀ of c the samples t₀, t₀ ± s/2 · 2^j
-    (j = 0, 1, …) reach out to ``spacing`` (the uniform spacing, which resolves the
-    rest).  Seen from these samples a pole-like term a/(z − c) turns by at most about
-    0.46 rad between neighbours, and the phase test of :func:`segment_ok` refines the
-    rest; uniform samples alone can step over the feature and miss whole windings.
+    scale max(w, d); with s = max(w, d)/2, about the projection t₀ of c the samples t₀,
+    t₀ ± s · 4^j (j = 0, 1, …) reach out to ``spacing`` (the uniform spacing, which
+    resolves the rest).  Seen from these samples a pole-like term a/(z − c) turns by at
+    most about 0.64 rad between neighbours (< π/4, the phase step of
+    :func:`segment_ok`, which refines the rest); uniform samples alone can step over the
+    feature and miss whole windings.  Features with s ≥ ``spacing``/:data:`FEATURE_RATIO`
+    are seen by the uniform samples and get none.
     """
     kind, c_line = edge.key
     lo, hi = min(edge.t0, edge.t1), max(edge.t0, edge.t1)
@@ -222,11 +227,11 @@ def feature_params(edge: Edge, features: Sequence[tuple[complex, float]], spacin
     for c, w in features:
         t0, d = (c.real, abs(c_line - c.imag)) if kind == "h" else (c.imag, abs(c_line - c.real))
         s = 0.5 * max(w, d)
-        if not s < spacing:
+        if not s < spacing / FEATURE_RATIO:  # uniform samples see it: nothing to add
             continue
         if t0 + spacing < lo or t0 - spacing > hi:
             continue
-        steps = s * 2.0 ** np.arange(int(math.ceil(math.log2(spacing / s))) + 1)
+        steps = s * 4.0 ** np.arange(int(math.ceil(math.log(spacing / s, 4))) + 1)
         t = np.concatenate(([t0], t0 - steps, t0 + steps))
         out.append(t[(t > lo) & (t < hi)])
     return np.concatenate(out) if out else np.zeros(0)
