@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from kinroots.io.case import CaseError, load_case, parse_case
-from kinroots.physics.models import es_magnetized, es_unmagnetized, krook
+from kinroots.physics.models import es_magnetized, es_unmagnetized, krook, krook_dispersion
 from kinroots.physics.plasma import AMU, M_ELECTRON, Species
 from kinroots.roots import polish
 from kinroots.study.problem import dispersion_at, function_at, spatial_roots, survey
@@ -247,9 +247,9 @@ def test_magnetized_derivatives_match_finite_differences():
         np.testing.assert_allclose(a.derivative, fd, rtol=1e-8)
         if kpar == 0.0:
             continue
-        f, fw = krook.magnetized_scaled_dispersion(om, sp, **kk)
-        fd = (krook.magnetized_scaled_dispersion(om + h, sp, **kk)[0]
-              - krook.magnetized_scaled_dispersion(om - h, sp, **kk)[0]) / (2 * h)
+        f, fw = krook_dispersion.magnetized_scaled_dispersion(om, sp, **kk)
+        fd = (krook_dispersion.magnetized_scaled_dispersion(om + h, sp, **kk)[0]
+              - krook_dispersion.magnetized_scaled_dispersion(om - h, sp, **kk)[0]) / (2 * h)
         np.testing.assert_allclose(fw, fd, rtol=1e-8)
         # F = Q_ion (1 + Σ χ_s): the zeros of D, none of its poles
         q = krook.magnetized_parts(om, ion, **kk)[2]
@@ -259,12 +259,12 @@ def test_magnetized_derivatives_match_finite_differences():
     c, sn = math.cos(1.0), math.sin(1.0)
     k = np.array([3e3 + 100j])
     om0 = 3.3 * oc
-    _, fk = krook.magnetized_scaled_dispersion_in_k(om0, sp, k=k, cos_theta=c, sin_theta=sn,
-                                                     B=b)
+    _, fk = krook_dispersion.magnetized_scaled_dispersion_in_k(om0, sp, k=k, cos_theta=c,
+                                                               sin_theta=sn, B=b)
     hk = 1e-2
-    fp = krook.magnetized_scaled_dispersion_in_k(om0, sp, k=k + hk, cos_theta=c,
+    fp = krook_dispersion.magnetized_scaled_dispersion_in_k(om0, sp, k=k + hk, cos_theta=c,
                                                  sin_theta=sn, B=b)[0]
-    fm = krook.magnetized_scaled_dispersion_in_k(om0, sp, k=k - hk, cos_theta=c,
+    fm = krook_dispersion.magnetized_scaled_dispersion_in_k(om0, sp, k=k - hk, cos_theta=c,
                                                  sin_theta=sn, B=b)[0]
     np.testing.assert_allclose(fk, (fp - fm) / (2 * hk), rtol=1e-7)
 

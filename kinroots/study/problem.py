@@ -24,7 +24,7 @@ from kinroots.physics.dispersion import (
     dispersion_pairs,
     in_blocks,
 )
-from kinroots.physics.models import krook
+from kinroots.physics.models import krook, krook_dispersion
 from kinroots.roots import (
     Branch,
     SurveyResult,
@@ -95,7 +95,7 @@ class NormalizedDispersion:
             if disp.k_par == 0:
                 nan = np.full(om.shape, np.nan + 0j)
                 return nan, nan.copy()
-            f, fw = krook.magnetized_scaled_dispersion(
+            f, fw = krook_dispersion.magnetized_scaled_dispersion(
                 om * w_u, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
                 B=disp.plasma.B, tol=disp.harmonic_tol,
             )
@@ -206,7 +206,7 @@ class SpatialFunction:
         plasma = self.case.plasma
         if krook.collisional(plasma) and self.case.model == "electrostatic" and plasma.B:
             theta = math.radians(self.case.angle_deg)
-            f, fk = krook.magnetized_scaled_dispersion_in_k(
+            f, fk = krook_dispersion.magnetized_scaled_dispersion_in_k(
                 self.omega * units.omega_unit, plasma.species,
                 k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
                 sin_theta=math.sin(theta), B=plasma.B, tol=self.case.solver.harmonic_tolerance,

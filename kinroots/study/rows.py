@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import math
-from typing import TYPE_CHECKING, Any
+from collections.abc import Sequence
+from typing import Any, Protocol
 
 from kinroots import __version__
 from kinroots.io.case import Case
@@ -16,8 +17,26 @@ from kinroots.roots import (
 )
 from kinroots.study.problem import MATCH_FRACTION
 
-if TYPE_CHECKING:
-    from kinroots.study.solve import Solution
+
+class _Branch(Protocol):
+    """What :func:`branch_rows` reads of a traced branch
+    (:class:`kinroots.study.solve.TracedBranch`)."""
+
+    id: int
+    verified_at: set[float]
+
+    def sorted_points(self) -> list[tuple[float, RootResult]]: ...
+
+
+class _Traced(Protocol):
+    """What :func:`branch_rows` reads of a solution (:class:`kinroots.study.solve.Solution`;
+    a protocol here, so that this module does not import the solver that imports it)."""
+
+    @property
+    def case(self) -> Case: ...
+
+    @property
+    def branches(self) -> Sequence[_Branch]: ...
 
 
 def root_row(case: Case, branch: int | str, k: float, r: RootResult,
@@ -75,7 +94,7 @@ def with_note(reason: str, note: str) -> str:
     return "; ".join(x for x in (reason, note) if x)
 
 
-def branch_rows(sol: Solution) -> list[dict[str, Any]]:
+def branch_rows(sol: _Traced) -> list[dict[str, Any]]:
     """Rows of branches.csv, branch by branch, k increasing."""
     rows = []
     for b in sol.branches:

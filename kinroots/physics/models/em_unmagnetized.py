@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from kinroots.physics.models._landau import landau_moments, thermal_speeds_squared
 from kinroots.physics.models.base import Susceptibility
-from kinroots.physics.models.es_unmagnetized import landau_moments, thermal_speeds_squared
 from kinroots.physics.plasma import Species
 
 __all__ = ["ScaledSum", "scaled_susceptibility", "susceptibility"]

@@ -15,8 +15,8 @@ from __future__ import annotations
 import numpy as np
 
 from kinroots.physics.models._harmonics import hdot, landau_sign, prepare_species
+from kinroots.physics.models._landau import landau_moments, thermal_speeds_squared
 from kinroots.physics.models.base import Susceptibility
-from kinroots.physics.models.es_unmagnetized import landau_moments, thermal_speeds_squared
 from kinroots.physics.plasma import Species
 from kinroots.physics.zfunc import plasma_z_and_prime
 
@@ -24,9 +24,8 @@ __all__ = [
     "collisional",
     "denominator",
     "magnetized_parts",
-    "magnetized_scaled_dispersion",
-    "magnetized_scaled_dispersion_in_k",
     "magnetized_susceptibility",
+    "product_sum",
     "scaled_dispersion",
     "susceptibility",
 ]
@@ -422,7 +421,7 @@ def magnetized_susceptibility(
     return Susceptibility(value=value, derivative=derivative, harmonics=harm)
 
 
-def _product_sum(
+def product_sum(
     qs: list[np.ndarray], dqs: list[np.ndarray], ns: list[np.ndarray], dns: list[np.ndarray],
     like: np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -441,116 +440,3 @@ def _product_sum(
         f = f + prod
         df = df + d
     return f, df
-
-
-def magnetized_scaled_dispersion(
-    omega: np.ndarray,
-    species: tuple[Species, ...],
-    /,
-    *,
-    k_par: complex,
-    k_perp: complex,
-    B: float,
-    tol: float = 1e-14,
-) -> tuple[np.ndarray, np.ndarray]:
-    r"""Entire F = (Π_s Q_s)(1 + Σ_s χ_s) of a magnetized electrostatic plasma, and ∂F/∂ω.
-
-    Parameters
-    ----------
-    omega : array_like of complex
-        ω [rad/s].
-    species : tuple of Species
-        All species; those with ν = 0 use the collisionless magnetized χ (any T∥, T⊥)
-        and Q = 1, those with ν > 0 need T∥ = T⊥ (:func:`magnetized_parts`).
-    k_par, k_perp, B, tol
-        As for :func:`magnetized_parts`.
-
-    Returns
-    -------
-    F, dF_domega : ndarray of complex
-
-    Notes
-    -----
-    F = Π Q + Σ_s N_s Π_{r≠s} Q_r: the zeros of D without the poles Q_s = 0 of χ_s.  Entire
-    in ω for k∥ ≠ 0 (Z is entire); at k∥ = 0 with ν > 0, N_s and Q_s have poles at
-    ω = nΩ_s − iν_s (see :func:`magnetized_parts`).
-    """
-    from kinroots.physics.models import es_magnetized
-
-    om = np.asarray(omega, dtype=complex)
-    qs, dqs, ns, dns = [], [], [], []
-    for s in species:
-        if s.collision_frequency > 0.0:
-            n, dn, q, dq, _ = magnetized_parts(om, s, k_par=k_par, k_perp=k_perp, B=B, tol=tol)
-        else:
-            res = es_magnetized.susceptibility(om, s, k_par=k_par, k_perp=k_perp, B=B, tol=tol)
-            n, dn = np.asarray(res.value), np.asarray(res.derivative)
-            q, dq = np.ones_like(om), np.zeros_like(om)
-        qs.append(q)
-        dqs.append(dq)
-        ns.append(n)
-        dns.append(dn)
-    with np.errstate(all="ignore"):
-        return _product_sum(qs, dqs, ns, dns, om)
-
-
-#: Points and relative radius of the Cauchy circle for ∂F/∂k (magnetized, collisional).
-_CAUCHY_POINTS = 16
-_CAUCHY_RADIUS = 1e-3
-
-
-def magnetized_scaled_dispersion_in_k(
-    omega: float,
-    species: tuple[Species, ...],
-    /,
-    *,
-    k: np.ndarray,
-    cos_theta: float,
-    sin_theta: float,
-    B: float,
-    tol: float = 1e-14,
-) -> tuple[np.ndarray, np.ndarray]:
-    r"""F of :func:`magnetized_scaled_dispersion` and ∂F/∂k at one ω, vectorized over k.
-
-    Parameters
-    ----------
-    omega : float
-        Real frequency [rad/s].
-    species, B, tol
-        As for :func:`magnetized_scaled_dispersion`.
-    k : array_like of complex
-        Wavenumbers [1/m] (Re k > 0), any shape.
-    cos_theta, sin_theta : float
-        Fixed real direction of k relative to B.
-
-    Returns
-    -------
-    F, dF_dk : ndarray of complex
-        NaN where k is zero or not finite.
-
-    Notes
-    -----
-    Cauchy's formula on a circle (Ω_s fixed: no homogeneity in (ω, k)),
-    ∂F/∂k = (1/(m r)) Σ_j F(k + r e^{iφ_j}) e^{−iφ_j}, φ_j = 2π(j + 1/2)/m, m = 16,
-    r = 1e-3|k| (error of order (r/R)^16, R the distance to the nearest singularity).
-    """
-    kk = np.asarray(k, dtype=complex)
-    f = np.full(kk.shape, np.nan + 0j)
-    fk = np.full(kk.shape, np.nan + 0j)
-    om = np.array([complex(omega)])
-    phis = 2.0 * np.pi * (np.arange(_CAUCHY_POINTS) + 0.5) / _CAUCHY_POINTS
-    ring = np.exp(1j * phis)
-    for idx in np.ndindex(kk.shape):
-        k0 = complex(kk[idx])
-        if not (np.isfinite(k0.real) and np.isfinite(k0.imag)) or k0 == 0:
-            continue
-        f[idx] = magnetized_scaled_dispersion(om, species, k_par=k0 * cos_theta,
-                                              k_perp=k0 * sin_theta, B=B, tol=tol)[0][0]
-        r = _CAUCHY_RADIUS * abs(k0)
-        acc = 0j
-        for e in ring:
-            kj = k0 + r * e
-            acc += magnetized_scaled_dispersion(om, species, k_par=kj * cos_theta,
-                                                k_perp=kj * sin_theta, B=B, tol=tol)[0][0] / e
-        fk[idx] = acc / (_CAUCHY_POINTS * r)
-    return f, fk
