@@ -175,7 +175,7 @@ class RootSet:
     def _lines(self) -> list[str]:
         u = self.case.units
         head = (f"RootSet at k = {self.k:g} /{u.length_label_ascii} ({self.case.title!r}): "
-                f"{len(self.values)} root(s), argument-principle count {self.count}, "
+                f"{len(self.values)} root(s), {self.survey.count_text}, "
                 + ("complete" if self.complete else "INCOMPLETE"))
         lines = [head]
         for r in self.survey.roots[:_REPR_ITEMS]:

@@ -141,3 +141,24 @@ def test_roots_summary_reports_the_harmonics_used(tmp_path):
     disp(np.array([0.37 * disp.omega_ref + 0.01j * disp.omega_ref]))  # the builders' report
     assert reported == disp.harmonics
     assert all(n > 0 for n in reported.values())
+
+
+def test_a_window_that_cannot_be_surveyed_says_so_once_and_plainly(tmp_path):
+    # The hydrogen discharge with a window reaching Im ω = −ω_pe, where the ion Landau
+    # term overflows double precision (issue 15): nothing can be found, and the run must
+    # say why, once, in words (no Python None), with an exit code of 1.
+    text = Path("cases/hydrogen_discharge.toml").read_text()
+    text = (text.replace("real = [0.8, 3.0]", "real = [0.001, 3.0]")
+            .replace("imag = [-0.4, 0.05]", "imag = [-1.0, 0.5]")
+            .replace("points = 56", "points = 4"))
+    case = tmp_path / "c.toml"
+    case.write_text(text)
+    res = CliRunner().invoke(app, ["solve", str(case), "-o", str(tmp_path / "o")],
+                             terminal_width=200)
+    assert res.exit_code == 1, res.output
+    out = res.output
+    assert "None" not in out
+    assert out.count("survey incomplete at") == 1
+    assert "branches.csv holds only its header" in out
+    assert "4 of 4 k not verified" in out
+    assert (tmp_path / "o" / "branches.csv").read_text().count("\n") == 1

@@ -131,7 +131,10 @@ def launch_command(
                       "(launch.json: interrupted = true)", style="red")
         raise typer.Exit(EXIT_INTERRUPTED)
     if res.failed_points:
-        console.print(f"{res.failed_points} point(s) failed: flagged in the table", style="red")
+        where = ("flagged in the table (converged = false)" if rows else "no wave was found "
+                 "at any frequency, so launch.csv holds only its header; launch.json and the "
+                 "notes above say why")
+        console.print(f"{res.failed_points} point(s) failed: {where}", style="red")
         raise typer.Exit(1)
 
 

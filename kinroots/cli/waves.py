@@ -113,9 +113,13 @@ def solve(
         console.print("interrupted: the tables hold the scan points done before Ctrl-C "
                       "(summary.json: interrupted = true)", style="red")
         raise typer.Exit(EXIT_INTERRUPTED)
-    if sol.failed_points:
-        console.print(f"{sol.failed_points} point(s) failed: flagged in the table "
-                      "(converged = false) and in summary.json", style="red")
+    if sol.failed_points or sol.unverified_points:
+        where = ("flagged in the table (converged = false) and in summary.json" if rows else
+                 "no root was found at any k, so branches.csv holds only its header; "
+                 "summary.json (point_checks, notes) and the notes above say why")
+        console.print(f"{sol.failed_points} point(s) failed, {sol.unverified_points} of "
+                      f"{len(loaded.k_values)} k not verified by a zero count: {where}",
+                      style="red")
         raise typer.Exit(1)
 
 
@@ -190,7 +194,8 @@ def roots(
     for r in rows:
         if r.get("converged"):
             console.print(_describe_root(r, loaded))
-    console.print(f"{len(s.values)} root(s) in the window (argument principle: {s.count}); "
+    console.print(f"{len(s.values)} root(s) in the window ({s.count_text} by the argument "
+                  "principle); "
                   f"{s.evaluations} evaluations; "
                   + written(output / "roots.csv", output / "summary.json", fig_path))
     if not s.complete:

@@ -174,6 +174,11 @@ def plot_branches(
                    else omega_unit_rad_per_s / two_pi, math_label("f = ω_r/2π [Hz]"))
     secondary_axis(ax_i, "y", omega_unit_rad_per_s, "γ [1/s]")
     set_title(ax_r, title)
+    if not any(np.isfinite(np.asarray(c.omega, dtype=complex)).any() for c in curves):
+        for a in (ax_r, ax_i):  # say why the panels are blank
+            a.text(0.5, 0.5, "no root found in the search window\n(see the notes in the "
+                   "summary)", transform=a.transAxes, ha="center", va="center",
+                   color="0.3")
     if curves:
         from matplotlib.lines import Line2D
 

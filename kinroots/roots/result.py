@@ -140,6 +140,13 @@ class SurveyResult:
         """Values of the converged roots (complex array)."""
         return np.array([r.value for r in self.roots if r.converged], dtype=complex)
 
+    @property
+    def count_text(self) -> str:
+        """The count in words for messages: the number, or why there is none."""
+        if self.count is None:
+            return "not counted (the window's boundary could not be resolved)"
+        return f"{self.count} zero(s) counted"
+
 
 class CountedFunction:
     """Wrap a user function, force 1-D complex input and count evaluated points.

@@ -177,9 +177,12 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
                      features=f.features(wide))
     if any("is not finite" in n for n in res.notes):
         res.notes.append(
-            "D overflows there: the Landau term exp(-zeta^2) of a cold species exceeds "
-            "double precision deep in the lower half-plane; keep Im(omega) above about "
-            "-|Re(omega)| on the frequency scale k*w of the coldest species (README, limits)"
+            "D overflows there: a Landau term exp(-zeta^2) exceeds double precision where "
+            "the edge runs below the real axis by more than about 26 widths of a resonance "
+            "(zeta = (omega - k_par V - n Omega)/(k w)): the width is k*w of a cold species "
+            "unmagnetized, k_par*w_par near a cyclotron harmonic n*Omega + k_par*V when "
+            "magnetized; raise the window's lower edge toward the real axis there, or keep "
+            "it away from those harmonics (README, limits)"
         )
     return res
 

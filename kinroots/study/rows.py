@@ -84,7 +84,7 @@ def survey_rows(case: Case, k: float, s: SurveyResult) -> list[dict[str, Any]]:
     if not s.complete:
         rows.append({"branch": "", "k": k, "converged": False, "verified": False,
                      "k_per_m": float(case.units.k_to_si(k)), "status": "incomplete",
-                     "reason": f"counted {s.count} zeros, found {len(s.values)}: "
+                     "reason": f"{s.count_text}, {len(s.values)} found: "
                                + "; ".join(s.notes)})
     return rows
 

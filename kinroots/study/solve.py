@@ -112,6 +112,11 @@ class Solution:
         n += sum(1 for _, s in self.surveys if not s.complete)
         return n
 
+    @property
+    def unverified_points(self) -> int:
+        """Scan points whose zero count could not be taken or did not match the rows."""
+        return sum(1 for c in self.point_checks if not c.verified)
+
 
 def failed_root(value: complex, reason: str) -> RootResult:
     """A point that tracing could not reach: ``converged`` false, with the reason."""
@@ -200,6 +205,7 @@ def follow_branches(
     diameter = math.hypot(box[1] - box[0], box[3] - box[2])
     match_tol = MATCH_FRACTION * diameter
     notes: list[str] = []
+    incomplete: dict[str, list[str]] = {}  # reason -> where (surveys that did not finish)
     evaluations = 0
     batch = resurvey_every if resurvey_every > 0 else 10
 
@@ -223,11 +229,10 @@ def follow_branches(
         s = survey_at(params[i])
         evaluations += s.evaluations
         surveys.append((params[i], s))
-        if not s.complete:
-            notes.append(
-                f"survey at {label(params[i])} incomplete: counted {s.count} zeros, "
-                f"found {len(s.values)} ({'; '.join(s.notes) or 'no detail'})"
-            )
+        if not s.complete:  # one note per reason, with every parameter value it applies to
+            reason = "; ".join(dict.fromkeys(s.notes)) or "no detail"
+            incomplete.setdefault(reason, []).append(
+                f"{label(params[i])} ({s.count_text}, {len(s.values)} found)")
         return s
 
     def rows_at(p: float) -> int:
@@ -415,6 +420,8 @@ def follow_branches(
             for tb in results:
                 if p in tb.points and tb.points[p].converged:
                     tb.verified_at.add(p)
+    for reason, where in incomplete.items():
+        notes.append(f"survey incomplete at {', '.join(where)}: {reason}")
     return results, surveys, evaluations, notes, checks
 
 
