@@ -5,6 +5,8 @@ from __future__ import annotations
 import os
 import stat
 
+import pytest
+
 from kinroots.io.tables import atomic_write_bytes, write_csv, write_json
 
 
@@ -61,3 +63,28 @@ def test_column_units_of_study_and_lab_tables():
                           parameters={"threshold": "1", "across": "T"}))
     assert (u["across"], u["growth_level"], u["growth_k"], u["growth_angle"]) == (
         "T", "Omega_cp", "1/d_p", "degree")
+
+
+@pytest.mark.parametrize("name", ["hydrogen_discharge", "whistler_anisotropy_solar_wind"])
+def test_relative_error_is_the_error_and_comparable_between_models(name):
+    # ES D is O(1) near its roots; the scaled EM determinant is not (residuals 1e-16 vs
+    # ~1e7): relative_error = |Newton correction at the value| / |ω| means the same in
+    # both.  Independent check: the root polished further (rtol 1e-15) moves by no
+    # more than a few times the estimate (or rounding).
+    from pathlib import Path
+
+    from kinroots import load_case
+    from kinroots.roots import polish
+    from kinroots.study.problem import function_at, survey
+    from kinroots.study.rows import survey_rows
+
+    case = load_case(Path(__file__).resolve().parent.parent / "cases" / f"{name}.toml")
+    k = float(case.k_values[len(case.k_values) // 2])
+    s = survey(case, k)
+    rows = [r for r in survey_rows(case, k, s) if r["converged"]]
+    assert rows
+    for r in rows:
+        w = complex(r["omega_real"], r["omega_imag"])
+        assert 0 <= r["relative_error"] <= 10 * case.solver.tolerance
+        better = polish(function_at(case, k), w, rtol=1e-15).value
+        assert abs(better - w) / abs(w) <= 10 * r["relative_error"] + 1e-13

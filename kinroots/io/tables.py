@@ -29,6 +29,7 @@ RESULT_COLUMNS: tuple[str, ...] = (
     "evaluations",
     "status",
     "reason",
+    "relative_error",
 )
 
 #: Columns of ``branches.csv`` and ``roots.csv``, in order.  The first ten are the
@@ -54,7 +55,7 @@ PER_SPECIES_PREFIXES: tuple[str, ...] = ("density_abs_", "density_phase_deg_")
 
 #: Cells left empty when a point did not converge.
 VALUE_COLUMNS: frozenset[str] = frozenset(
-    {"omega_real", "omega_imag", "freq_hz", "gamma_per_s", "residual"}
+    {"omega_real", "omega_imag", "freq_hz", "gamma_per_s", "residual", "relative_error"}
 )
 
 

@@ -3,9 +3,11 @@ LaTeX).
 
 The digits rule for roots (the only place where kinroots rounds its results): a root z
 is accepted when the last Newton correction satisfies |Δz| ≤ rtol·|z| (the solver's
-``root_rtol``), and its residual |D(z)| measures how far it is from a zero of D (D is
-scaled to be of order one near its roots, see ``dispersion_scaling``).  The relative
-uncertainty of z is taken as ``ε = max(rtol, residual)``; a quantity v computed
+``root_rtol``), and its ``relative_error`` column holds that correction computed at the
+reported value, |δz|/|z|, an estimate of its actual error that does not depend on how
+the model scales D (tables without that column: the residual |D(z)|, meaningful for the
+unscaled electrostatic D).  The relative uncertainty of z is taken as
+``ε = max(rtol, relative_error)``; a quantity v computed
 linearly from one component x of z (Re or Im part: f, γ, k in 1/m, wavelength, damping
 length) then has the relative uncertainty ``ε·|z|/|x|`` and is written with
 ``floor(−log10(ε·|z|/|x|))`` significant digits, between 1 and 15.  So a growth rate
@@ -33,7 +35,8 @@ MAX_DIGITS = 15
 
 
 def relative_uncertainty(rtol: float, residual: float | None) -> float:
-    """ε = max(rtol, residual): relative uncertainty of a root (module docstring)."""
+    """ε = max(rtol, residual): relative uncertainty of a root (module docstring); the
+    second argument is the root's relative_error where the table has it."""
     eps = float(rtol)
     if residual is not None and math.isfinite(residual):
         eps = max(eps, float(residual))

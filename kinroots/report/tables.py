@@ -92,6 +92,13 @@ def _flag(row: dict[str, Any]) -> str:
     return "verified" if row.get("verified") else "not verified"
 
 
+def _uncertainty_of(row: dict[str, Any]) -> Any:
+    """The root's estimated relative error (tables since relative_error), else the
+    residual (older tables; right for the unscaled electrostatic D only)."""
+    rel = row.get("relative_error")
+    return rel if rel is not None and finite(rel) else row.get("residual")
+
+
 def _residual(row: dict[str, Any]) -> str:
     r = row.get("residual")
     return format_significant(float(r), 2) if r is not None and finite(r) else "—"
@@ -113,7 +120,7 @@ def _root_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table:
                          + [FAILED] * 2 + tail)
             continue
         wr, wi = float(r["omega_real"]), float(r["omega_imag"])
-        eps = relative_uncertainty(rtol, r.get("residual"))
+        eps = relative_uncertainty(rtol, _uncertainty_of(r))
         mod = abs(complex(wr, wi))
         d_r, d_i = digits_for(eps, mod, wr), digits_for(eps, mod, wi)
         cells.append(head + [
@@ -139,7 +146,7 @@ def _launch_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table
             cells.append(head + [FAILED] * 4 + tail)
             continue
         kr, ki = float(r["k_real"]), float(r["k_imag"])
-        eps = relative_uncertainty(rtol, r.get("residual"))
+        eps = relative_uncertainty(rtol, _uncertainty_of(r))
         mod = abs(complex(kr, ki))
         d_r, d_i = digits_for(eps, mod, kr), digits_for(eps, mod, ki)
         damp = r.get("damping_length_m")
@@ -254,7 +261,7 @@ def build_table(res: Result, *, points: int | None, at: Sequence[float] = ()) ->
         table = _scatter_table(res, rows)
     if kind in ("solve", "roots", "launch"):
         table.notes.append(
-            f"Digits: a root known to relative ε = max(rtol, residual) (rtol = "
+            f"Digits: a root known to relative ε = max(rtol, relative_error) (rtol = "
             f"{user_number(rtol)}) gives a component x of modulus-|z| root "
             "floor(−log10(ε|z|/|x|)) significant digits; SI columns share the digits of "
             "the component they come from.")

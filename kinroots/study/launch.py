@@ -29,7 +29,7 @@ from kinroots.physics import modes
 from kinroots.physics.models.species_models import branch_point_note
 from kinroots.roots import RootResult, SurveyResult
 from kinroots.study.problem import SpatialFunction, spatial_roots
-from kinroots.study.rows import with_note
+from kinroots.study.rows import relative_error, with_note
 from kinroots.study.solve import INTERRUPTED, TracedBranch, follow_branches
 
 __all__ = [
@@ -160,6 +160,7 @@ def launch_row(case: Case, branch: int, omega: float, r: RootResult) -> dict[str
         "freq_hz": w_si / (2.0 * math.pi),
         "omega": float(omega),
         "residual": float(r.residual),
+        "relative_error": relative_error(r),
         "converged": bool(r.converged),
         "verified": bool(r.verified),
         "multiplicity": int(r.multiplicity),

@@ -39,6 +39,17 @@ class _Traced(Protocol):
     def branches(self) -> Sequence[_Branch]: ...
 
 
+def relative_error(r: RootResult) -> float | None:
+    """Estimated relative error of a root, |δz|/|z|: the Newton correction computed at the
+    reported value (``refined``), divided by its modulus.  For a simple zero the error
+    of the value is of that size; unlike the residual |D|, whose scale depends on how the
+    model writes D, it compares between models (common practice).  None for a failed
+    root or when no correction was computed."""
+    if not r.converged or r.refined is None or r.value == 0:
+        return None
+    return abs(r.value - r.refined) / abs(r.value)
+
+
 def root_row(case: Case, branch: int | str, k: float, r: RootResult,
              verified: bool | None = None) -> dict[str, Any]:
     """One table row (columns of :data:`kinroots.io.tables.ROOT_COLUMNS`).
@@ -65,6 +76,7 @@ def root_row(case: Case, branch: int | str, k: float, r: RootResult,
         "freq_hz": w_si.real / (2.0 * math.pi),
         "gamma_per_s": w_si.imag,
         "residual": float(r.residual),
+        "relative_error": relative_error(r),
         "converged": bool(r.converged),
         "verified": bool(r.verified if verified is None else verified),
         "multiplicity": int(r.multiplicity),
@@ -159,6 +171,8 @@ def metadata(case: Case, *, rows: list[dict[str, Any]], extra: dict[str, Any]) -
                 "freq_hz": "Re(omega) / (2 pi) [Hz]",
                 "gamma_per_s": "Im(omega) [1/s]; > 0 grows",
                 "residual": "|D| at the root (D as scaled in 'dispersion_scaling')",
+                "relative_error": "estimated |delta omega| / |omega| of the root (its last "
+                                  "Newton correction): comparable between models",
             },
         },
         "derived": derived_quantities(case.plasma, units),
