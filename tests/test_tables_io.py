@@ -88,3 +88,34 @@ def test_relative_error_is_the_error_and_comparable_between_models(name):
         assert 0 <= r["relative_error"] <= 10 * case.solver.tolerance
         better = polish(function_at(case, k), w, rtol=1e-15).value
         assert abs(better - w) / abs(w) <= 10 * r["relative_error"] + 1e-13
+
+
+def test_rounding_noise_is_marked_not_passed_off_as_data(tmp_path):
+    # Langmuir wave at k λ_De = 0.1: the true damping, about −1.5e-9 s⁻¹ (mpmath, issue
+    # 18), is 1e-18 ω_pe, far below what a root known to 1e-10 resolves: the row and
+    # summary.json say so.  A purely growing Weibel root's ω_r is rounding noise.
+    import csv as _csv
+    import json
+
+    from typer.testing import CliRunner
+
+    from kinroots.cli import app
+    from kinroots.study.rows import below_resolution
+
+    res = CliRunner().invoke(app, ["solve", "-o", str(tmp_path / "d"), "--no-plot"],
+                             terminal_width=200)
+    assert res.exit_code == 0, res.output
+    with open(tmp_path / "d" / "branches.csv", newline="") as fh:
+        first = next(_csv.DictReader(fh))
+    assert float(first["k"]) == pytest.approx(0.1) and first["below_resolution"] == "imag"
+    least = json.loads((tmp_path / "d" / "summary.json").read_text())["least_damped"]
+    assert least["below_resolution"] == "imag" and least["gamma_resolution_per_s"] > 0
+    assert below_resolution(complex(-5.12e-204, 0.0913), 1e-13, 1e-10) == "real"
+    assert below_resolution(complex(1.0, -0.02), 1e-13, 1e-10) == ""
+    res = CliRunner().invoke(app, ["solve", "cases/weibel_hot_electrons.toml", "-o",
+                                   str(tmp_path / "w"), "--no-plot"], terminal_width=200)
+    assert res.exit_code == 0, res.output
+    assert "purely growing" in res.output and "e-2" not in res.output.split("fastest")[1][:80]
+    with open(tmp_path / "w" / "branches.csv", newline="") as fh:
+        rows = list(_csv.DictReader(fh))
+    assert rows and all(r["below_resolution"] == "real" for r in rows)

@@ -92,7 +92,9 @@ def launch_command(
             "k_real_per_m, k_imag_per_m": "Re k, Im k [1/m]",
             "wavelength_m": "2 pi / Re k [m]",
             "phase_speed_m_per_s": "2 pi f / Re k [m/s]",
-            "damping_length_m": "1 / Im k [m]; > 0 decays along +k, < 0 grows",
+            "damping_length_m": "1 / Im k [m]; > 0 decays along +k, < 0 grows; empty "
+                                "where Im k is below the root's accuracy "
+                                "(below_resolution = imag)",
             "damping_length_cm": "1 / Im k [cm]",
             "mode identity": "see kinroots.physics.modes and README (Output)",
         },
@@ -120,9 +122,10 @@ def launch_command(
     console.print(f"{len(res.branches)} wave(s) in the k box over {n} frequencies")
     for r in rows:
         if r["converged"] and r is rows[0]:
+            damp = (f"{r['damping_length_cm']:.4g} cm" if r["damping_length_cm"] is not None
+                    else "not resolved (Im k below the root's accuracy: undamped to it)")
             console.print(f"wave {r['branch']} at f = {r['freq_hz']:.4g} Hz: wavelength "
-                          f"{r['wavelength_m']:.4g} m, damping length "
-                          f"{r['damping_length_cm']:.4g} cm")
+                          f"{r['wavelength_m']:.4g} m, damping length {damp}")
     for note in res.notes:
         console.print(f"note: {note}")
     console.print(written(output / "launch.csv", output / "launch.json", fig_path))

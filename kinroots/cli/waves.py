@@ -38,6 +38,12 @@ def _describe_root(row: dict[str, Any] | None, case: Case) -> str:
     lbl = case.units.frequency_label
     w = complex(row["omega_real"], row["omega_imag"])
     floor = GROWTH_RESOLUTION * case.solver.tolerance * abs(w)
+    if abs(w.real) <= floor:  # purely growing or damped: ω_r is rounding noise
+        return (
+            f"branch {row['branch']} at k = {row['k']:.4g}: ω = {w.imag:.6g}i {lbl}, "
+            f"|ω_r| < {floor:.1g} {lbl} (purely {'growing' if w.imag > 0 else 'damped'}; "
+            f"γ = {row['gamma_per_s']:.4g} 1/s)"
+        )
     if abs(w.imag) <= floor:
         return (
             f"branch {row['branch']} at k = {row['k']:.4g}: ω = {w.real:.6g} {lbl}, "

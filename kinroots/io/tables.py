@@ -30,6 +30,7 @@ RESULT_COLUMNS: tuple[str, ...] = (
     "status",
     "reason",
     "relative_error",
+    "below_resolution",
 )
 
 #: Columns of ``branches.csv`` and ``roots.csv``, in order.  The first ten are the

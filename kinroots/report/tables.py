@@ -154,7 +154,7 @@ def _launch_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table
             format_significant(kr, d_r), format_significant(ki, d_i),
             format_significant(float(r["wavelength_m"]), d_r),
             format_significant(float(damp), d_i) if damp is not None and finite(damp)
-            else "∞"] + tail)
+            else "unresolved" if damp is None else "∞"] + tail)
     return Table("launch: waves at the driving frequencies", cols, cells)
 
 

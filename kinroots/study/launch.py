@@ -29,7 +29,7 @@ from kinroots.physics import modes
 from kinroots.physics.models.species_models import branch_point_note
 from kinroots.roots import RootResult, SurveyResult
 from kinroots.study.problem import SpatialFunction, spatial_roots
-from kinroots.study.rows import relative_error, with_note
+from kinroots.study.rows import below_resolution, relative_error, with_note
 from kinroots.study.solve import INTERRUPTED, TracedBranch, follow_branches
 
 __all__ = [
@@ -178,8 +178,12 @@ def launch_row(case: Case, branch: int, omega: float, r: RootResult) -> dict[str
     k_si = complex(units.k_to_si(k))
     row["reason"] = with_note(r.reason, branch_point_note(
         case.plasma, omega=w_si, k=k_si, angle_deg=case.angle_deg))
+    noise = below_resolution(k, relative_error(r), case.solver.tolerance)
+    row["below_resolution"] = noise
     with np.errstate(divide="ignore"):
-        damping = 1.0 / k_si.imag if k_si.imag != 0 else math.inf
+        # Im k at rounding level: the damping length is not known, not a number
+        damping = (None if "imag" in noise else
+                   1.0 / k_si.imag if k_si.imag != 0 else math.inf)
     row.update({
         "k_real": k.real,
         "k_imag": k.imag,
@@ -188,7 +192,7 @@ def launch_row(case: Case, branch: int, omega: float, r: RootResult) -> dict[str
         "wavelength_m": 2.0 * math.pi / k_si.real,
         "phase_speed_m_per_s": w_si / k_si.real,
         "damping_length_m": damping,
-        "damping_length_cm": 100.0 * damping,
+        "damping_length_cm": None if damping is None else 100.0 * damping,
     })
     row.update(modes.mode_columns(
         case.plasma, omega=w_si, k=k_si, angle_deg=case.angle_deg, model=case.model,

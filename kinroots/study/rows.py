@@ -50,6 +50,20 @@ def relative_error(r: RootResult) -> float | None:
     return abs(r.value - r.refined) / abs(r.value)
 
 
+def below_resolution(z: complex, rel_error: float | None, rtol: float) -> str:
+    """Which component of a root is rounding noise: ``"real"``, ``"imag"`` or ``""``.
+
+    A component x of z is resolved when |x| > GROWTH_RESOLUTION · ε · |z|, ε =
+    max(rtol, relative error of z): below that its sign and size are not known (e.g.
+    ω_r = −5e-204 on a purely growing root, a Landau damping far below the root's
+    accuracy).  The value is still written, with this mark (issue 18).
+    """
+    eps = max(rtol, rel_error) if rel_error is not None and math.isfinite(rel_error) else rtol
+    floor = GROWTH_RESOLUTION * eps * abs(z)
+    parts = [name for name, x in (("real", z.real), ("imag", z.imag)) if abs(x) <= floor]
+    return " ".join(parts)
+
+
 def root_row(case: Case, branch: int | str, k: float, r: RootResult,
              verified: bool | None = None) -> dict[str, Any]:
     """One table row (columns of :data:`kinroots.io.tables.ROOT_COLUMNS`).
@@ -77,6 +91,8 @@ def root_row(case: Case, branch: int | str, k: float, r: RootResult,
         "gamma_per_s": w_si.imag,
         "residual": float(r.residual),
         "relative_error": relative_error(r),
+        "below_resolution": (below_resolution(r.value, relative_error(r), case.solver.tolerance)
+                             if r.converged else None),
         "converged": bool(r.converged),
         "verified": bool(r.verified if verified is None else verified),
         "multiplicity": int(r.multiplicity),
@@ -142,10 +158,19 @@ def extreme_roots(rows: list[dict[str, Any]], rtol: float = 1e-10) -> dict[str, 
     growing = top if grows(top) else None
     damped = [r for r in good if not grows(r)]
     least = max(damped, key=lambda r: r["omega_imag"]) if damped else None
-    keep = ("branch", "k", "omega_real", "omega_imag", "k_per_m", "freq_hz", "gamma_per_s")
+    keep = ("branch", "k", "omega_real", "omega_imag", "k_per_m", "freq_hz", "gamma_per_s",
+            "below_resolution")
+
+    def entry(r: dict[str, Any]) -> dict[str, Any]:
+        e = {k: r.get(k) for k in keep}
+        w = complex(r["omega_real"], r["omega_imag"])
+        e["gamma_resolution_per_s"] = abs(r["gamma_per_s"] / w.imag) * GROWTH_RESOLUTION \
+            * max(rtol, r.get("relative_error") or 0.0) * abs(w) if w.imag else None
+        return e
+
     return {
-        "fastest_growing": {k: growing[k] for k in keep} if growing else None,
-        "least_damped": {k: least[k] for k in keep} if least else None,
+        "fastest_growing": entry(growing) if growing else None,
+        "least_damped": entry(least) if least else None,
     }
 
 
