@@ -141,3 +141,13 @@ def test_every_drawing_command_has_the_figure_options() -> None:
     for name in ("solve", "roots", "launch", "scatter", "sweep", "threshold"):
         res = runner.invoke(app, [name, "--help"], terminal_width=120)
         assert "--figure-format" in res.output and "--no-plot" in res.output, name
+
+
+def test_rounding_noise_is_drawn_as_zero() -> None:
+    from kinroots.plots.branches import curves_from_rows
+
+    rows = [{"branch": 0, "k": k, "omega_real": re, "omega_imag": 0.01, "converged": True,
+             "verified": True, "below_resolution": "real"}
+            for k, re in ((0.1, -3.5e-24), (0.2, 2.0e-46))]
+    (c,) = curves_from_rows(rows)
+    assert list(c.omega.real) == [0.0, 0.0] and list(c.omega.imag) == [0.01, 0.01]

@@ -50,10 +50,18 @@ class BranchCurve:
     verified: np.ndarray | None = None
 
 
+def _plotted(r: Mapping[str, Any]) -> complex:
+    noise = str(r.get("below_resolution") or "")
+    return complex(0.0 if "real" in noise else float(r["omega_real"]),
+                   0.0 if "imag" in noise else float(r["omega_imag"]))
+
+
 def curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[BranchCurve]:
     """Branch curves from table rows (the columns of branches.csv, typed: ``branch``,
     ``k``, ``omega_real``, ``omega_imag``, ``converged``, ``verified``), in branch order;
-    failed points become NaN."""
+    failed points become NaN.  A component marked as rounding noise (``below_resolution``)
+    is drawn as 0, so that a purely growing mode's ω_r panel does not autoscale to
+    1e-28 spikes."""
     by_branch: dict[Any, list[Mapping[str, Any]]] = {}
     for r in rows:
         if r.get("branch") in (None, ""):
@@ -66,8 +74,8 @@ def curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[BranchCurve]:
         curves.append(BranchCurve(
             label=f"branch {b}",
             k=np.array([float(r["k"]) for r in pts]),
-            omega=np.array([complex(float(r["omega_real"]), float(r["omega_imag"])) if c
-                            else complex("nan") for r, c in zip(pts, ok, strict=True)]),
+            omega=np.array([_plotted(r) if c else complex("nan")
+                            for r, c in zip(pts, ok, strict=True)]),
             verified=np.array([bool(r.get("verified")) and c
                                for r, c in zip(pts, ok, strict=True)]),
         ))
