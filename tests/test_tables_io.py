@@ -119,3 +119,28 @@ def test_rounding_noise_is_marked_not_passed_off_as_data(tmp_path):
     with open(tmp_path / "w" / "branches.csv", newline="") as fh:
         rows = list(_csv.DictReader(fh))
     assert rows and all(r["below_resolution"] == "real" for r in rows)
+
+
+@pytest.mark.slow
+def test_relative_residuals_of_the_example_cases_are_at_rounding():
+    # The bound the README states: electromagnetic below 1e-11 (σ_min/σ_max of S), and
+    # electrostatic below 1e-9 except next to a pole of D (k∥ = 0 harmonics), where D is
+    # steep and relative_error, not the residual, says how accurate the root is.
+    from pathlib import Path
+
+    from kinroots import load_case
+    from kinroots.study.problem import survey
+    from kinroots.study.rows import survey_rows
+
+    for path in sorted((Path(__file__).resolve().parent.parent / "cases").glob("*.toml")):
+        case = load_case(path)
+        near_poles = case.plasma.magnetized and case.angle_deg == 90.0
+        bound = 1e-11 if case.model == "electromagnetic" else 1e-9
+        for k in (case.k_values[0], case.k_values[-1]):
+            for r in survey_rows(case, float(k), survey(case, float(k))):
+                if not r["converged"]:
+                    continue
+                assert r["relative_residual"] is not None, (path.stem, k)
+                if not near_poles:
+                    assert r["relative_residual"] < bound, (path.stem, k, r)
+                assert r["relative_error"] <= 10 * case.solver.tolerance, (path.stem, k)

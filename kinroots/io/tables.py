@@ -30,6 +30,7 @@ RESULT_COLUMNS: tuple[str, ...] = (
     "status",
     "reason",
     "relative_error",
+    "relative_residual",
     "below_resolution",
 )
 
@@ -56,7 +57,8 @@ PER_SPECIES_PREFIXES: tuple[str, ...] = ("density_abs_", "density_phase_deg_")
 
 #: Cells left empty when a point did not converge.
 VALUE_COLUMNS: frozenset[str] = frozenset(
-    {"omega_real", "omega_imag", "freq_hz", "gamma_per_s", "residual", "relative_error"}
+    {"omega_real", "omega_imag", "freq_hz", "gamma_per_s", "residual", "relative_error",
+     "relative_residual"}
 )
 
 

@@ -501,6 +501,33 @@ class Dispersion:
             n2 = (self.k * C_LIGHT / om) ** 2
             return np.eye(3) + chi - n2[..., None, None] * proj
 
+    def relative_residual(self, omega: Any) -> np.ndarray:
+        """|D| divided by the size of the largest term D is built from, at ``omega``.
+
+        Electrostatic: D = 1 + Σ_s χ_s, terms 1 and χ_s.  Electromagnetic: D = det S (class
+        Notes) vanishes where S is singular, so the measure is σ_min(S)/σ_max(S), the
+        distance of S from singularity relative to its size (the six Leibniz products are
+        no scale: where D factorizes, as for a purely growing Weibel mode, they all vanish
+        with the root).  Unlike |D|, whose scale depends on the model, this is of order
+        the root tolerance or below at a root away from poles (common practice); next to a
+        pole of D (a cyclotron harmonic at k∥ = 0) D is steep and an accurate root can
+        show more: the root's accuracy is its ``relative_error`` (tables).
+        """
+        om = np.asarray(omega, dtype=complex)
+        with np.errstate(all="ignore"):
+            if self.electromagnetic:
+                s, _ = self._scaled(om)
+                sv = np.full(om.shape + (3,), np.nan)
+                ok = np.all(np.isfinite(s), axis=(-2, -1))
+                sv[ok] = np.linalg.svd(s[ok], compute_uv=False)
+                return sv[..., -1] / sv[..., 0]
+            else:
+                chis = list(self.susceptibilities(om).values())
+                d = 1.0 + sum(chis)
+                scale = np.max(np.stack([np.ones(om.shape)] + [np.abs(c) for c in chis]),
+                               axis=0)
+            return np.abs(d) / scale
+
     def susceptibilities(self, omega: Any) -> dict[str, np.ndarray]:
         """The susceptibility χ_s of every species, by name.
 

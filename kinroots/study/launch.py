@@ -29,7 +29,12 @@ from kinroots.physics import modes
 from kinroots.physics.models.species_models import branch_point_note
 from kinroots.roots import RootResult, SurveyResult
 from kinroots.study.problem import SpatialFunction, spatial_roots
-from kinroots.study.rows import below_resolution, relative_error, with_note
+from kinroots.study.rows import (
+    below_resolution,
+    relative_error,
+    relative_residual,
+    with_note,
+)
 from kinroots.study.solve import INTERRUPTED, TracedBranch, follow_branches
 
 __all__ = [
@@ -178,6 +183,7 @@ def launch_row(case: Case, branch: int, omega: float, r: RootResult) -> dict[str
     k_si = complex(units.k_to_si(k))
     row["reason"] = with_note(r.reason, branch_point_note(
         case.plasma, omega=w_si, k=k_si, angle_deg=case.angle_deg))
+    row["relative_residual"] = relative_residual(case, k, w_si)
     noise = below_resolution(k, relative_error(r), case.solver.tolerance)
     row["below_resolution"] = noise
     with np.errstate(divide="ignore"):

@@ -6,6 +6,8 @@ import math
 from collections.abc import Sequence
 from typing import Any, Protocol
 
+import numpy as np
+
 from kinroots import __version__
 from kinroots.io.case import Case
 from kinroots.physics import modes
@@ -50,6 +52,19 @@ def relative_error(r: RootResult) -> float | None:
     return abs(r.value - r.refined) / abs(r.value)
 
 
+def relative_residual(case: Case, k: complex, omega_si: complex) -> float | None:
+    """|D| relative to the size of what D is built from, at normalized ``k`` and ω [rad/s]
+    (:meth:`kinroots.physics.dispersion.Dispersion.relative_residual`); None if it cannot
+    be evaluated."""
+    from kinroots.study.problem import dispersion_at
+
+    try:
+        value = float(dispersion_at(case, k).relative_residual(np.array([omega_si]))[0])
+    except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+        return None
+    return value if math.isfinite(value) else None
+
+
 def below_resolution(z: complex, rel_error: float | None, rtol: float) -> str:
     """Which component of a root is rounding noise: ``"real"``, ``"imag"`` or ``""``.
 
@@ -91,6 +106,8 @@ def root_row(case: Case, branch: int | str, k: float, r: RootResult,
         "gamma_per_s": w_si.imag,
         "residual": float(r.residual),
         "relative_error": relative_error(r),
+        "relative_residual": (relative_residual(case, complex(k), w_si) if r.converged
+                              else None),
         "below_resolution": (below_resolution(r.value, relative_error(r), case.solver.tolerance)
                              if r.converged else None),
         "converged": bool(r.converged),
