@@ -151,3 +151,14 @@ def test_rounding_noise_is_drawn_as_zero() -> None:
             for k, re in ((0.1, -3.5e-24), (0.2, 2.0e-46))]
     (c,) = curves_from_rows(rows)
     assert list(c.omega.real) == [0.0, 0.0] and list(c.omega.imag) == [0.01, 0.01]
+
+
+def test_failed_points_are_gaps_not_zero_growth() -> None:
+    from kinroots.plots.branches import curves_from_rows
+
+    rows = [{"branch": 0, "k": 0.1, "omega_real": 1.0, "omega_imag": -0.0095,
+             "converged": True, "verified": True},
+            {"branch": 0, "k": 0.2, "omega_real": None, "omega_imag": None,
+             "converged": False, "verified": False}]
+    (c,) = curves_from_rows(rows)
+    assert np.isnan(c.omega[1].real) and np.isnan(c.omega[1].imag)

@@ -6,6 +6,7 @@ Figure, and writes it when given ``path`` (format from the suffix: png, svg or p
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -74,7 +75,7 @@ def curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[BranchCurve]:
         curves.append(BranchCurve(
             label=f"branch {b}",
             k=np.array([float(r["k"]) for r in pts]),
-            omega=np.array([_plotted(r) if c else complex("nan")
+            omega=np.array([_plotted(r) if c else complex(math.nan, math.nan)
                             for r, c in zip(pts, ok, strict=True)]),
             verified=np.array([bool(r.get("verified")) and c
                                for r, c in zip(pts, ok, strict=True)]),
@@ -153,8 +154,12 @@ def plot_branches(
         k = np.asarray(c.k, dtype=float)
         w = np.asarray(c.omega, dtype=complex)
         label = literal(c.label)
-        ax_r.plot(k, w.real, ls=st["ls"], color=st["color"], lw=1.5, label=label)
-        ax_i.plot(k, w.imag, ls=st["ls"], color=st["color"], lw=1.5)
+        # a branch of one finite point (or isolated points between failures) would be an
+        # invisible line: give it its marker
+        finite_pts = int(np.count_nonzero(np.isfinite(w)))
+        mk = st["marker"] if finite_pts <= 2 else None
+        ax_r.plot(k, w.real, ls=st["ls"], color=st["color"], lw=1.5, label=label, marker=mk)
+        ax_i.plot(k, w.imag, ls=st["ls"], color=st["color"], lw=1.5, marker=mk)
         with np.errstate(invalid="ignore"):
             grow = w.imag > growth_floor * np.abs(w)
         if np.any(grow):

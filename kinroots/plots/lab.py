@@ -6,6 +6,7 @@ Figure, and writes it when given ``path`` (format from the suffix: png, svg or p
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
@@ -50,7 +51,7 @@ def launch_curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[LaunchCur
         curves.append(LaunchCurve(
             f"wave {b}", [float(r["freq_hz"]) for r in pts],
             [complex(float(r["k_real_per_m"]), float(r["k_imag_per_m"])) if c
-             else complex("nan") for r, c in zip(pts, ok, strict=True)],
+             else complex(math.nan, math.nan) for r, c in zip(pts, ok, strict=True)],
             [bool(r.get("verified")) and c for r, c in zip(pts, ok, strict=True)]))
     return curves
 

@@ -121,7 +121,8 @@ class Branch:
     @property
     def values(self) -> np.ndarray:
         """Root values at ``params`` (complex; nan where not converged)."""
-        return np.array([r.value if r.converged else complex("nan") for _, r in self.points])
+        return np.array([r.value if r.converged else complex(math.nan, math.nan)
+                         for _, r in self.points])
 
     def _end(self, reason: BranchEnd, param: float, note: str, other: int | None = None) -> None:
         self.end_reason, self.end_param, self.note, self.merged_with = reason, param, note, other
