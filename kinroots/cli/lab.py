@@ -208,6 +208,7 @@ def scatter_command(
 
     ion_nm = float(np.max(np.abs(cols["wavelength_shift_nm"][
         np.abs(cols["omega_rad_per_s"]) <= 0.02 * np.max(np.abs(cols["omega_rad_per_s"]))])))
+    rule = spectrum.sum_rule_check(loaded.plasma, sp)
     meta = {
         "title": loaded.title,
         "source": str(loaded.source) if loaded.source else None,
@@ -226,6 +227,8 @@ def scatter_command(
             "omega_rad_per_s": "omega_s - omega_i",
         },
         "formula": "Sheffield et al. 2011 ch. 5 (from memory); see kinroots.physics.spectrum",
+        "samples": len(rows),
+        "sum_rule": rule,
     }
     out = OutputSet(output, "scatter")
     write_csv(out.stage("spectrum.csv"), rows, spectrum.SPECTRUM_COLUMNS)
@@ -242,7 +245,13 @@ def scatter_command(
                       path=out.stage(fig_path.name))
     out.commit()
     console.print(f"k = {sp.k_bragg_per_m:.6g} 1/m, α = 1/(k λ_De) = {sp.alpha_bragg:.4g}; "
+                  f"{len(rows)} samples; (1/2π)∫S dω = {rule['area']:.5g}; "
                   + written(output / "spectrum.csv", output / "spectrum.json", fig_path))
+    if rule["relative_difference"] is not None and rule["relative_difference"] > 0.02:
+        console.print(f"warning: (1/2π)∫S dω = {rule['area']:.5g} differs from Salpeter's "
+                      f"S(k) = {rule['salpeter']:.5g} by {100 * rule['relative_difference']:.2g} "
+                      "%: a feature may be under-resolved (try --points) or outside the "
+                      "sampled range", style="yellow")
 
 
 def register(app: typer.Typer) -> None:

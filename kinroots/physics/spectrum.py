@@ -46,8 +46,10 @@ __all__ = [
     "SPECTRUM_COLUMNS",
     "ScatteredSpectrum",
     "bragg_wavenumber",
+    "refine_samples",
     "salpeter_form_factor",
     "scattered_spectrum",
+    "sum_rule_check",
     "spectral_density",
 ]
 
@@ -189,6 +191,69 @@ def _default_window(plasma: Plasma, k: float, angle_deg: float) -> tuple[float, 
     return full, min(full, 4.0 * k * cs + k * vmax_i)
 
 
+def refine_samples(f: Any, x: np.ndarray, *, max_points: int, rtol: float = 1e-3,
+                   floor: float = 1e-9, passes: int = 40) -> tuple[np.ndarray, np.ndarray]:
+    """Samples of a smooth positive function, bisected where it is not yet resolved.
+
+    An interval [a, b] is split when f at its midpoint differs from the mean of its ends
+    by more than ``rtol`` times the largest of the three (and that is above ``floor``
+    times the largest value anywhere): narrow peaks (an ion-acoustic feature whose width
+    is far below the starting spacing) get samples a fraction of their width apart, flat
+    stretches none.  Stops after ``passes`` passes or before exceeding ``max_points``.
+    Returns the sorted abscissae and f there.
+    """
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(f(x), dtype=float)
+    for _ in range(passes):
+        mid = 0.5 * (x[1:] + x[:-1])
+        ym = np.asarray(f(mid), dtype=float)
+        local = np.maximum(np.maximum(y[1:], y[:-1]), ym)
+        top = max(float(np.max(y)), float(np.max(ym)))
+        bad = (np.abs(ym - 0.5 * (y[1:] + y[:-1])) > rtol * local) & (local > floor * top)
+        n_bad = int(np.count_nonzero(bad))
+        if n_bad == 0 or x.size + n_bad > max_points:
+            break
+        x = np.concatenate([x, mid[bad]])
+        y = np.concatenate([y, ym[bad]])
+        order = np.argsort(x)
+        x, y = x[order], y[order]
+    return x, y
+
+
+def sum_rule_check(plasma: Plasma, spectrum: ScatteredSpectrum) -> dict[str, Any]:
+    """(1/2π)∫S dω of a computed spectrum against Salpeter's S(k), where that applies.
+
+    Salpeter's form factor (:func:`salpeter_form_factor`) is exact in equilibrium and
+    close for one ion species without drifts while the electron Landau part of the ion
+    feature is small, (w_i/w_e)·exp(ZT_e/(2T_i)) < 0.05 (the same criterion as the tests).
+    Returns ``area``, ``salpeter`` (None when it does not apply), ``relative_difference``
+    and ``applies`` with the reason.
+    """
+    om = spectrum.columns["omega_rad_per_s"]
+    s = spectrum.columns["spectral_density_s"]
+    order = np.argsort(om)
+    area = float(np.trapezoid(s[order], om[order]) / (2.0 * math.pi))
+    electrons = [sp for sp in plasma.species if sp.is_electron]
+    ions = [sp for sp in plasma.species if not sp.is_electron]
+    out: dict[str, Any] = {"area": area, "salpeter": None, "relative_difference": None}
+    if len(electrons) != 1 or len(ions) != 1 or any(sp.drift for sp in plasma.species):
+        out["applies"] = "no: Salpeter's form factor is for one electron and one ion " \
+            "species without drifts"
+        return out
+    e, i = electrons[0], ions[0]
+    tr = e.temperature_par / i.temperature_par
+    z = abs(i.charge_number)
+    with np.errstate(over="ignore"):
+        landau = i.thermal_speed_par / e.thermal_speed_par * math.exp(min(z * tr / 2, 700.0))
+    if landau >= 0.05:
+        out["applies"] = (f"no: T_e/T_i = {tr:.3g}, the electron Landau part of the ion "
+                          "feature is not small")
+        return out
+    ref = salpeter_form_factor(spectrum.alpha_bragg, z, tr)
+    out.update(salpeter=ref, relative_difference=abs(area - ref) / ref, applies="yes")
+    return out
+
+
 def scattered_spectrum(
     plasma: Plasma, /, *, laser_wavelength: float, scattering_angle_deg: float,
     k_angle_deg: float = 0.0, points: int = 4001,
@@ -207,7 +272,10 @@ def scattered_spectrum(
     k_angle_deg : float
         Angle between k = k_s − k_i and z (the drift axis) [degrees].
     points : int
-        Samples; half cover the whole spectrum uniformly in ω, half the ion feature.
+        Starting samples; half cover the whole spectrum uniformly in ω, half the ion
+        feature; then intervals are bisected where S is not resolved
+        (:func:`refine_samples`: narrow ion-acoustic peaks get samples a fraction of
+        their width apart), up to 20 × ``points`` (at least 200,000) samples.
     omega_max : float, optional
         Largest |ω| = |ω_s − ω_i| [rad/s] (default: from the electron plasma wave and the
         electron thermal width, 1.3× the larger).
@@ -232,11 +300,18 @@ def scattered_spectrum(
     half = max(points // 2, 2)
     om = np.unique(np.concatenate([np.linspace(-full, full, half),
                                    np.linspace(-ion, ion, points - half)]))
-    w_s = w_i + om
-    k_s = w_s / C_LIGHT
     cos_s = math.cos(math.radians(scattering_angle_deg))
-    k = np.sqrt(np.maximum(k_i**2 + k_s**2 - 2.0 * k_i * k_s * cos_s, 0.0))
-    s_kw = spectral_density(plasma, k=k, omega=om, angle_deg=k_angle_deg)
+
+    def k_of(o: np.ndarray) -> np.ndarray:
+        k_s = (w_i + o) / C_LIGHT
+        return np.sqrt(np.maximum(k_i**2 + k_s**2 - 2.0 * k_i * k_s * cos_s, 0.0))
+
+    def density(o: np.ndarray) -> np.ndarray:
+        return spectral_density(plasma, k=k_of(o), omega=o, angle_deg=k_angle_deg)
+
+    om, s_kw = refine_samples(density, om, max_points=max(20 * points, 200_000))
+    w_s = w_i + om
+    k = k_of(om)
     lam_s = 2.0 * math.pi * C_LIGHT / w_s
     power = (1.0 + 2.0 * om / w_i) * s_kw * (2.0 * math.pi * C_LIGHT / lam_s**2)
     power = power / np.max(power)
