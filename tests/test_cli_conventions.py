@@ -95,3 +95,11 @@ def test_packaging_files_match_pyproject() -> None:
     assert cff["version"] == project["version"] == __version__
     assert cff["license"] == "MIT" and cff["authors"] and cff["title"]
     assert "## [Unreleased]" in (ROOT / "CHANGELOG.md").read_text()
+
+
+def test_results_on_stdout_diagnostics_on_stderr(tmp_path) -> None:
+    res = runner.invoke(app, ["-q", "solve", "-o", str(tmp_path), "--no-plot"])
+    assert res.exit_code == 0, res.output
+    assert "fastest growing" in res.stdout and "least damped" in res.stdout
+    assert "branches.csv" in res.stdout  # the files written are a result too
+    assert res.stderr == ""  # -q: no progress, no notes

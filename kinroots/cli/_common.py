@@ -209,6 +209,14 @@ def stderr_console() -> Console:
     return Console(stderr=True, markup=False, highlight=False, quiet=VERBOSITY.level == 0)
 
 
+def stdout_console() -> Console:
+    """Rich console on stdout for a command's results (roots found, growth rates, files
+    written), shown literally; diagnostics (progress, notes, warnings, errors) go to
+    :func:`stderr_console`, so ``kinroots … > results.txt`` keeps the results and
+    ``-q`` silences only the diagnostics."""
+    return Console(markup=False, highlight=False)
+
+
 def _refuse(errors: list[str], case: Path) -> NoReturn:
     for line in errors:
         err(f"error: {line}")

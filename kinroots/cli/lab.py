@@ -26,6 +26,7 @@ from kinroots.cli._common import (
     figure_path,
     load_case_or_exit,
     stderr_console,
+    stdout_console,
     written,
 )
 
@@ -70,6 +71,7 @@ def launch_command(
         raise typer.Exit(EXIT_BAD_INPUT)
     check_output_dir(output)
     console = stderr_console()
+    results = stdout_console()  # results on stdout, diagnostics on stderr
     n = len(loaded.launch.frequencies_hz)
     with CtrlC() as stop, Progress(
         TextColumn("[bold]launching[/bold] {task.description}"), BarColumn(),
@@ -119,16 +121,16 @@ def launch_command(
         plot_launch(launch_curves_from_rows(rows), title=loaded.title,
                     path=out.stage(fig_path.name))
     out.commit()
-    console.print(f"{len(res.branches)} wave(s) in the k box over {n} frequencies")
+    results.print(f"{len(res.branches)} wave(s) in the k box over {n} frequencies")
     for r in rows:
         if r["converged"] and r is rows[0]:
             damp = (f"{r['damping_length_cm']:.4g} cm" if r["damping_length_cm"] is not None
                     else "not resolved (Im k below the root's accuracy: undamped to it)")
-            console.print(f"wave {r['branch']} at f = {r['freq_hz']:.4g} Hz: wavelength "
+            results.print(f"wave {r['branch']} at f = {r['freq_hz']:.4g} Hz: wavelength "
                           f"{r['wavelength_m']:.4g} m, damping length {damp}")
     for note in res.notes:
         console.print(f"note: {note}")
-    console.print(written(output / "launch.csv", output / "launch.json", fig_path))
+    results.print(written(output / "launch.csv", output / "launch.json", fig_path))
     if res.interrupted:
         console.print("interrupted: the tables hold the frequencies done before Ctrl-C "
                       "(launch.json: interrupted = true)", style="red")
@@ -198,6 +200,7 @@ def scatter_command(
         raise typer.Exit(EXIT_BAD_INPUT)
     check_output_dir(output)
     console = stderr_console()
+    results = stdout_console()  # results on stdout, diagnostics on stderr
     with console.status("computing the fluctuation spectrum"):
         sp = spectrum.scattered_spectrum(loaded.plasma, laser_wavelength=laser_wavelength,
                                          scattering_angle_deg=angle,
@@ -244,7 +247,7 @@ def scatter_command(
                             f"θ = {angle:g}°, α = {sp.alpha_bragg:.3g}",
                       path=out.stage(fig_path.name))
     out.commit()
-    console.print(f"k = {sp.k_bragg_per_m:.6g} 1/m, α = 1/(k λ_De) = {sp.alpha_bragg:.4g}; "
+    results.print(f"k = {sp.k_bragg_per_m:.6g} 1/m, α = 1/(k λ_De) = {sp.alpha_bragg:.4g}; "
                   f"{len(rows)} samples; (1/2π)∫S dω = {rule['area']:.5g}; "
                   + written(output / "spectrum.csv", output / "spectrum.json", fig_path))
     if rule["relative_difference"] is not None and rule["relative_difference"] > 0.02:

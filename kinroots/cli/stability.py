@@ -26,6 +26,7 @@ from kinroots.cli._common import (
     info,
     load_case_or_exit,
     stderr_console,
+    stdout_console,
     table_units,
     written,
 )
@@ -149,17 +150,18 @@ def sweep_command(
     write_json(out.stage("sweep.json"), _summary(loaded, "sweep", rows, failed))
     out.commit()
     console = stderr_console()
+    results = stdout_console()  # results on stdout, diagnostics on stderr
     best = max((r for r in rows if r.get("converged") and r.get("growth_max") is not None
                 and math.isfinite(r["growth_max"])), key=lambda r: r["growth_max"],
                default=None)
     if best is not None:
-        console.print(f"largest growth: γ = {best['growth_max']:.6g} "
+        results.print(f"largest growth: γ = {best['growth_max']:.6g} "
                       f"{loaded.units.frequency_label} ({best['growth_per_s']:.4g} 1/s) at "
                       f"{spec.x.path.text} = {best['x']:.6g}"
                       + (f", {spec.y.path.text} = {best['y']:.6g}" if spec.y else "")
                       + f", k = {best['growth_k']:.4g}, angle {best['growth_angle']:.4g}°")
     _warn_edges(console, rows, "points")
-    console.print(written(output / "sweep.csv", output / "sweep.nc", output / "sweep.json",
+    results.print(written(output / "sweep.csv", output / "sweep.nc", output / "sweep.json",
                           fig_path))
     if failed:
         console.print(f"{len(failed)} point(s) failed: flagged in sweep.csv", style="red")
@@ -278,6 +280,7 @@ def threshold_command(
     ok = [r for r in rows if r.get("converged")]
     fig_path = figure_path(output, "threshold", figure_format, no_plot)
     console = stderr_console()
+    results = stdout_console()  # results on stdout, diagnostics on stderr
     if fig_path is not None:
         from kinroots.plots.maps import threshold_curve
 
@@ -290,10 +293,10 @@ def threshold_command(
             _draw_map(loaded, srows, map_path, rows)
             console.print(f"threshold drawn on {map_path}")
     for r in ok:
-        console.print(f"{t.across.path.text} = {r['across']:.6g}: {t.path.text} = "
+        results.print(f"{t.across.path.text} = {r['across']:.6g}: {t.path.text} = "
                       f"{r['threshold']:.6g}")
     _warn_edges(console, rows, "values")
-    console.print(written(output / "threshold.csv", output / "threshold.json", fig_path))
+    results.print(written(output / "threshold.csv", output / "threshold.json", fig_path))
     if failed:
         console.print(f"{len(failed)} value(s) without a threshold: "
                       + "; ".join(str(r.get("reason")) for r in failed), style="red")

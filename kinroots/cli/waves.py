@@ -23,6 +23,7 @@ from kinroots.cli._common import (
     figure_path,
     load_case_or_exit,
     stderr_console,
+    stdout_console,
     written,
 )
 
@@ -82,6 +83,7 @@ def solve(
     loaded = load_case_or_exit(case, default)
     check_output_dir(output)
     console = stderr_console()
+    results = stdout_console()  # results on stdout, diagnostics on stderr
     with CtrlC() as stop, Progress(
         TextColumn("[bold]tracing[/bold] {task.description}"), BarColumn(),
         TextColumn("{task.completed}/{task.total} k"), TimeElapsedColumn(),
@@ -108,13 +110,13 @@ def solve(
                       omega_unit_rad_per_s=float(units.omega_to_si(1.0)),
                       path=out.stage(fig_path.name))
     out.commit()
-    console.print(f"{len(sol.branches)} branch(es) traced over {len(loaded.k_values)} k "
+    results.print(f"{len(sol.branches)} branch(es) traced over {len(loaded.k_values)} k "
                   f"points; {sol.evaluations} dispersion evaluations")
-    console.print(f"fastest growing: {_describe_root(summary['fastest_growing'], loaded)}")
-    console.print(f"least damped:    {_describe_root(summary['least_damped'], loaded)}")
+    results.print(f"fastest growing: {_describe_root(summary['fastest_growing'], loaded)}")
+    results.print(f"least damped:    {_describe_root(summary['least_damped'], loaded)}")
     for note in sol.notes:
         console.print(f"note: {note}")
-    console.print(written(output / "branches.csv", output / "summary.json", fig_path))
+    results.print(written(output / "branches.csv", output / "summary.json", fig_path))
     if sol.interrupted:
         console.print("interrupted: the tables hold the scan points done before Ctrl-C "
                       "(summary.json: interrupted = true)", style="red")
@@ -165,6 +167,7 @@ def roots(
         raise typer.Exit(EXIT_BAD_INPUT)
     check_output_dir(output)
     console = stderr_console()
+    results = stdout_console()  # results on stdout, diagnostics on stderr
     with console.status(f"surveying the window at k = {at:g}"):
         s = survey(loaded, at)
     rows = survey_rows(loaded, at, s)
@@ -199,8 +202,8 @@ def roots(
     out.commit()
     for r in rows:
         if r.get("converged"):
-            console.print(_describe_root(r, loaded))
-    console.print(f"{len(s.values)} root(s) in the window ({s.count_text} by the argument "
+            results.print(_describe_root(r, loaded))
+    results.print(f"{len(s.values)} root(s) in the window ({s.count_text} by the argument "
                   "principle); "
                   f"{s.evaluations} evaluations; "
                   + written(output / "roots.csv", output / "summary.json", fig_path))
