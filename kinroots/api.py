@@ -586,7 +586,7 @@ def spectrum(case: CaseLike, *, laser_wavelength: float, scattering_angle: float
     scattering_angle : float
         Angle between incident and scattered wave vectors [degrees], in (0, 180].
     points : int
-        Samples of the spectrum.
+        Starting samples of the spectrum (bisected further where S is not resolved).
 
     Returns
     -------
