@@ -152,8 +152,11 @@ class BoundaryCounter:
                     j += z.size
                 return out
             assert family is not None
-            return [tuple(np.asarray(v, complex) for v in family(ps[i])(z))  # type: ignore[misc]
-                    for i, z in zip(idx, zs, strict=True)]
+            out = []
+            for i, z in zip(idx, zs, strict=True):
+                f, d = family(ps[i])(z)
+                out.append((np.asarray(f, complex), np.asarray(d, complex)))
+            return out
 
         m = len(ps)
         x0, x1, y0, y1 = self.box

@@ -386,8 +386,10 @@ class Tracer:
         iters = np.zeros(z.shape, dtype=int)
         done = np.zeros(z.shape, dtype=bool)
         todo = np.arange(z.size)
+        pairs = self.pairs
+        assert pairs is not None  # _block_length gives 0 without pairs
         for it in range(BLOCK_NEWTON + 1):
-            f, df = self.pairs(pp[todo], z[todo])  # type: ignore[misc]
+            f, df = pairs(pp[todo], z[todo])
             evals[todo] += 1
             with np.errstate(all="ignore"):
                 c = np.asarray(f / df, dtype=complex)
@@ -584,7 +586,7 @@ def trace(
     p = [float(v) for v in params]
     if any(b <= a for a, b in zip(p, p[1:], strict=False)):
         raise ValueError("params must be strictly increasing")
-    tracer = Tracer(family, box=box, param=p[0], rtol=rtol, atol=atol, **options)  # type: ignore[arg-type]
+    tracer = Tracer(family, box=box, param=p[0], rtol=rtol, atol=atol, **options)
     for s in starts:
         tracer.add_branch(s)
     tracer.advance_through(p[1:])

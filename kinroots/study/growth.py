@@ -24,11 +24,12 @@ from kinroots.roots import RootResult, polish
 from kinroots.roots.climb import (
     BatchRoots,
     ClimbStart,
+    FamilyFunction,
     LocalMaximum,
     maximize_many,
     newton_batch,
 )
-from kinroots.study.problem import function_at, pair_function, survey, window
+from kinroots.study.problem import PairFunction, function_at, pair_function, survey, window
 from kinroots.study.rows import is_growing
 
 #: Distance from a window edge, relative to the window's side, under which the
@@ -123,20 +124,20 @@ class _Surface:
         self.newton_box = (re0 - 2 * dr, re1 + 2 * dr, im0 - (im1 - im0) - di, im1 + di)
         self.diameter = math.hypot(re1 - re0, im1 - im0)
         self.evaluations = 0
-        self._pairs: dict[float, object] = {}
+        self._pairs: dict[float, PairFunction | None] = {}
 
     def at_angle(self, a: float) -> Case:
         return self.case if a == self.case.angle_deg else replace(self.case, angle_deg=a)
 
-    def _family(self, a: float, ks: np.ndarray):
+    def _family(self, a: float, ks: np.ndarray) -> FamilyFunction:
         if a not in self._pairs:
             self._pairs[a] = pair_function(self.at_angle(a))
         pairs = self._pairs[a]
         if pairs is not None:
-            return lambda idx, z: pairs(ks[idx], z)  # type: ignore[operator]
+            return lambda idx, z: pairs(ks[idx], z)
         c = self.at_angle(a)
 
-        def one_k_at_a_time(idx: np.ndarray, z: np.ndarray):
+        def one_k_at_a_time(idx: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             d, dd = np.empty(z.shape, complex), np.empty(z.shape, complex)
             for j, (i, zj) in enumerate(zip(idx, z, strict=True)):
                 d[j], dd[j] = (v[0] for v in function_at(c, float(ks[i]))(np.array([zj])))

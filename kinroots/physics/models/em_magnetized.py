@@ -7,8 +7,6 @@ index order x, y, z. SI throughout (ω in rad/s, k in 1/m, B in T, temperatures 
 
 from __future__ import annotations
 
-from typing import Any
-
 import numpy as np
 
 from kinroots.physics.models._harmonics import (
@@ -148,8 +146,10 @@ def _tensor_parts(
     w_all = np.concatenate([w_phi, w_y, w.gamma[..., None]], axis=-1)  # (…, 2N+1, 6)
     om1 = sums.omega
     # real (k∥ = 0) or complex (Landau) arrays, by branch
-    s_phi: Any; ds_phi: Any; s_y: Any; ds_y: Any; s_z: Any; ds_z: Any  # noqa: E702
-    kappa: Any; zfac: Any  # noqa: E702
+    s_phi: np.ndarray
+    s_z: np.ndarray
+    kappa: complex | np.ndarray
+    zfac: complex | np.ndarray
     if perpendicular:
         r = 1.0 / (om1 - n_om)
         r2 = r * r

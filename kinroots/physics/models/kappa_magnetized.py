@@ -127,7 +127,8 @@ def _parallel_setup(
     om, kpar = np.broadcast_arrays(np.asarray(omega, dtype=complex),
                                    np.asarray(k_par, dtype=complex))
     tpar2, _ = kappa_unmagnetized.kappa_widths_squared(species)
-    kappa = float(species.kappa)  # type: ignore[arg-type]
+    assert species.kappa is not None  # the kappa builders are given kappa species only
+    kappa = float(species.kappa)
     parts = parallel_parts(
         om, kpar, drift=species.drift, omega_c=species.cyclotron_frequency(B),
         width_par=float(np.sqrt(tpar2)),
