@@ -213,8 +213,9 @@ def stdout_console() -> Console:
     """Rich console on stdout for a command's results (roots found, growth rates, files
     written), shown literally; diagnostics (progress, notes, warnings, errors) go to
     :func:`stderr_console`, so ``kinroots … > results.txt`` keeps the results and
-    ``-q`` silences only the diagnostics."""
-    return Console(markup=False, highlight=False)
+    ``-q`` silences only the diagnostics.  Lines are not wrapped (a path broken across
+    lines would be useless to a script reading the output)."""
+    return Console(markup=False, highlight=False, soft_wrap=True)
 
 
 def _refuse(errors: list[str], case: Path) -> NoReturn:
