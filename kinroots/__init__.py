@@ -25,10 +25,8 @@ is imported as ``from kinroots.roots import find_roots`` (through ``sys.modules`
 as ``import kinroots.roots as ...``.
 """
 
-from __future__ import annotations
-
-import sys
-import types
+import sys as _sys
+import types as _types
 
 #: Public name -> module that defines it.
 _EXPORTS: dict[str, str] = {
@@ -74,17 +72,18 @@ def __getattr__(name: str) -> object:
 
 
 def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(_EXPORTS) | {"__version__"})
+    # the public names only (not the helper modules above nor loaded subpackages)
+    return sorted(__all__)
 
 
-class _Package(types.ModuleType):
+class _Package(_types.ModuleType):
     """The package module: the public function ``roots`` keeps its name when the
     subpackage ``kinroots.roots`` (the root-finding layer) is imported."""
 
     def __setattr__(self, name: str, value: object) -> None:
-        if name == "roots" and isinstance(value, types.ModuleType):
+        if name == "roots" and isinstance(value, _types.ModuleType):
             return  # the subpackage stays reachable through sys.modules
         super().__setattr__(name, value)
 
 
-sys.modules[__name__].__class__ = _Package
+_sys.modules[__name__].__class__ = _Package

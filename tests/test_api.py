@@ -318,6 +318,8 @@ def test_import_is_light_and_names_resolve():
     assert kinroots.roots.__module__ == "kinroots.api"
     with pytest.raises(AttributeError):
         kinroots.no_such_name  # noqa: B018
+    # tab completion in a notebook offers the API, not helper modules or subpackages
+    assert dir(kinroots) == sorted(kinroots.__all__)
 
 
 def test_launch_agrees_with_the_temporal_roots():
