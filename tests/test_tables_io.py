@@ -144,3 +144,49 @@ def test_relative_residuals_of_the_example_cases_are_at_rounding():
                 if not near_poles:
                     assert r["relative_residual"] < bound, (path.stem, k, r)
                 assert r["relative_error"] <= 10 * case.solver.tolerance, (path.stem, k)
+
+
+def _row(branch, k, w, hand=-1.0):
+    return {"branch": branch, "k": k, "omega_real": w.real, "omega_imag": w.imag,
+            "converged": True, "handedness": hand, "electrostatic_fraction": 0.0,
+            "magnetic_compressibility": 0.0}
+
+
+def test_pieces_of_one_wave_across_a_gap_are_linked():
+    # A constructed left-hand wave ω_r = k runs along the window's bottom edge
+    # (Im ω ≥ −0.02), leaves it after k = 0.7 and re-enters at k = 1.0, where the tracer
+    # sees a new branch (3): one wave.  A right-hand branch (1) that ends inside the
+    # window, and a right-hand root entering near the edge (2), are waves of their own.
+    from types import SimpleNamespace
+
+    from kinroots.study.rows import link_waves, wave_name
+
+    case = SimpleNamespace(search_real=(0.0, 2.0), search_imag=(-0.02, 0.4),
+                           model="electromagnetic")
+    rows = [_row(0, k, complex(k, -0.0199 + 0.0001 * (0.7 - k))) for k in (0.5, 0.6, 0.7)]
+    rows += [_row(3, k, complex(k, -0.0199 + 0.001 * (k - 1.0))) for k in (1.0, 1.1, 1.2)]
+    rows += [_row(1, k, complex(k + 0.5, 0.1), hand=1.0) for k in (0.5, 0.6, 0.7, 0.8)]
+    rows += [_row(2, k, complex(k + 0.5, -0.0199), hand=1.0) for k in (1.0, 1.1)]
+    waves = link_waves(case, rows)
+    assert waves[0] == waves[3] == 0           # the left-hand pieces: one wave
+    assert waves[1] == 1 and waves[2] == 2     # not an edge exit / wrong sense: their own
+    assert wave_name(case, [r for r in rows if r["branch"] in (0, 3)]) == "left-hand"
+    assert wave_name(case, [r for r in rows if r["branch"] == 1]) == "right-hand"
+
+
+@pytest.mark.slow
+def test_the_left_hand_wave_of_the_space_case_is_one_wave():
+    # Issue 18: in cases/space_protons_alphas.toml the left-hand wave is branch 0 for
+    # k d_p 0.1–0.26 and branch 2 for 0.4–0.96 (it dips below the window in between).
+    from pathlib import Path
+
+    from kinroots import load_case
+    from kinroots.study.rows import branch_rows
+    from kinroots.study.solve import solve
+
+    case = load_case(Path(__file__).resolve().parent.parent / "cases"
+                     / "space_protons_alphas.toml")
+    rows = branch_rows(solve(case))
+    wave = {r["branch"]: (r["wave"], r["wave_name"]) for r in rows}
+    assert wave[0] == wave[2] == (0, "left-hand")
+    assert wave[1] == (1, "right-hand")

@@ -47,6 +47,8 @@ ROOT_COLUMNS: tuple[str, ...] = (
     "freq_hz",
     "gamma_per_s",
     *RESULT_COLUMNS,
+    "wave",
+    "wave_name",
     *MODE_COLUMNS,
 )
 

@@ -58,28 +58,47 @@ def _plotted(r: Mapping[str, Any]) -> complex:
 
 
 def curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[BranchCurve]:
-    """Branch curves from table rows (the columns of branches.csv, typed: ``branch``,
-    ``k``, ``omega_real``, ``omega_imag``, ``converged``, ``verified``), in branch order;
-    failed points become NaN.  A component marked as rounding noise (``below_resolution``)
-    is drawn as 0, so that a purely growing mode's ω_r panel does not autoscale to
-    1e-28 spikes."""
-    by_branch: dict[Any, list[Mapping[str, Any]]] = {}
+    """Curves from table rows (the columns of branches.csv, typed: ``branch``, ``k``,
+    ``omega_real``, ``omega_imag``, ``converged``, ``verified``; ``wave`` and
+    ``wave_name`` when present).  Branches that are pieces of one wave make one curve,
+    labelled by the wave's name, with a gap between the pieces; failed points become
+    NaN.  A component marked as rounding noise (``below_resolution``) is drawn as 0, so
+    that a purely growing mode's ω_r panel does not autoscale to 1e-28 spikes."""
+    groups: dict[Any, list[Mapping[str, Any]]] = {}
+    labels: dict[Any, str] = {}
     for r in rows:
         if r.get("branch") in (None, ""):
             continue
-        by_branch.setdefault(r["branch"], []).append(r)
+        wave = r.get("wave")
+        key = ("wave", wave) if wave not in (None, "") else ("branch", r["branch"])
+        groups.setdefault(key, []).append(r)
+        if key[0] == "wave":
+            name = r.get("wave_name") or "unidentified"
+            labels[key] = f"wave {wave}: {name}"
+        else:
+            labels[key] = f"branch {r['branch']}"
     curves = []
-    for b, pts in by_branch.items():
-        pts = sorted(pts, key=lambda r: float(r["k"]))
-        ok = [bool(r.get("converged")) for r in pts]
-        curves.append(BranchCurve(
-            label=f"branch {b}",
-            k=np.array([float(r["k"]) for r in pts]),
-            omega=np.array([_plotted(r) if c else complex(math.nan, math.nan)
-                            for r, c in zip(pts, ok, strict=True)]),
-            verified=np.array([bool(r.get("verified")) and c
-                               for r, c in zip(pts, ok, strict=True)]),
-        ))
+    for key, pts in groups.items():
+        by_branch: dict[Any, list[Mapping[str, Any]]] = {}
+        for r in pts:
+            by_branch.setdefault(r["branch"], []).append(r)
+        ks: list[float] = []
+        ws: list[complex] = []
+        vs: list[bool] = []
+        pieces = sorted(by_branch.values(), key=lambda p: min(float(r["k"]) for r in p))
+        for n, piece in enumerate(pieces):
+            piece = sorted(piece, key=lambda r: float(r["k"]))
+            if n:  # a gap between two pieces of one wave: no line across it
+                ks.append(0.5 * (ks[-1] + float(piece[0]["k"])))
+                ws.append(complex(math.nan, math.nan))
+                vs.append(False)
+            for r in piece:
+                ok = bool(r.get("converged"))
+                ks.append(float(r["k"]))
+                ws.append(_plotted(r) if ok else complex(math.nan, math.nan))
+                vs.append(bool(r.get("verified")) and ok)
+        curves.append(BranchCurve(label=labels[key], k=np.array(ks), omega=np.array(ws),
+                                  verified=np.array(vs)))
     return curves
 
 

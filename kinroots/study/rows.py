@@ -140,12 +140,126 @@ def with_note(reason: str, note: str) -> str:
 
 
 def branch_rows(sol: _Traced) -> list[dict[str, Any]]:
-    """Rows of branches.csv, branch by branch, k increasing."""
+    """Rows of branches.csv, branch by branch, k increasing, with the ``wave`` each
+    branch belongs to and that wave's name (:func:`link_waves`, :func:`wave_name`)."""
     rows = []
     for b in sol.branches:
         for k, r in b.sorted_points():
             rows.append(root_row(sol.case, b.id, k, r, verified=k in b.verified_at))
+    waves = link_waves(sol.case, rows)
+    names: dict[int, str] = {}
+    for wid in set(waves.values()):
+        names[wid] = wave_name(sol.case, [row for row in rows
+                                          if waves.get(row["branch"]) == wid])
+    for row in rows:
+        wave = waves.get(row["branch"])
+        row["wave"] = wave
+        row["wave_name"] = names.get(wave) if wave is not None else None
     return rows
+
+
+def _median(values: list[Any]) -> float | None:
+    xs = sorted(float(v) for v in values if v is not None and math.isfinite(float(v)))
+    return xs[len(xs) // 2] if xs else None
+
+
+def wave_name(case: Case, rows: list[dict[str, Any]]) -> str:
+    """A name for a wave from its mode identity (median over its converged rows).
+
+    The rule (written down for the README): electrostatic models, "electrostatic";
+    electromagnetic, "left-hand" or "right-hand" where the handedness is below −0.5 or
+    above 0.5 (sense of rotation of the transverse field about B, or about z when
+    B = 0), else "compressive" where |δB_z|/|δB| > 0.5, else "quasi-electrostatic"
+    where the electrostatic fraction exceeds 0.9, else "unidentified".
+    """
+    good = [r for r in rows if r.get("converged")]
+    if case.model != "electromagnetic":
+        return "electrostatic"
+    hand = _median([r.get("handedness") for r in good])
+    comp = _median([r.get("magnetic_compressibility") for r in good])
+    esf = _median([r.get("electrostatic_fraction") for r in good])
+    if hand is not None and hand <= -0.5:
+        return "left-hand"
+    if hand is not None and hand >= 0.5:
+        return "right-hand"
+    if comp is not None and comp > 0.5:
+        return "compressive"
+    if esf is not None and esf > 0.9:
+        return "quasi-electrostatic"
+    return "unidentified"
+
+
+def link_waves(case: Case, rows: list[dict[str, Any]]) -> dict[Any, int]:
+    """Branch id -> wave id: branches that are pieces of one wave share the wave id.
+
+    A branch that ends at the window's edge (its last converged root within 5 % of the
+    window's size from an edge) is continued by a later branch that starts, after the
+    gap, near the same edge, where the first branch's last two roots extrapolate
+    linearly (within 5 % of the window's width in Re ω, plus a quarter of the
+    extrapolated move), with the same sense of rotation (handedness of the same sign
+    where both exceed 0.5 in size).  Each branch continues at most one other, the best
+    match first; the wave id is the id of its first branch.  Common practice
+    (continuity of ω and of the polarization across a gap); a piece that matches none
+    is a wave of its own.
+    """
+    x0, x1 = case.search_real
+    y0, y1 = case.search_imag
+    span_r, span_i = x1 - x0, y1 - y0
+    pieces: dict[Any, list[dict[str, Any]]] = {}
+    for r in rows:
+        if r.get("converged") and r.get("branch") not in (None, ""):
+            pieces.setdefault(r["branch"], []).append(r)
+
+    def edge(w: complex) -> tuple[str, float]:
+        d = {"bottom": (w.imag - y0) / span_i, "top": (y1 - w.imag) / span_i,
+             "left": (w.real - x0) / span_r, "right": (x1 - w.real) / span_r}
+        side = min(d, key=lambda s: d[s])
+        return side, d[side]
+
+    def hand(rs: list[dict[str, Any]]) -> float | None:
+        return _median([r.get("handedness") for r in rs])
+
+    ends, starts = {}, {}
+    for b, rs in pieces.items():
+        rs.sort(key=lambda r: r["k"])
+        first = complex(rs[0]["omega_real"], rs[0]["omega_imag"])
+        last = complex(rs[-1]["omega_real"], rs[-1]["omega_imag"])
+        ends[b] = (rs[-1]["k"], last, edge(last), rs)
+        starts[b] = (rs[0]["k"], first, edge(first), rs)
+    candidates = []
+    for a, (ka, wa, (ea, da), ra) in ends.items():
+        if da > 0.05:
+            continue
+        slope = 0.0
+        if len(ra) >= 2 and ra[-1]["k"] != ra[-2]["k"]:
+            slope = (ra[-1]["omega_real"] - ra[-2]["omega_real"]) / (ra[-1]["k"] - ra[-2]["k"])
+        for b, (kb, wb, (eb, db), rb) in starts.items():
+            if b == a or kb <= ka or db > 0.05 or eb != ea:
+                continue
+            ha, hb = hand(ra), hand(rb)
+            if ha is not None and hb is not None and abs(ha) > 0.5 and abs(hb) > 0.5 \
+                    and (ha > 0) != (hb > 0):
+                continue
+            move = slope * (kb - ka)
+            miss = abs(wa.real + move - wb.real)
+            if miss <= 0.05 * span_r + 0.25 * abs(move):
+                candidates.append((miss, a, b))
+    follows: dict[Any, Any] = {}
+    taken: set[Any] = set()
+    for _, a, b in sorted(candidates, key=lambda c: c[0]):
+        if a in follows or b in taken:
+            continue
+        follows[a] = b
+        taken.add(b)
+    waves: dict[Any, int] = {}
+    for b in sorted(pieces, key=lambda x: (starts[x][0], str(x))):
+        if b in waves:
+            continue
+        wid, cur = int(b), b
+        while cur is not None and cur not in waves:
+            waves[cur] = wid
+            cur = follows.get(cur)
+    return waves
 
 
 #: A root counts as growing only when γ exceeds this multiple of the root tolerance
