@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Generator
 from dataclasses import dataclass
 
 import numpy as np
@@ -216,7 +216,8 @@ def _step(g: np.ndarray, h: np.ndarray, u: np.ndarray, radius: float, lo: np.nda
     return s, float(g @ s + 0.5 * s @ h @ s)
 
 
-def _climb_steps(start: ClimbStart, xtol: float, ftol: float, max_iter: int):
+def _climb_steps(start: ClimbStart, xtol: float, ftol: float, max_iter: int
+                 ) -> Generator[np.ndarray, np.ndarray, LocalMaximum]:
     """Generator of one climb (scaled coordinates): yields points, receives values."""
     scale = np.asarray(start.scale, dtype=float)
     lo = np.asarray(start.lower, dtype=float) / scale

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import cmath
 import functools
+from collections.abc import Callable
 
 import numpy as np
 from scipy.special import wofz
@@ -206,7 +207,7 @@ def _middle_m1(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return m1, -zf - 2.0 * z * m1
 
 
-def _lean_kernel(r: float):  # noqa: ANN202 - private dispatch helper
+def _lean_kernel(r: float) -> Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]:
     """The order-1 kernel for a point of modulus ``r`` (NaN: the Faddeeva one)."""
     if r >= _ZETA_SERIES:
         return _series_m1

@@ -234,7 +234,8 @@ def scaled_susceptibility(
         (m0, m1, m2, m3), (d0, d1, d2, d3) = landau_moments(zeta, order=3)
         zm0, dzm0 = zeta * m0, m0 + zeta * d0
 
-        def bracket11(zm: np.ndarray, a0, a1, a2, a3, const) -> np.ndarray:
+        def bracket11(zm: np.ndarray, a0: np.ndarray, a1: np.ndarray, a2: np.ndarray,
+                      a3: np.ndarray, const: complex | np.ndarray) -> np.ndarray:
             return (
                 const
                 - c1 * zm
