@@ -101,7 +101,9 @@ def test_base_case_is_valid() -> None:
     assert d.mass == pytest.approx(2.014 * constants.atomic_mass, rel=1e-15)  # scipy CODATA
     assert (d.temperature_par, d.temperature_perp, d.drift) == (2.0, 3.0, 0.0)
     assert case.plasma.species[0].mass == constants.m_e
-    np.testing.assert_allclose(case.k_values, np.linspace(0.1, 2.0, 20), rtol=0, atol=0)
+    # grid values as the user writes them: the correctly rounded decimals i/10, not
+    # linspace's 0.30000000000000004 (issue 17)
+    assert case.k_values.tolist() == [i / 10 for i in range(1, 21)]
     assert case.search_real == (0.01, 3.0) and case.search_imag == (-0.5, 0.5)
     assert case.warnings == ()
     assert not case.k_values.flags.writeable
@@ -131,7 +133,8 @@ def test_log_spacing_and_solver() -> None:
     data = mutated(scan__k__spacing="log")
     data["solver"] = {"tolerance": 1e-8, "harmonic_tolerance": 1e-12, "resurvey_every": 0}
     case = parse_case(data, "c")
-    np.testing.assert_allclose(case.k_values, np.geomspace(0.1, 2.0, 20), rtol=1e-15)
+    np.testing.assert_allclose(case.k_values, np.geomspace(0.1, 2.0, 20), rtol=1e-12)
+    assert case.k_values[0] == 0.1 and case.k_values[-1] == 2.0
     assert case.solver.resurvey_every == 0 and case.solver.tolerance == 1e-8
 
 
@@ -279,3 +282,25 @@ def test_default_case_path_and_contents() -> None:
     # this window on purpose (it lives on ion scales; see cases/hydrogen_cold_ions.toml)
     cs = np.sqrt((2.0 + 3 * 0.2) * constants.e / constants.m_p) / (case.units.speed_unit)
     assert 0.65 * cs < case.search_real[0]
+
+
+def test_grids_written_as_the_user_writes_them() -> None:
+    """Grid points are the decimals a user would type (issue 17): 0.2, not linspace's
+    0.19999999999999998; a log axis keeps its ends exactly and its
+    interior within 1e-12 of numpy.geomspace."""
+    from kinroots.io.grid import spaced_grid
+
+    users = [(2 + 18 * i) / 100 for i in range(12)]  # 0.02, 0.2, 0.38, ... correctly rounded
+    assert np.linspace(0.02, 2.0, 12).tolist() != users  # the rounding being fixed
+    assert spaced_grid(0.02, 2.0, 12).tolist() == users
+    assert spaced_grid(0.5e6, 6.0e6, 12).tolist() == [5e5 * i for i in range(1, 13)]
+    log = spaced_grid(0.5, 3.0, 6, "log")
+    np.testing.assert_allclose(log, np.geomspace(0.5, 3.0, 6), rtol=1e-12)
+    assert (log[0], log[-1]) == (0.5, 3.0)
+    assert spaced_grid(7.0, 9.0, 1).tolist() == [7.0]
+
+    data = mutated()
+    data["launch"] = {"frequency": {"start": 0.5e6, "stop": 6.0e6, "points": 12}}
+    case = parse_case(data, "c")
+    assert case.launch is not None
+    assert list(case.launch.frequencies_hz) == [5e5 * i for i in range(1, 13)]

@@ -55,6 +55,9 @@ def test_launch_traces_the_ion_acoustic_wave():
     assert res.failed_points == 0 and len(res.branches) == 1
     rows = launch.launch_rows(res)
     assert len(rows) == len(case.launch.frequencies_hz)
+    # the driving frequencies written as the case gives them (0.5e6, not 499999.9999999999)
+    assert [r["freq_hz"] for r in rows] == list(case.launch.frequencies_hz)
+    assert rows[0]["freq_hz"] == 0.5e6
     for r in rows:
         assert r["converged"]
         assert r["wavelength_m"] == pytest.approx(2 * math.pi / r["k_real_per_m"])

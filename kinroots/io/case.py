@@ -28,6 +28,7 @@ from typing import Any
 import numpy as np
 
 from kinroots.io.checker import Checker, _show
+from kinroots.io.grid import spaced_grid
 from kinroots.io.limits import (
     LIMITS,
     MAX_CASE_BYTES,
@@ -761,8 +762,7 @@ def _check_scan(chk: Checker, data: Mapping[str, Any]
         return None
     if start is None or stop is None or points is None or spacing is None:
         return None
-    grid = np.geomspace if spacing == "log" else np.linspace
-    return ScanSpec(start, stop, points, spacing), grid(start, stop, points)
+    return ScanSpec(start, stop, points, spacing), spaced_grid(start, stop, points, spacing)
 
 
 def _check_launch(chk: Checker, data: Mapping[str, Any]) -> LaunchSpec | None:
@@ -805,8 +805,7 @@ def _check_launch(chk: Checker, data: Mapping[str, Any]) -> LaunchSpec | None:
             if points > 1 and not start < stop:
                 chk.error(p, f"got start = {start!r}, stop = {stop!r}, expected start < stop")
             else:
-                grid = np.geomspace if spacing == "log" else np.linspace
-                freqs = [float(x) for x in grid(start, stop, points)] if points > 1 else [start]
+                freqs = [float(x) for x in spaced_grid(start, stop, points, spacing)]
     else:
         chk.bad("launch.frequency", tab["frequency"], expected)
     boxes = []

@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from kinroots.io.grid import spaced_grid
 from kinroots.io.limits import (
     LIMITS,
     MAX_ANGLES,
@@ -50,12 +51,7 @@ class SweepAxis:
     @property
     def values(self) -> np.ndarray:
         """The grid values (read-only array)."""
-        if self.points == 1:
-            v = np.array([self.start])
-        elif self.spacing == "log":
-            v = np.geomspace(self.start, self.stop, self.points)
-        else:
-            v = np.linspace(self.start, self.stop, self.points)
+        v = spaced_grid(self.start, self.stop, self.points, self.spacing)
         v.setflags(write=False)
         return v
 

@@ -156,13 +156,18 @@ def launch_columns(case: Case) -> tuple[str, ...]:
     return LAUNCH_COLUMNS + modes.MODE_COLUMNS + modes.density_columns(case.plasma)
 
 
-def launch_row(case: Case, branch: int, omega: float, r: RootResult) -> dict[str, Any]:
-    """One row of ``launch.csv`` (normalized ω, RootResult holding normalized complex k)."""
+def launch_row(case: Case, branch: int, omega: float, r: RootResult,
+               freq_hz: float | None = None) -> dict[str, Any]:
+    """One row of ``launch.csv`` (normalized ω, RootResult holding normalized complex k).
+
+    ``freq_hz`` is the driving frequency as the case gave it (written as is: 5e5, not the
+    499999.9999999999 of converting ω back); by default it is computed from ``omega``.
+    """
     units = case.units
     w_si = float(units.omega_to_si(omega))
     row: dict[str, Any] = {
         "branch": branch,
-        "freq_hz": w_si / (2.0 * math.pi),
+        "freq_hz": w_si / (2.0 * math.pi) if freq_hz is None else float(freq_hz),
         "omega": float(omega),
         "residual": float(r.residual),
         "relative_error": relative_error(r),
@@ -209,5 +214,7 @@ def launch_row(case: Case, branch: int, omega: float, r: RootResult) -> dict[str
 
 def launch_rows(res: LaunchResult) -> list[dict[str, Any]]:
     """Rows of ``launch.csv``, branch by branch, frequency increasing."""
-    return [launch_row(res.case, b.id, w, r)
+    to_hz = {float(2.0 * math.pi * f / res.case.units.omega_unit): float(f)
+             for f in res.frequencies_hz}
+    return [launch_row(res.case, b.id, w, r, to_hz.get(w))
             for b in res.branches for w, r in sorted(b.points.items())]
