@@ -355,6 +355,8 @@ def sweep(case: CaseLike, workers: int | None = None, scheduler: Any = None) -> 
         No ``[sweep]`` table, or swept values that make an invalid case.
     ConnectionError
         The scheduler cannot be reached.
+    ModuleNotFoundError
+        A scheduler is given but dask.distributed is not installed (the ``dask`` extra).
     """
     from kinroots.io.netcdf import sweep_dataset
     from kinroots.study.sweep import check_ranges, run_points

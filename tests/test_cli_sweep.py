@@ -161,3 +161,17 @@ def test_sweep_and_threshold_tables_name_their_parameters(tmp_path):
     rows = _rows(out / "sweep.csv")
     assert [float(r["species_p_beta_par"]) for r in rows] == pytest.approx([1.0, 2.0])
     assert [float(r["species_p_anisotropy"]) for r in rows] == pytest.approx([1.3, 1.3])
+
+
+def test_scheduler_without_dask_names_the_extra(tmp_path, monkeypatch):
+    """--scheduler without dask.distributed installed (issue 17.5): exit 2 and a message
+    naming the extra, before any point is solved."""
+    monkeypatch.setitem(sys.modules, "dask.distributed", None)  # import raises ImportError
+    case = tmp_path / "c.toml"
+    case.write_text(small_case_text())
+    res = CliRunner().invoke(app, ["sweep", str(case), "-o", str(tmp_path / "o"),
+                                   "--scheduler", "tcp://127.0.0.1:1", "--no-plot"])
+    assert res.exit_code == 2, res.output
+    assert "option --scheduler" in res.output and "kinroots[dask]" in res.output
+    assert "Traceback" not in res.output
+    assert not (tmp_path / "o" / "sweep.csv").exists()

@@ -101,7 +101,7 @@ def _run(loaded: Case, kind: str, total: int, output: Path, workers: int,
             try:
                 run_points(loaded, kind, todo, commit, workers=workers or None,
                            scheduler=scheduler)
-            except ConnectionError as exc:
+            except (ConnectionError, ModuleNotFoundError) as exc:
                 _err(f"error: option --scheduler: {exc}")
                 raise typer.Exit(EXIT_BAD_INPUT) from None
         return store.rows(kind)

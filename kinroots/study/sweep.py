@@ -359,6 +359,8 @@ def run_points(
     ------
     ConnectionError
         The scheduler cannot be reached (raised before any point is solved).
+    ModuleNotFoundError
+        A scheduler is given but dask.distributed is not installed (the ``dask`` extra).
     """
     source = str(case.source) if case.source is not None else "case"
     todo = list(indices)
@@ -377,10 +379,17 @@ def run_points(
     run_pool(_init_worker, (case.raw, source, kind), _work_chunk, todo, on_result, n)
 
 
+#: Why a Dask scheduler cannot be used when dask.distributed is not installed.
+DASK_MISSING = ("a Dask scheduler needs dask.distributed, which is not installed: "
+                "install the 'dask' extra (pip install 'kinroots[dask]')")
+
+
 def _run_dask(raw: dict[str, Any], source: str, kind: str, todo: list[int],
               on_result: Callable[[int, dict[str, Any]], None], scheduler: str) -> None:
-    from dask.distributed import Client, as_completed
-
+    try:
+        from dask.distributed import Client, as_completed
+    except ImportError:
+        raise ModuleNotFoundError(DASK_MISSING, name="dask") from None
     try:
         client = Client(scheduler, timeout="10s")
     except (OSError, TimeoutError) as exc:
