@@ -38,6 +38,8 @@ def test_help_keeps_every_bracketed_word(name: str) -> None:
     for word in words:
         assert word in res.output, f"{name} --help lost {word}"
     assert max(len(line) for line in res.output.splitlines()) <= 80
+    # Value placeholders are words, not Python types or NaN defaults.
+    assert "list[" not in res.output and "nan" not in res.output.split()
     # Paragraphs are re-wrapped: a line never ends mid-sentence after one short word.
     body = re.split(r"\n(?:Arguments|Options):|Example:", res.output)[0]
     assert not any(0 < len(line.strip()) <= 12 and not line.strip().endswith(".")

@@ -15,13 +15,13 @@ __all__ = ["register"]
 def report_command(
     folder: Annotated[Path, typer.Argument(
         help="Output folder of solve, roots, launch, scatter, sweep or threshold.",
-        show_default=False)],
+        show_default=False, metavar="DIR")],
     points: Annotated[int, typer.Option(
         "--points", min=1, help="Rows at this many evenly spaced values of k (frequency, "
         "sweep value...), first and last included.")] = 10,
     at: Annotated[list[float] | None, typer.Option(
-        "--at", help="Rows at the value nearest this one instead (repeat the option for "
-        "several values).")] = None,
+        "--at", metavar="<float>", help="Rows at the value nearest this one instead "
+        "(repeat the option for several values).")] = None,
     all_rows: Annotated[bool, typer.Option(
         "--all", help="Every row of each table.")] = False,
 ) -> None:

@@ -134,7 +134,8 @@ def solve(
 def roots(
     case: CaseArg = None,
     at: Annotated[float | None, typer.Option("--at", help="Normalized wavenumber k (units "
-                                             "of the case's [units] length).")] = None,
+                                             "of the case's [units] length); without it, "
+                                             "the first k of the case's scan.")] = None,
     output: OutOpt = Path("kinroots-out"),
     default: DefaultOpt = False,
     figure_format: FigureFormatOpt = FigureFormat.png,
