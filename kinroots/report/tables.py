@@ -267,6 +267,9 @@ def build_table(res: Result, *, points: int | None, at: Sequence[float] = ()) ->
             "the component they come from.")
     total = len({float(r[key]) for r in res.rows if finite(r.get(key))})
     shown = len({float(r[key]) for r in rows if finite(r.get(key))})
-    table.notes.insert(0, f"{len(rows)} row(s) at {shown} of {total} values of {key}.")
+    # the position in words: the sweep/threshold parameter as the table's first column names it
+    name = {"solve": "k", "roots": "k", "launch": "the driving frequency f",
+            "scatter": "the wavelength shift"}.get(kind) or table.columns[0].label
+    table.notes.insert(0, f"{len(rows)} row(s) at {shown} of {total} values of {name}.")
     table.notes.extend(notes)
     return table
