@@ -153,6 +153,16 @@ def test_rounding_noise_is_drawn_as_zero() -> None:
     assert list(c.omega.real) == [0.0, 0.0] and list(c.omega.imag) == [0.01, 0.01]
 
 
+def test_launch_im_k_noise_is_drawn_as_zero() -> None:
+    from kinroots.plots.lab import launch_curves_from_rows
+
+    rows = [{"branch": 0, "freq_hz": f, "k_real_per_m": 30.0, "k_imag_per_m": ki,
+             "converged": True, "verified": False, "below_resolution": mark}
+            for f, ki, mark in ((1e5, 4e-18, "imag"), (2e5, 0.5, ""), (3e5, -2e-19, "imag"))]
+    (c,) = launch_curves_from_rows(rows)
+    assert list(c.k_per_m.imag) == [0.0, 0.5, 0.0] and list(c.k_per_m.real) == [30.0] * 3
+
+
 def test_failed_points_are_gaps_not_zero_growth() -> None:
     from kinroots.plots.branches import curves_from_rows
 

@@ -262,3 +262,29 @@ def test_digits_rule() -> None:
     assert as_latex("-4.6376e-05") == r"$-4.6376\times10^{-5}$"
     assert latex_text("γ/ω_pe [1/s]") == r"$\gamma$/$\omega_{\mathrm{pe}}$ [1/s]"
     assert latex_text("50% of a_$") == r"50\% of a\_\$"
+
+
+def test_rounding_noise_is_unresolved_not_a_number(tmp_path: Path) -> None:
+    """Issue 18: the default case's Langmuir wave at k λ_De = 0.1 has a true damping of
+    about −1.5e-9 s⁻¹ (mpmath, issue 18), 1e-20 ω_pe: far below what a root known to
+    1e-10 resolves, so the report writes "unresolved", not the rounding noise of the CSV.
+    A table written before the below_resolution column gets the same rule."""
+    folder = tmp_path / "d"
+    _run("solve", "-o", str(folder), "--no-plot")
+    src = _csv(folder / "branches.csv")[0]
+    assert float(src["k"]) == pytest.approx(0.1) and src["below_resolution"] == "imag"
+    _run("report", str(folder), "--at", "0.1")
+    md = (folder / "report.md").read_text()
+    first = _md_table(md, "solve: roots")[0]
+    assert first[3] == first[6] == "unresolved"
+    assert _agrees(first[2], float(src["omega_real"]))
+    assert "unresolved: that component of ω is below" in md
+    rows = _csv(folder / "branches.csv")  # the same table without the column
+    for r in rows:
+        r.pop("below_resolution")
+    with open(folder / "branches.csv", "w", newline="") as fh:
+        w = csv.DictWriter(fh, fieldnames=list(rows[0]))
+        w.writeheader()
+        w.writerows(rows)
+    _run("report", str(folder), "--at", "0.1")
+    assert _md_table((folder / "report.md").read_text(), "solve: roots")[0][3] == "unresolved"

@@ -110,6 +110,9 @@ def test_rounding_noise_is_marked_not_passed_off_as_data(tmp_path):
     assert float(first["k"]) == pytest.approx(0.1) and first["below_resolution"] == "imag"
     least = json.loads((tmp_path / "d" / "summary.json").read_text())["least_damped"]
     assert least["below_resolution"] == "imag" and least["gamma_resolution_per_s"] > 0
+    # the unresolved damping is not written as a number in the summary: 0 and empty
+    assert least["omega_imag"] == 0.0 and least["gamma_per_s"] is None
+    assert "below resolution" in least["unresolved"] and least["omega_real"] > 1.0
     assert below_resolution(complex(-5.12e-204, 0.0913), 1e-13, 1e-10) == "real"
     assert below_resolution(complex(1.0, -0.02), 1e-13, 1e-10) == ""
     res = CliRunner().invoke(app, ["solve", "cases/weibel_hot_electrons.toml", "-o",
@@ -119,6 +122,9 @@ def test_rounding_noise_is_marked_not_passed_off_as_data(tmp_path):
     with open(tmp_path / "w" / "branches.csv", newline="") as fh:
         rows = list(_csv.DictReader(fh))
     assert rows and all(r["below_resolution"] == "real" for r in rows)
+    top = json.loads((tmp_path / "w" / "summary.json").read_text())["fastest_growing"]
+    assert top["omega_real"] == 0.0 and top["freq_hz"] is None and top["omega_imag"] > 0
+    assert "purely growing" in top["unresolved"]
 
 
 @pytest.mark.slow

@@ -40,7 +40,9 @@ class LaunchCurve:
 
 def launch_curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[LaunchCurve]:
     """Launched-wave curves from typed launch.csv rows (``branch``, ``freq_hz``,
-    ``k_real_per_m``, ``k_imag_per_m``, ``converged``, ``verified``); failed points NaN."""
+    ``k_real_per_m``, ``k_imag_per_m``, ``converged``, ``verified``); failed points NaN.
+    An Im k marked as rounding noise (``below_resolution``) is drawn as 0, not as a
+    spike of 1e-20 that the axis would autoscale to."""
     by_branch: dict[Any, list[Mapping[str, Any]]] = {}
     for r in rows:
         by_branch.setdefault(r["branch"], []).append(r)
@@ -50,7 +52,9 @@ def launch_curves_from_rows(rows: Sequence[Mapping[str, Any]]) -> list[LaunchCur
         ok = [bool(r.get("converged")) for r in pts]
         curves.append(LaunchCurve(
             f"wave {b}", [float(r["freq_hz"]) for r in pts],
-            [complex(float(r["k_real_per_m"]), float(r["k_imag_per_m"])) if c
+            [complex(float(r["k_real_per_m"]),
+                     0.0 if "imag" in str(r.get("below_resolution") or "")
+                     else float(r["k_imag_per_m"])) if c
              else complex(math.nan, math.nan) for r, c in zip(pts, ok, strict=True)],
             [bool(r.get("verified")) and c for r, c in zip(pts, ok, strict=True)]))
     return curves

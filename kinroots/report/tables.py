@@ -99,6 +99,27 @@ def _uncertainty_of(row: dict[str, Any]) -> Any:
     return rel if rel is not None and finite(rel) else row.get("residual")
 
 
+#: Shown instead of a component that is rounding noise (and of what is derived from it).
+UNRESOLVED = "unresolved"
+#: A component below this multiple of ε·|z| is not resolved (the tables' rule, README
+#: "Output", column ``below_resolution``).
+_RESOLUTION = 10.0
+
+
+def _unresolved(row: dict[str, Any], eps: float, whole: float, part: float,
+                name: str) -> bool:
+    """Whether component ``name`` ("real" or "imag") of a row's root is rounding noise:
+    the table's ``below_resolution`` mark when the table has the column, else the same
+    rule (|x| ≤ 10·ε·|z|) for tables written before it."""
+    if "below_resolution" in row:
+        return name in str(row.get("below_resolution") or "").split()
+    return abs(part) <= _RESOLUTION * eps * whole
+
+
+def _component(value: float, digits: int, unresolved: bool) -> str:
+    return UNRESOLVED if unresolved else format_significant(value, digits)
+
+
 def _residual(row: dict[str, Any]) -> str:
     r = row.get("residual")
     return format_significant(float(r), 2) if r is not None and finite(r) else "—"
@@ -123,12 +144,21 @@ def _root_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table:
         eps = relative_uncertainty(rtol, _uncertainty_of(r))
         mod = abs(complex(wr, wi))
         d_r, d_i = digits_for(eps, mod, wr), digits_for(eps, mod, wi)
+        no_r = _unresolved(r, eps, mod, wr, "real")
+        no_i = _unresolved(r, eps, mod, wi, "imag")
         cells.append(head + [
-            format_significant(wr, d_r), format_significant(wi, d_i),
+            _component(wr, d_r, no_r), _component(wi, d_i, no_i),
             user_number(r.get("k_per_m")),
-            format_significant(float(r["freq_hz"]), d_r),
-            format_significant(float(r["gamma_per_s"]), d_i)] + tail)
-    return Table(f"{res.kind.command}: roots", cols, cells)
+            _component(float(r["freq_hz"]), d_r, no_r),
+            _component(float(r["gamma_per_s"]), d_i, no_i)] + tail)
+    table = Table(f"{res.kind.command}: roots", cols, cells)
+    if any(UNRESOLVED in c for c in cells):
+        table.notes.append(f"{UNRESOLVED}: that component of ω is below 10·ε·|ω|, the "
+                           "root's accuracy (e.g. Landau damping far below the solver "
+                           "tolerance, ω_r of a purely growing root): only its smallness "
+                           "is known; the CSV keeps the value and marks it in "
+                           "below_resolution.")
+    return table
 
 
 def _launch_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table:
@@ -149,13 +179,19 @@ def _launch_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table
         eps = relative_uncertainty(rtol, _uncertainty_of(r))
         mod = abs(complex(kr, ki))
         d_r, d_i = digits_for(eps, mod, kr), digits_for(eps, mod, ki)
+        no_i = _unresolved(r, eps, mod, ki, "imag")
         damp = r.get("damping_length_m")
         cells.append(head + [
-            format_significant(kr, d_r), format_significant(ki, d_i),
+            format_significant(kr, d_r), _component(ki, d_i, no_i),
             format_significant(float(r["wavelength_m"]), d_r),
-            format_significant(float(damp), d_i) if damp is not None and finite(damp)
-            else "unresolved" if damp is None else "∞"] + tail)
-    return Table("launch: waves at the driving frequencies", cols, cells)
+            UNRESOLVED if no_i or damp is None
+            else format_significant(float(damp), d_i) if finite(damp) else "∞"] + tail)
+    table = Table("launch: waves at the driving frequencies", cols, cells)
+    if any(UNRESOLVED in c for c in cells):
+        table.notes.append(f"{UNRESOLVED}: Im k is below 10·ε·|k|, the root's accuracy, "
+                           "so neither it nor the damping length 1/Im k is known beyond "
+                           "being that small (launch.csv: below_resolution).")
+    return table
 
 
 def _other(value: Any, digits: int = OTHER_DIGITS) -> str:

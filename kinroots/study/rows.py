@@ -297,6 +297,20 @@ def extreme_roots(rows: list[dict[str, Any]], rtol: float = 1e-10) -> dict[str, 
         w = complex(r["omega_real"], r["omega_imag"])
         e["gamma_resolution_per_s"] = abs(r["gamma_per_s"] / w.imag) * GROWTH_RESOLUTION \
             * max(rtol, r.get("relative_error") or 0.0) * abs(w) if w.imag else None
+        # a component that is rounding noise is 0 here and what derives from it is empty,
+        # with the reason (branches.csv keeps the values and the mark)
+        noise = str(r.get("below_resolution") or "").split()
+        notes = []
+        if "imag" in noise:
+            e["omega_imag"], e["gamma_per_s"] = 0.0, None
+            notes.append("Im(omega) below resolution (|gamma| < gamma_resolution_per_s): "
+                         "shown as 0, gamma_per_s left empty")
+        if "real" in noise:
+            e["omega_real"], e["freq_hz"] = 0.0, None
+            notes.append("Re(omega) below resolution (purely growing or damped): shown as "
+                         "0, freq_hz left empty")
+        if notes:
+            e["unresolved"] = "; ".join(notes)
         return e
 
     return {
