@@ -13,7 +13,7 @@ import pytest
 
 sys.path.insert(0, str(Path(__file__).resolve().parent / "validation"))
 
-from test_thresholds import hellinger_case  # noqa: E402
+from test_thresholds import fit, hellinger_case  # noqa: E402
 
 from kinroots.io.case import parse_case  # noqa: E402
 from kinroots.io.parameters import with_parameter  # noqa: E402
@@ -156,3 +156,27 @@ def test_issue_firehose_threshold_is_the_true_maximum_crossing_the_level():
     c = with_parameter(case, "species.p.anisotropy", t.value)
     brute = lattice_maximum(c, at.k + 0.0013, at.angle - 0.07, at.omega, 0.01, 0.5)
     assert at.growth * (1 - 2e-3) <= brute <= at.growth * (1 + 1e-9)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize(("kind", "beta"), [("proton_cyclotron", 1.0),
+                                            ("parallel_firehose", 2.0)])
+def test_threshold_does_not_depend_on_the_k_grid(kind, beta):
+    # Issue 16 grid independence: the threshold from the 6-point k grid of the published-fit
+    # check (tests/validation/test_thresholds.py) and from 12 points over the same range
+    # agree within 0.1 % in T⊥/T∥ − 1, and each row's root grows at the level within 5 %.
+    expected = fit(kind, beta)  # Hellinger et al. (2006) fit, only to place the bracket
+    bracket = tuple(sorted((1 + 0.6 * (expected - 1), 1 + 1.4 * (expected - 1))))
+    case, angles = hellinger_case(kind, beta, expected)
+    raw = copy.deepcopy(case.raw)
+    raw["scan"]["k"] = {**raw["scan"]["k"], "points": 12}
+    fine = with_parameter(parse_case(raw, "fine k grid"), "species.p.beta_par", beta)
+    values = []
+    for c in (case, fine):
+        t = threshold_module.find_threshold(c, "species.p.anisotropy", bracket, 1e-3, angles,
+                                            xtol=1e-5 * abs(expected - 1))
+        assert t.converged, t.reason
+        assert t.at.growth == pytest.approx(1e-3, rel=0.05)
+        assert not (t.at.k_at_edge or t.at.root_at_window_edge)
+        values.append(t.value)
+    assert abs((values[0] - values[1]) / (values[1] - 1)) < 1e-3
