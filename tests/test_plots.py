@@ -172,3 +172,25 @@ def test_failed_points_are_gaps_not_zero_growth() -> None:
              "converged": False, "verified": False}]
     (c,) = curves_from_rows(rows)
     assert np.isnan(c.omega[1].real) and np.isnan(c.omega[1].imag)
+
+
+def test_root_map_colour_scale_follows_the_window_interior() -> None:
+    """A Landau-like factor exp(-(30 omega)^2) climbs by hundreds of decades below the real
+    axis and overflows deep there: the colour scale still resolves the window (issue 15.7),
+    and the overflow is drawn as its own legend entry."""
+    from kinroots.plots.branches import plot_root_map
+
+    def func(w: np.ndarray) -> np.ndarray:
+        return (w - 0.2) * np.exp(-(30.0 * w) ** 2)
+
+    box = (-0.5, 0.5, -1.0, 0.3)
+    fig = plot_root_map(func, box, [0.2 + 0j], omega_label="ω_pe", resolution=80)
+    mesh = fig.axes[0].collections[0]
+    data = np.asarray(mesh.get_array(), dtype=float)
+    finite = data[np.isfinite(data)]
+    assert finite.max() - finite.min() > 200  # the data itself spans hundreds of decades
+    lo, hi = mesh.get_clim()
+    assert hi < finite.max() - 100  # the old scale ran up to finite.max()
+    assert lo >= finite.min() - 1e-9
+    labels = fig.axes[0].get_legend_handles_labels()[1]
+    assert "D not finite (overflow)" in labels

@@ -275,6 +275,29 @@ def plot_roots(
     return fig
 
 
+def _interior_limits(
+    logd: np.ndarray, x: np.ndarray, y: np.ndarray, box: tuple[float, float, float, float]
+) -> tuple[float | None, float | None]:
+    """Colour limits of a log10|D| map from the finite values inside the window.
+
+    The 2nd and 98th percentiles (common practice for a robust colour scale), the upper
+    limit at most 8 decades above the median: roots are dips of |D|, and a region where
+    |D| climbs by hundreds of decades would otherwise take the whole scale.  ``None``
+    (matplotlib's own limits) when the window holds no finite value.
+    """
+    re0, re1, im0, im1 = box
+    inside = ((x[None, :] >= re0) & (x[None, :] <= re1)
+              & (y[:, None] >= im0) & (y[:, None] <= im1))
+    vals = logd[inside & np.isfinite(logd)]
+    if vals.size == 0:
+        return None, None
+    lo, med, hi = np.percentile(vals, [2.0, 50.0, 98.0])
+    hi = min(hi, med + 8.0)
+    if not hi > lo:
+        lo, hi = lo - 1.0, hi + 1.0
+    return float(lo), float(hi)
+
+
 def plot_root_map(
     func: Callable[[np.ndarray], np.ndarray],
     box: tuple[float, float, float, float],
@@ -289,6 +312,11 @@ def plot_root_map(
     path: Path | None = None,
 ) -> Any:
     """log10|D| over the search window (with a margin), the window drawn, roots marked.
+
+    The colour scale follows the finite values inside the window
+    (:func:`_interior_limits`), so a region where |D| grows by hundreds of decades
+    (a Landau term deep in the lower half-plane) does not flatten the interior; values
+    beyond are clipped and points where D is not finite in double precision are grey.
 
     Parameters
     ----------
@@ -313,10 +341,17 @@ def plot_root_map(
     with np.errstate(all="ignore"):
         vals = np.asarray(func(zz.ravel())).reshape(zz.shape)
         logd = np.log10(np.abs(vals))
-    logd[~np.isfinite(logd)] = np.nan
+    bad = ~np.isfinite(logd)
+    logd[bad] = np.nan
+    vmin, vmax = _interior_limits(logd, x, y, box)
     fig, (axis,) = axes_grid(ax, 1, figsize=(7.5, 6.0))
-    mesh = axis.pcolormesh(x, y, logd, shading="auto", cmap="viridis")
-    fig.colorbar(mesh, ax=axis, label="log$_{10}$ |D|")
+    from matplotlib import colormaps
+
+    cmap = colormaps["viridis"].with_extremes(bad="0.75")
+    mesh = axis.pcolormesh(x, y, logd, shading="auto", cmap=cmap, vmin=vmin, vmax=vmax)
+    fig.colorbar(mesh, ax=axis, label="log$_{10}$ |D|", extend="both")
+    if bad.any():
+        axis.fill_between([], [], color="0.75", label="D not finite (overflow)")
     axis.plot([re0, re1, re1, re0, re0], [im0, im0, im1, im1, im0], "w--", lw=1.0,
               label="search window")
     if roots:
