@@ -135,6 +135,36 @@ _I1, _I2 = (_ROWS + 1) % 3, (_ROWS + 2) % 3
 _J1, _J2 = (_COLS + 1) % 3, (_COLS + 2) % 3
 
 
+def _scaled_det_and_derivative(
+    m: np.ndarray, dm: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """det M and Σ C_ij dM_ij, both times 2^(−p), and the integer p, for stacked 3×3 M.
+
+    Row i of M and of dM is multiplied by 2^(−p_i), p_i the binary exponent of the
+    largest |M_ij| of that row (:func:`numpy.frexp`), so every scaled entry is at most 1
+    in modulus and the determinant of the scaled rows cannot overflow; p = Σ p_i.  By
+    multilinearity of det in the rows, det M = 2^p det M_s and, since the cofactors of
+    the scaled matrix are those of M times 2^(p_i − p), Σ C_ij dM_ij = 2^p Σ C^s_ij dM^s_ij
+    (row scaling of a determinant: e.g. G. H. Golub and C. F. Van Loan, *Matrix
+    Computations*, 4th ed., 2013, sec. 3.5.2, equilibration).  Powers of two are exact,
+    so where det M fits in double precision, 2^p times the result is det M to the last
+    bit unless an intermediate underflows.
+    """
+    big = np.max(np.maximum(np.abs(m.real), np.abs(m.imag)), axis=-1)
+    _, e = np.frexp(np.where(np.isfinite(big) & (big > 0), big, 1.0))
+    scale = np.ldexp(1.0, -e)[..., None]
+    d, cof = _det_and_cofactors(m * scale)
+    return d, np.sum(cof * (dm * scale), axis=(-2, -1)), np.sum(e, axis=-1)
+
+
+def _ldexp_complex(z: np.ndarray, p: np.ndarray | int) -> np.ndarray:
+    """z · 2^p for complex z and integer p, exact unless the result over/underflows."""
+    out = np.empty(np.broadcast_shapes(np.shape(z), np.shape(p)), dtype=complex)
+    out.real = np.ldexp(z.real, p)
+    out.imag = np.ldexp(z.imag, p)
+    return out
+
+
 def _nan_where(bad: np.ndarray, d: np.ndarray, dd: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """D and dD with NaN where ``bad`` (non-finite or invalid inputs)."""
     if np.any(bad):
@@ -321,6 +351,10 @@ class Dispersion:
         self.model = _canonical_model(model)
         self.omega_ref = float(omega_ref)
         self.harmonic_tol = float(harmonic_tol)
+        #: Electromagnetic models: D and dD/dω are returned times 2^(−log2_offset), a
+        #: constant (so the zeros and dD/dω / D are those of D), chosen by a caller whose
+        #: region of ω has |D| beyond double precision (see :meth:`log2_magnitude`).
+        self.log2_offset = 0
         self.electromagnetic = self.model == "electromagnetic"
         self.magnetized = plasma.magnetized
         self._builder = builder_for_plasma(
@@ -431,8 +465,38 @@ class Dispersion:
         return total, dtotal
 
     def _d_em(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """D = det S and dD/dω = Σ C_ij dS_ij/dω (C: cofactors of S), any finite ω."""
-        return _det_and_derivative(*self._scaled(omega))
+        """D = det S and dD/dω = Σ C_ij dS_ij/dω (C: cofactors of S), any finite ω.
+
+        With :attr:`log2_offset` ≠ 0 both are multiplied by 2^(−log2_offset), formed from
+        row-scaled S (:func:`_scaled_det_and_derivative`) so that det S itself never has
+        to fit in double precision.
+        """
+        if self.log2_offset == 0:
+            return _det_and_derivative(*self._scaled(omega))
+        d, dd, p = _scaled_det_and_derivative(*self._scaled(omega))
+        shift = p - self.log2_offset
+        return _ldexp_complex(d, shift), _ldexp_complex(dd, shift)
+
+    def log2_magnitude(self, omega: Any) -> np.ndarray:
+        """log₂|D(ω)| without overflow (electromagnetic models; NaN where not finite).
+
+        From row-scaled S (:func:`_scaled_det_and_derivative`): finite wherever every
+        entry of S is, although |D| itself may exceed double precision (a 3×3 determinant
+        of entries near 1e230 is near 1e690).  Used to choose :attr:`log2_offset`.
+        Electrostatic models: log₂|D| of the plain value.
+        """
+        om = np.asarray(omega, dtype=complex) * 1.0
+        with np.errstate(all="ignore"):
+            if not self.electromagnetic:
+                return np.log2(np.abs(self(om)[0]))
+            out = np.empty(om.shape)
+            flat = om.ravel()
+            res = out.ravel()
+            for i in range(0, flat.size, self.block):
+                d, _, p = _scaled_det_and_derivative(*self._scaled(flat[i : i + self.block]))
+                res[i : i + self.block] = np.log2(np.abs(d)) + p
+            out[~np.isfinite(out)] = np.nan
+            return out
 
     # ------------------------------------------------------------------ public
     def __call__(self, omega: Any) -> tuple[np.ndarray, np.ndarray]:

@@ -163,6 +163,50 @@ def pair_function(case: Case) -> PairFunction | None:
     return pairs
 
 
+#: Largest log₂|D| left on a window's boundary after the constant scale of
+#: :func:`_log2_offset` (double precision reaches 2^1024; the interior of the window is
+#: bounded by its boundary, maximum modulus principle, and the rest is margin for
+#: maxima between probe points and for dD/dω).
+_LOG2_TOP = 900
+#: Probe points per edge of the window for :func:`_log2_offset`.
+_PROBES = 64
+
+
+def _offset_decades(offset: int) -> int:
+    """The power of ten of 2^offset (for messages)."""
+    return round((offset + _LOG2_TOP) * math.log10(2.0))
+
+
+def _log2_offset(f: NormalizedDispersion, box: tuple[float, float, float, float]) -> int:
+    """A constant scale 2^-N that brings D into double precision on ``box``, or 0.
+
+    log₂|D| (:meth:`~kinroots.physics.dispersion.Dispersion.log2_magnitude`, finite where
+    every entry of the tensor is) is probed on the boundary of ``box``; by the maximum
+    modulus principle (D is analytic in the box apart from the excluded points, which the
+    survey circles) its maximum over the box is on the boundary.  N puts that maximum at
+    2^_LOG2_TOP.  0 (no scale possible) when a probe is not finite (an entry itself
+    overflows) or when the boundary's values would then underflow below 2^-1000 (the
+    range of |D| on the box exceeds double precision).
+    """
+    x0, x1, y0, y1 = box
+    t = np.linspace(0.0, 1.0, _PROBES + 1)
+    z = np.concatenate((x0 + (x1 - x0) * t + 1j * y0, x1 + 1j * (y0 + (y1 - y0) * t),
+                        x1 - (x1 - x0) * t + 1j * y1, x0 + 1j * (y1 - (y1 - y0) * t)))
+    # |D| peaks sharply where a species resonates (|exp(-zeta^2)| is largest at
+    # Re zeta = 0): probe the horizontal edges at and around every resonance centre too
+    xs = [c.real + w * u for c, w in f.features(box) for u in (-2, -1, -0.5, 0, 0.5, 1, 2)]
+    xr = np.array([x for x in xs if x0 <= x <= x1])
+    z = np.concatenate((z, xr + 1j * y0, xr + 1j * y1))
+    lg = f.dispersion.log2_magnitude(z * f.dispersion.omega_ref)
+    if not np.all(np.isfinite(lg)):
+        return 0
+    hi, lo = float(np.max(lg)), float(np.min(lg))
+    offset = math.ceil(hi) - _LOG2_TOP
+    if offset <= 0 or lo - offset < -1000:
+        return 0
+    return offset
+
+
 def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | None = None
            ) -> SurveyResult:
     """Every root of D in the window (or ``box``) at normalized ``k``."""
@@ -173,8 +217,21 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     # pole.
     dr, di = 0.05 * (b[1] - b[0]), 0.05 * (b[3] - b[2])
     wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
-    res = find_roots(f, b, excluded=f.excluded(wide), rtol=case.solver.tolerance,
-                     features=f.features(wide))
+    excluded, features = f.excluded(wide), f.features(wide)
+    res = find_roots(f, b, excluded=excluded, rtol=case.solver.tolerance, features=features)
+    if any("is not finite" in n for n in res.notes):
+        offset = _log2_offset(f, b)
+        if offset:
+            # |D| exceeds double precision on the window but fits after a constant
+            # scale 2^-offset (same zeros, same f'/f): survey that scaled D instead.
+            f.dispersion.log2_offset = offset
+            res = find_roots(f, b, excluded=excluded, rtol=case.solver.tolerance,
+                             features=features)
+            top = _offset_decades(offset)
+            res.notes.append(
+                f"|D| exceeds double precision on this window (up to about 1e{top}): D was "
+                f"surveyed as D/2^{offset} (same roots; residuals are of D/2^{offset})"
+            )
     if any("is not finite" in n for n in res.notes):
         res.notes.append(
             "D overflows there: a Landau term exp(-zeta^2) exceeds double precision where "
