@@ -100,6 +100,8 @@ def test_weibel_case_grows_only_below_the_cutoff(tmp_path):
     ks = [float(r["k"]) for r in rows if float(r["omega_imag"]) > 0]
     assert max(ks) < math.sqrt(3.0) < max(ks) + 0.15
     assert all(abs(float(r["omega_real"])) < 1e-8 for r in rows)  # purely growing
+    # named by the rule of rows.wave_name: ω_r is rounding noise everywhere, δE ⊥ k, linear
+    assert {r["wave_name"] for r in rows} == {"purely growing, transverse, linear"}
     assert summary["fastest_growing"]["omega_imag"] > 0.01
 
 

@@ -180,6 +180,30 @@ def test_pieces_of_one_wave_across_a_gap_are_linked():
     assert wave_name(case, [r for r in rows if r["branch"] == 1]) == "right-hand"
 
 
+def test_wave_names_of_linear_and_purely_growing_transverse_modes():
+    # Rule in rows.wave_name (README, Output): a transverse (electrostatic fraction < 0.1)
+    # wave that does not rotate is "transverse, linear"; Re ω below resolution on every
+    # row makes it "purely growing" (Weibel, filamentation) or "purely damped".
+    from types import SimpleNamespace
+
+    from kinroots.study.rows import wave_name
+
+    em = SimpleNamespace(model="electromagnetic")
+    lin = [_row(0, k, complex(1.0 + k, -0.01), hand=None) for k in (0.1, 0.2)]
+    assert wave_name(em, lin) == "transverse, linear"
+    grow = [dict(_row(0, k, complex(1e-30, 0.01 * k), hand=None), below_resolution="real")
+            for k in (0.1, 0.2, 0.3)]
+    assert wave_name(em, grow) == "purely growing, transverse, linear"
+    damp = [dict(r, omega_imag=-r["omega_imag"], magnetic_compressibility=0.9) for r in grow]
+    assert wave_name(em, damp) == "purely damped, compressive"
+    mixed = grow[:2] + [dict(grow[2], below_resolution="")]
+    assert wave_name(em, mixed) == "transverse, linear"
+    es = SimpleNamespace(model="electrostatic")
+    assert wave_name(es, lin) == "electrostatic"
+    half = [dict(r, electrostatic_fraction=0.5) for r in lin]
+    assert wave_name(em, half) == "unidentified"
+
+
 @pytest.mark.slow
 def test_the_left_hand_wave_of_the_space_case_is_one_wave():
     # Issue 18: in cases/space_protons_alphas.toml the left-hand wave is branch 0 for

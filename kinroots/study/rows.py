@@ -170,9 +170,22 @@ def wave_name(case: Case, rows: list[dict[str, Any]]) -> str:
     electromagnetic, "left-hand" or "right-hand" where the handedness is below −0.5 or
     above 0.5 (sense of rotation of the transverse field about B, or about z when
     B = 0), else "compressive" where |δB_z|/|δB| > 0.5, else "quasi-electrostatic"
-    where the electrostatic fraction exceeds 0.9, else "unidentified".
+    where the electrostatic fraction exceeds 0.9, else "transverse, linear" where it is
+    below 0.1 (δE across k, not rotating: |handedness| < 0.5 or undefined), else
+    "unidentified".  When Re ω is rounding noise on every row (``below_resolution``) the
+    name starts with "purely growing" or "purely damped" (sign of the median γ), e.g.
+    "purely growing, transverse, linear" for a Weibel or filamentation mode.
     """
     good = [r for r in rows if r.get("converged")]
+    name = _identity_name(case, good)
+    if good and all("real" in str(r.get("below_resolution") or "").split() for r in good):
+        gamma = _median([r.get("omega_imag") for r in good])
+        if gamma is not None and gamma != 0:
+            return f"purely {'growing' if gamma > 0 else 'damped'}, {name}"
+    return name
+
+
+def _identity_name(case: Case, good: list[dict[str, Any]]) -> str:
     if case.model != "electromagnetic":
         return "electrostatic"
     hand = _median([r.get("handedness") for r in good])
@@ -186,6 +199,8 @@ def wave_name(case: Case, rows: list[dict[str, Any]]) -> str:
         return "compressive"
     if esf is not None and esf > 0.9:
         return "quasi-electrostatic"
+    if esf is not None and esf < 0.1:
+        return "transverse, linear"
     return "unidentified"
 
 
