@@ -6,6 +6,7 @@ import csv
 import json
 from pathlib import Path
 
+import pytest
 from typer.testing import CliRunner
 
 from kinroots.cli import app
@@ -28,6 +29,11 @@ def test_launch_writes_table_summary_and_plot(tmp_path):
     assert {"wavelength_m", "damping_length_cm", "handedness", "density_abs_Ar+"} <= set(rows[0])
     meta = json.loads((tmp_path / "launch.json").read_text())
     assert meta["failed_points"] == 0 and meta["k_box"] == [0.04, 2.0, -0.002, 0.012]
+    # every frequency counted (issue 18.2), at the driving frequencies of the table
+    assert meta["unverified_points"] == 0
+    assert [c["freq_hz"] for c in meta["point_checks"]] == pytest.approx(
+        [float(r["freq_hz"]) for r in rows], rel=1e-12)
+    assert all(c["count"] == c["rows"] for c in meta["point_checks"])
     assert (tmp_path / "launch.png").read_bytes()[:4] == b"\x89PNG"
     assert not list(tmp_path.glob(".*.tmp"))
 

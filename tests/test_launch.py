@@ -11,7 +11,7 @@ from kinroots.io.case import load_case, parse_case
 from kinroots.io.tables import rows_to_csv
 from kinroots.roots import RootResult, Status, polish
 from kinroots.study import launch
-from kinroots.study.problem import SpatialFunction, function_at
+from kinroots.study.problem import SpatialFunction, function_at, spatial_roots
 
 CASE = "cases/lab_launched_ion_acoustic.toml"
 
@@ -87,3 +87,28 @@ def test_failed_point_has_empty_cells():
     for col in ("k_real", "wavelength_m", "damping_length_m", "e_z_re", "density_abs_e"):
         assert cells[col] == ""
     assert np.isfinite(row["freq_hz"])
+
+
+def test_every_frequency_is_counted_and_rows_agree_with_an_independent_survey():
+    """Issue 18.1/18.2 for launch: at every frequency the zero count of the k box equals
+    the rows (each row verified by that rule), no k appears twice at one frequency, and an
+    independent survey of the box (argument principle plus polishing) finds as many roots
+    at the first, middle and last frequency."""
+    case = load_case(CASE)
+    res = launch.launch(case)
+    assert len(res.point_checks) == len(case.launch.frequencies_hz)
+    assert res.unverified_points == 0
+    rows = launch.launch_rows(res)
+    assert all(r["verified"] for r in rows)
+    by_w: dict[float, list[complex]] = {}
+    for r in rows:
+        by_w.setdefault(r["omega"], []).append(complex(r["k_real"], r["k_imag"]))
+    for c in res.point_checks:
+        ks = by_w.get(c.param, [])
+        assert c.count == c.rows == len(ks)
+        for i, a in enumerate(ks):
+            assert all(abs(a - b) > 1e-6 * abs(a) for b in ks[i + 1:])
+    ws = sorted(by_w)
+    for w in (ws[0], ws[len(ws) // 2], ws[-1]):
+        s = spatial_roots(case, w, res.box)
+        assert s.complete and len(s.values) == len(by_w[w])

@@ -104,6 +104,12 @@ def launch_command(
                       "note": b.note} for b in res.branches],
         "surveys": [{"freq_hz": f, "count": s.count, "found": len(s.values),
                      "complete": s.complete} for f, s in res.surveys],
+        "point_checks": [
+            {"freq_hz": float(c.param * loaded.units.omega_unit / (2.0 * math.pi)),
+             "count": c.count, "rows": c.rows, "verified": c.verified, "reason": c.reason}
+            for c in res.point_checks
+        ],
+        "unverified_points": res.unverified_points,
         "failed_points": res.failed_points,
         "interrupted": res.interrupted,
         "notes": res.notes,
@@ -135,11 +141,12 @@ def launch_command(
         console.print("interrupted: the tables hold the frequencies done before Ctrl-C "
                       "(launch.json: interrupted = true)", style="red")
         raise typer.Exit(EXIT_INTERRUPTED)
-    if res.failed_points:
-        where = ("flagged in the table (converged = false)" if rows else "no wave was found "
-                 "at any frequency, so launch.csv holds only its header; launch.json and the "
-                 "notes above say why")
-        console.print(f"{res.failed_points} point(s) failed: {where}", style="red")
+    if res.failed_points or res.unverified_points:
+        where = ("flagged in the table (converged = false) and in launch.json (point_checks)"
+                 if rows else "no wave was found at any frequency, so launch.csv holds only "
+                 "its header; launch.json and the notes above say why")
+        console.print(f"{res.failed_points} point(s) failed, {res.unverified_points} of {n} "
+                      f"frequencies not verified by a zero count: {where}", style="red")
         raise typer.Exit(1)
 
 

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -35,7 +35,7 @@ from kinroots.study.rows import (
     relative_residual,
     with_note,
 )
-from kinroots.study.solve import INTERRUPTED, TracedBranch, follow_branches
+from kinroots.study.solve import INTERRUPTED, PointCheck, TracedBranch, follow_branches
 
 __all__ = [
     "LAUNCH_COLUMNS",
@@ -83,6 +83,14 @@ class LaunchResult:
     branches: list[LaunchedBranch]
     surveys: list[tuple[float, SurveyResult]]
     notes: list[str]
+    #: The zero count of the k box at each frequency against the rows there (``param``
+    #: is the normalized ω; :class:`kinroots.study.solve.PointCheck`).
+    point_checks: list[PointCheck] = field(default_factory=list)
+
+    @property
+    def unverified_points(self) -> int:
+        """Frequencies whose zero count could not be taken or did not match the rows."""
+        return sum(1 for c in self.point_checks if not c.verified)
 
     @property
     def interrupted(self) -> bool:
@@ -134,7 +142,7 @@ def launch(
         box = (*spec.k_real, *spec.k_imag) if spec is not None else (0.01, 2.0, -0.01, 0.5)
     freqs = np.asarray(frequencies_hz, dtype=float)
     om = [float(2.0 * math.pi * f / case.units.omega_unit) for f in freqs]
-    branches, surveys_w, _, notes, _ = follow_branches(
+    branches, surveys_w, _, notes, checks = follow_branches(
         lambda w: SpatialFunction(case, w),
         om,
         box,
@@ -148,7 +156,7 @@ def launch(
     to_hz = {w: float(f) for w, f in zip(om, freqs, strict=True)}
     surveys = [(to_hz[w], s) for w, s in surveys_w]
     return LaunchResult(case=case, frequencies_hz=freqs, box=box, branches=branches,
-                        surveys=surveys, notes=notes)
+                        surveys=surveys, notes=notes, point_checks=checks)
 
 
 def launch_columns(case: Case) -> tuple[str, ...]:
@@ -157,11 +165,13 @@ def launch_columns(case: Case) -> tuple[str, ...]:
 
 
 def launch_row(case: Case, branch: int, omega: float, r: RootResult,
-               freq_hz: float | None = None) -> dict[str, Any]:
+               freq_hz: float | None = None, verified: bool | None = None) -> dict[str, Any]:
     """One row of ``launch.csv`` (normalized ω, RootResult holding normalized complex k).
 
     ``freq_hz`` is the driving frequency as the case gave it (written as is: 5e5, not the
     499999.9999999999 of converting ω back); by default it is computed from ``omega``.
+    ``verified`` is the rule of ``solve``'s tables (the zero count of the k box at this
+    frequency equals the rows there); by default the root's own flag.
     """
     units = case.units
     w_si = float(units.omega_to_si(omega))
@@ -172,7 +182,7 @@ def launch_row(case: Case, branch: int, omega: float, r: RootResult,
         "residual": float(r.residual),
         "relative_error": relative_error(r),
         "converged": bool(r.converged),
-        "verified": bool(r.verified),
+        "verified": bool(r.verified if verified is None else verified),
         "multiplicity": int(r.multiplicity),
         "iterations": int(r.iterations),
         "evaluations": int(r.evaluations),
@@ -216,5 +226,5 @@ def launch_rows(res: LaunchResult) -> list[dict[str, Any]]:
     """Rows of ``launch.csv``, branch by branch, frequency increasing."""
     to_hz = {float(2.0 * math.pi * f / res.case.units.omega_unit): float(f)
              for f in res.frequencies_hz}
-    return [launch_row(res.case, b.id, w, r, to_hz.get(w))
+    return [launch_row(res.case, b.id, w, r, to_hz.get(w), verified=w in b.verified_at)
             for b in res.branches for w, r in sorted(b.points.items())]
