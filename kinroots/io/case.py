@@ -42,6 +42,10 @@ from kinroots.io.limits import (
 )
 from kinroots.io.species_tables import _check_species
 from kinroots.io.study_tables import check_study_tables
+from kinroots.physics.harmonic_poles import (
+    largest_relevant_harmonic,
+    relevant_harmonic_count,
+)
 from kinroots.physics.plasma import (
     AMU,
     C_LIGHT,
@@ -674,7 +678,8 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
     angles = {angle}
     for spec in (sweep_spec, threshold_spec):
         angles.update(getattr(spec, "angles", None) or ())
-    _check_harmonic_poles(plasma, units, real, angles, source)
+    _check_harmonic_poles(plasma, units, real, imag, angles, float(np.max(k_values)),
+                          solver.tolerance, source)
     k_values.setflags(write=False)
 
     return Case(
@@ -698,20 +703,51 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
 
 
 def _check_harmonic_poles(plasma: Plasma, units: Normalization, real: tuple[float, float],
-                          angles: set[float], source: str) -> None:
-    """At k∥ = 0 (angle 90°, B ≠ 0) every harmonic n Ω_s in the window is a pole the survey
-    excludes: refuse windows holding more than `MAX_WINDOW_HARMONICS` of them."""
+                          imag: tuple[float, float], angles: set[float], k_max: float,
+                          rtol: float, source: str) -> None:
+    """At k∥ = 0 (angle 90°, B ≠ 0) the cyclotron harmonics n Ω_s whose pole matters (its
+    residue bound above ``rtol``, :mod:`kinroots.physics.harmonic_poles`) are excluded by
+    the survey.  Refuse a window holding more than `MAX_WINDOW_HARMONICS` of them at the
+    largest k of the scan (the bound grows with k, so no k of the scan excludes more), or
+    whose edge passes through one (to the resolution ``rtol``).  Counted without listing
+    the harmonics: time and memory do not depend on the ion mass."""
     if not plasma.magnetized or 90.0 not in angles:
         return
-    width = (real[1] - real[0]) * units.omega_unit
+    w_u = units.omega_unit
+    k_perp = k_max / units.length_unit
+    lo, hi = real[0] * w_u, real[1] * w_u
+    total = 0
     for i, s in enumerate(plasma.species, start=1):
-        count = width / abs(s.cyclotron_frequency(plasma.B))
-        if count > MAX_WINDOW_HARMONICS:
+        count = relevant_harmonic_count(s, lo, hi, k_perp=k_perp, B=plasma.B, rtol=rtol)
+        total += count
+        if total > MAX_WINDOW_HARMONICS:
             raise CaseError([
-                f"{source}: search.real: got {list(real)!r}, which holds about {count:.3g} "
-                f"cyclotron harmonics of species[{i}] ({s.name!r}) at angle 90 degrees "
-                f"(k_par = 0, each a pole of D); expected at most {MAX_WINDOW_HARMONICS}: "
-                "narrow the window, or check that species' mass and magnetic_field.B"])
+                f"{source}: search.real: got {list(real)!r}, which holds {total} cyclotron "
+                f"harmonics at angle 90 degrees (k_par = 0) that are poles of D with a "
+                f"residue above solver.tolerance ({count} of species[{i}] {s.name!r} at "
+                f"the largest k of the scan); expected at most {MAX_WINDOW_HARMONICS}: "
+                "narrow the window, or check that species' density, temperature and mass "
+                "and magnetic_field.B"])
+        om_c = abs(s.cyclotron_frequency(plasma.B))
+        n_top = largest_relevant_harmonic(s, k_perp=k_perp, B=plasma.B, rtol=rtol)
+        if n_top == 0 or not om_c > 0:
+            continue
+        where = f"the cyclotron harmonic n = {{n}} of species[{i}] {s.name!r}"
+        if imag[0] <= 0.0 <= imag[1]:
+            for key, edge in (("search.real", real[0]), ("search.real", real[1])):
+                n = round(edge * w_u / om_c)
+                if 1 <= abs(n) <= n_top and abs(edge * w_u - n * om_c) <= rtol * abs(n) * om_c:
+                    raise CaseError([
+                        f"{source}: {key}: got {list(real)!r}, whose edge {edge!r} passes "
+                        f"through {where.format(n=n)} (n*Omega = {n * om_c / w_u!r} "
+                        "in the frequency unit), a pole of D at angle 90 degrees (k_par = 0); "
+                        "expected window edges off the excluded poles: move that edge"])
+        if 0.0 in imag and count > 0:
+            raise CaseError([
+                f"{source}: search.imag: got {list(imag)!r}, whose edge Im omega = 0 runs "
+                f"along the real axis through {count} cyclotron harmonic(s) of species[{i}] "
+                f"{s.name!r} inside search.real, poles of D at angle 90 degrees (k_par = 0); "
+                "expected an edge off the real axis (e.g. a window straddling it)"])
 
 
 def _default_unit_name(plasma: Plasma) -> str:

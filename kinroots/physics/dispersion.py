@@ -674,30 +674,51 @@ class Dispersion:
         return sorted(widths.items(), key=lambda item: item[0].real)
 
     def singular_points(
-        self, re_min: float, re_max: float, im_min: float, im_max: float
+        self, re_min: float, re_max: float, im_min: float, im_max: float, *,
+        rtol: float = 1e-10,
     ) -> list[complex]:
         """Points [rad/s] inside the closed box that the root finder must exclude.
 
         ω = 0 for electromagnetic models (a zero that the scaling may introduce); for
-        magnetized plasmas with k∥ = 0 exactly, the cyclotron harmonics n Ω_s (n ≠ 0,
-        every species), which are poles of D; the poles of the continued kappa functions
-        of integer-κ species (:func:`~kinroots.physics.models.species_models.kappa_poles`).
-        Sorted by real part, without repeats.
+        magnetized plasmas with k∥ = 0 exactly, the cyclotron harmonics n Ω_s (n ≠ 0) that
+        are poles of D above the survey's resolution; the poles of the continued kappa
+        functions of integer-κ species
+        (:func:`~kinroots.physics.models.species_models.kappa_poles`).  Sorted by real
+        part, without repeats.
+
+        Parameters
+        ----------
+        re_min, re_max, im_min, im_max : float
+            The box [rad/s].
+        rtol : float
+            The survey's relative root tolerance.  A harmonic is listed only where the
+            bound R_n on the residue of its pole (Bessel weight, density, species
+            constants) exceeds ``rtol`` · |nΩ_s| times the unit term of D
+            (:mod:`kinroots.physics.harmonic_poles`, where the rule is derived); the
+            others change D by less than the resolution except within ``rtol`` · |nΩ_s|
+            of the harmonic, and are regular points for the survey.  Heavy ions in an
+            electron-frequency window have none.  Cost and memory: one bisection per
+            species and one entry per listed harmonic, whatever the ion mass.
         """
+        from kinroots.physics.harmonic_poles import relevant_harmonics
+
         pts: set[complex] = set()
         on_axis = im_min <= 0.0 <= im_max
         if self.electromagnetic and on_axis and re_min <= 0.0 <= re_max:
             pts.add(0j)
         if self.magnetized and self.k_par == 0 and on_axis:
+            kperp = complex(self.k_perp)
             for s in self.plasma.species:
-                om_c = abs(s.cyclotron_frequency(self.plasma.B))
-                if om_c == 0:
-                    continue
-                n_lo = math.ceil(re_min / om_c)
-                n_hi = math.floor(re_max / om_c)
-                for n in range(n_lo, n_hi + 1):
-                    if n != 0:
-                        pts.add(complex(n * om_c, 0.0))
+                if kperp.imag == 0.0:
+                    found = relevant_harmonics(s, re_min, re_max, k_perp=abs(kperp.real),
+                                               B=self.plasma.B, rtol=rtol)
+                else:  # complex k⊥: no bound on |Γ_n(λ)| used; every harmonic kept
+                    om_c = abs(s.cyclotron_frequency(self.plasma.B))
+                    n_max = self.harmonics.get(s.name, 0)
+                    found = [n * om_c for n in range(max(-n_max, math.ceil(re_min / om_c)),
+                                                     min(n_max, math.floor(re_max / om_c)) + 1)
+                             if n != 0] if om_c > 0 else []
+                pts.update(complex(x, 0.0) for x in found)
         for pole in kappa_poles(self.plasma, k_par=self.k_par, k_perp=self.k_perp,
                                 electromagnetic=self.electromagnetic):
             if re_min <= pole.real <= re_max and im_min <= pole.imag <= im_max:

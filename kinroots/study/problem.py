@@ -67,10 +67,14 @@ class NormalizedDispersion:
         Normalized wavenumber.
     dispersion : Dispersion
         The SI function it wraps.
+    rtol : float
+        The survey's relative root tolerance (``solver.tolerance``): it decides which
+        cyclotron harmonics are poles to exclude at k∥ = 0 (:meth:`excluded`).
     """
 
     k: float
     dispersion: Dispersion
+    rtol: float = 1e-10
 
     def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         # Newton steps may leave the window into regions where D overflows: the
@@ -116,9 +120,13 @@ class NormalizedDispersion:
         return self(omega)[0]
 
     def excluded(self, box: tuple[float, float, float, float]) -> list[complex]:
-        """Points the survey must exclude (poles, scaling zeros), normalized."""
+        """Points the survey must exclude (poles, scaling zeros), normalized.
+
+        At k∥ = 0 only the cyclotron harmonics whose residue exceeds the resolution
+        :attr:`rtol` (:meth:`~kinroots.physics.dispersion.Dispersion.singular_points`).
+        """
         w_u = self.dispersion.omega_ref
-        pts = self.dispersion.singular_points(*(v * w_u for v in box))
+        pts = self.dispersion.singular_points(*(v * w_u for v in box), rtol=self.rtol)
         return [p / w_u for p in pts]
 
     def features(self, box: tuple[float, float, float, float]) -> list[tuple[complex, float]]:
@@ -133,7 +141,8 @@ class NormalizedDispersion:
 
 def function_at(case: Case, k: float) -> NormalizedDispersion:
     """The normalized dispersion function of ``case`` at normalized ``k``."""
-    return NormalizedDispersion(float(k), dispersion_at(case, float(k)))
+    return NormalizedDispersion(float(k), dispersion_at(case, float(k)),
+                                rtol=case.solver.tolerance)
 
 
 #: ``f(k̂, ω̂) -> (D, dD/dω̂)`` at arrays of normalized (k, ω) pairs.

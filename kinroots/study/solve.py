@@ -460,7 +460,9 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
         label=lambda k: f"k = {k!r}",
         progress=progress,
         pairs=pair_function(case),
-        excluded=function_at(case, ks[0]).excluded(box),
+        # the harmonic poles that matter grow with k (their residue bound does): the
+        # largest k's list holds every k's
+        excluded=function_at(case, float(np.max(ks))).excluded(box),
         count=count,
         should_stop=should_stop,
         features=lambda k: function_at(case, k).features(box),

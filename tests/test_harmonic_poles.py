@@ -1,0 +1,256 @@
+r"""Cyclotron-harmonic poles at k∥ = 0: only the poles that matter are excluded (issue 15.5).
+
+The rule and its derivation are in :mod:`kinroots.physics.harmonic_poles`: a harmonic nΩ_s
+is excluded when the bound R_n on its residue exceeds rtol·|nΩ_s|.  Checked here:
+
+* the closed-form bound on Γ_m(λ) = e^{−λ}I_m(λ) against scipy's ``ive`` (it must bound it,
+  decrease with m and grow with λ);
+* the bound R_n against the residue of the models' χ_s at nΩ_s, measured from χ itself
+  (ES scalar and every EM entry);
+* the electron Bernstein window of the issue (B = 0.1 T, electrons and ions at 5 eV,
+  90°, Re ω ∈ [1.05, 3.95] Ω_ce) with helium, argon and 1e9 u ions: the ion harmonics are
+  not excluded, the cost (D evaluations) stays that of the case without ions, and the
+  roots agree with an independent mpmath evaluation of the Bernstein relation with the ions
+  (Bernstein, Phys. Rev. 109, 10 (1958); Stix 1992, ch. 11, from memory);
+* bad windows: too many relevant poles, an edge through a pole (exit 2, key named).
+"""
+
+from __future__ import annotations
+
+import math
+
+import mpmath as mp
+import numpy as np
+import pytest
+from scipy.constants import e as E_CHARGE
+from scipy.constants import epsilon_0, m_e
+from scipy.special import ive
+
+from kinroots.io.case import CaseError, parse_case
+from kinroots.physics.harmonic_poles import (
+    harmonic_residue_bound,
+    largest_relevant_harmonic,
+    log_weight_bound,
+    relevant_harmonic_count,
+)
+from kinroots.physics.models import em_magnetized, es_magnetized
+from kinroots.physics.plasma import AMU, EV, M_PROTON, Species
+from kinroots.study.problem import function_at, survey
+
+B_FIELD = 0.1
+TEMPERATURE = 5.0
+DENSITY = 1e17
+ROOT_RTOL = 1e-10
+
+
+# ----------------------------------------------------------------------- the bound
+@pytest.mark.parametrize("lam", [1e-6, 0.3, 2.0, 40.0, 900.0, 3.6e4])
+def test_weight_bound_bounds_ive_and_is_monotone(lam):
+    m = np.unique(np.concatenate([np.arange(0, 60), np.geomspace(1, 40 * math.sqrt(lam) + 60,
+                                                                   80).astype(int)]))
+    exact = ive(m, lam)
+    bound = np.array([log_weight_bound(float(x), lam) for x in m])
+    live = exact > 1e-300
+    assert np.all(np.log(exact[live]) <= bound[live] + 1e-12)
+    assert np.all(np.diff(bound) <= 1e-15)  # decreasing in m
+    grown = np.array([log_weight_bound(float(x), 1.5 * lam) for x in m])
+    assert np.all(grown >= bound - 1e-15)  # growing with λ
+
+
+def _species(mass_kg: float, charge: int = 1, drift: float = 0.0, t_par: float = TEMPERATURE):
+    return Species("s", charge, mass_kg, DENSITY, t_par, TEMPERATURE, drift)
+
+
+@pytest.mark.parametrize("k_rho", [0.3, 2.0, 7.0])
+@pytest.mark.parametrize("n", [1, 2, 5, 12])
+def test_residue_bound_holds_for_the_models(k_rho, n):
+    """|Res χ_ij| at nΩ, measured from χ near the pole, never exceeds R_n (ES scalar and
+    the nine EM entries; a drifting, anisotropic species).  With r(δ) = δ[χ(nΩ+δ) −
+    χ(nΩ−δ)]/2 = R + cδ² + O(δ⁴), Richardson's (4r(δ) − r(2δ))/3 removes the δ² term; what
+    is left of the regular part (and rounding) is below 1e-9 of |δχ(nΩ+δ)|."""
+    sp = _species(M_PROTON, drift=2e4, t_par=2.0 * TEMPERATURE)
+    om_c = sp.cyclotron_frequency(B_FIELD)
+    k_perp = k_rho / (sp.thermal_speed_perp / om_c)
+    bound = math.exp(harmonic_residue_bound(sp, n, k_perp=k_perp, B=B_FIELD)) * n * om_c
+    delta = 1e-3 * om_c
+    om = n * om_c + np.array([delta, -delta, 2 * delta, -2 * delta], dtype=complex)
+    for model in (es_magnetized, em_magnetized):
+        chi = model.susceptibility(om, sp, k_par=0.0, k_perp=k_perp, B=B_FIELD).value
+        r1 = delta * (chi[0] - chi[1]) / 2
+        r2 = 2 * delta * (chi[2] - chi[3]) / 2
+        res = np.abs((4 * r1 - r2) / 3)
+        floor = 1e-9 * np.abs(delta * chi[0]).max()
+        assert np.all(res <= bound + floor), (model.__name__, res.max(), bound, floor)
+    if n <= 2:  # the bound is not vacuous: there the ES residue is measurable and within
+        # the bound's slack ((|n| + 2λ + 1) c_s λ/|n| at most, about 1e5 at k ρ = 7)
+        chi = es_magnetized.susceptibility(om, sp, k_par=0.0, k_perp=k_perp, B=B_FIELD).value
+        r1 = delta * (chi[0] - chi[1]) / 2
+        r2 = 2 * delta * (chi[2] - chi[3]) / 2
+        assert abs((4 * r1 - r2) / 3) > 1e-6 * bound
+
+
+# ------------------------------------------------------- the electron Bernstein case
+ION_MASSES = {"helium": 4.002602, "argon": 39.948, "1e9 u": 1e9}
+
+
+def ebw_case(ion_mass_u: float | None, k: float = 1.0):
+    species = [{"name": "e", "charge": -1, "mass": "electron", "density": DENSITY,
+                "temperature": TEMPERATURE}]
+    if ion_mass_u is not None:
+        species.append({"name": "i", "charge": 1, "mass": ion_mass_u, "density": DENSITY,
+                        "temperature": TEMPERATURE})
+    return parse_case({
+        "title": "electron Bernstein waves with ions",
+        "magnetic_field": {"B": B_FIELD},
+        "species": species,
+        "wave": {"model": "electrostatic", "angle": 90.0},
+        "scan": {"k": k},
+        "units": {"frequency": "cyclotron:e", "length": "gyroradius:e"},
+        "search": {"real": [1.05, 3.95], "imag": [-0.05, 0.05]},
+        "solver": {"tolerance": ROOT_RTOL},
+    }, "<test_harmonic_poles>")
+
+
+@pytest.mark.parametrize("ion", ["helium", "argon", "1e9 u"])
+def test_ion_harmonics_in_an_electron_window_are_not_poles(ion):
+    case = ebw_case(ION_MASSES[ion])
+    f = function_at(case, 1.0)
+    # the electron harmonics 2 and 3 are the only poles; the ion harmonics (1e4 to 1e13
+    # of them in the window) all have residues that underflow
+    assert f.excluded((1.05, 3.95, -0.05, 0.05)) == pytest.approx([2.0, 3.0], rel=1e-14)
+    ion_sp = case.plasma.species[1]
+    k_perp = 1.0 / case.units.length_unit
+    lo, hi = 1.05 * case.units.omega_unit, 3.95 * case.units.omega_unit
+    assert relevant_harmonic_count(ion_sp, lo, hi, k_perp=k_perp, B=B_FIELD,
+                                   rtol=ROOT_RTOL) == 0
+    # ... while near the ion's own frequencies its harmonics still count
+    assert largest_relevant_harmonic(ion_sp, k_perp=k_perp, B=B_FIELD, rtol=ROOT_RTOL) > 10
+
+
+def _gamma_table(lam: mp.mpf, n_max: int) -> list[mp.mpf]:
+    """Γ_n = e^{−λ}I_n(λ), n = 0 … n_max, by Miller's downward recurrence
+    I_{n−1} = I_{n+1} + (2n/λ)I_n (A&S 9.6.26) normalized by Σ_n I_n = e^λ (A&S 9.6.33 at
+    t = 1), in mpmath; spot-checked against mpmath's besseli."""
+    start = n_max + 40 + int(12 * mp.sqrt(lam))
+    i_next, i_cur = mp.mpf(0), mp.mpf(10) ** -300
+    table = [mp.mpf(0)] * (start + 1)
+    table[start] = i_cur
+    for n in range(start, 0, -1):
+        i_prev = i_next + (2 * n / lam) * i_cur
+        i_next, i_cur = i_cur, i_prev
+        table[n - 1] = i_cur
+    total = table[0] + 2 * mp.fsum(table[1:])
+    gam = [t / total for t in table[: n_max + 1]]
+    probe = min(n_max, 7)
+    assert abs(gam[probe] / (mp.exp(-lam) * mp.besseli(probe, lam)) - 1) < mp.mpf(10) ** -20
+    return gam
+
+
+def reference_roots(case, k_norm: float) -> list[float]:
+    """Real roots in [1.05, 3.95] of 1 + Σ_s (1/(k²λ_Ds²))[1 − Γ_0 − Σ_{n≥1}
+    2x²Γ_n/(x² − n²x_s²)] (x = ω/|Ω_e|, x_s = |Ω_s|/|Ω_e|; Bernstein 1958), species whose
+    Γ_n sum needs more than 20000 terms left out (their λ > 1e6; checked negligible
+    separately), at 30 digits."""
+    units = case.units
+    terms = []
+    with mp.workdps(30):
+        k = mp.mpf(k_norm) / mp.mpf(units.length_unit)
+        for s in case.plasma.species:
+            om_c = mp.mpf(abs(s.cyclotron_frequency(B_FIELD)))
+            t = mp.mpf(s.temperature_perp) * mp.mpf(EV)
+            lam = k**2 * t / (mp.mpf(s.mass) * om_c**2)
+            if lam > 1e6:
+                continue
+            n_max = int(20 + 12 * mp.sqrt(lam) + 2 * lam ** mp.mpf(0.25))
+            gam = _gamma_table(lam, n_max)
+            q2 = mp.mpf(E_CHARGE) ** 2
+            inv_kld2 = mp.mpf(s.density) * q2 / (mp.mpf(epsilon_0) * k**2 * t)
+            terms.append((inv_kld2, om_c / mp.mpf(units.omega_unit), gam))
+
+        def f(x):
+            total = mp.mpf(1)
+            for inv, xs, gam in terms:
+                acc = 1 - gam[0]
+                x2 = x * x
+                acc -= mp.fsum(2 * x2 * g / (x2 - (n * xs) ** 2)
+                               for n, g in enumerate(gam) if n)
+                total += inv * acc
+            return total
+
+        grid = [mp.mpf(v) for v in np.linspace(1.05, 3.95, 60)]
+        # bracket away from the electron harmonics 2 and 3 (poles), sign changes only
+        grid += [mp.mpf(h) + d for h in (2, 3) for d in (-1e-9, 1e-9)]
+        grid.sort()
+        vals = [f(x) for x in grid]
+        out = []
+        for a, b, fa, fb in zip(grid, grid[1:], vals, vals[1:], strict=False):
+            if mp.sign(fa) != mp.sign(fb) and not any(a < h < b for h in (2, 3)):
+                out.append(float(mp.findroot(f, (a, b), solver="anderson")))
+    return out
+
+
+@pytest.mark.parametrize("ion", ["helium", "argon"])
+def test_bernstein_roots_with_light_ions_match_mpmath(ion):
+    """Same cost as without ions (D evaluations within 3x), roots equal to the mpmath
+    Bernstein relation with the ions in it (the ions shift them by about m_e/m_i, so the
+    comparison is with the ions, not with the electrons alone)."""
+    k = 1.0
+    bare = survey(ebw_case(None), k)
+    with_ions = survey(ebw_case(ION_MASSES[ion]), k)
+    assert bare.complete and with_ions.complete, with_ions.notes
+    assert with_ions.evaluations <= 3 * bare.evaluations
+    got = sorted(z.real for z in with_ions.values)
+    ref = reference_roots(ebw_case(ION_MASSES[ion]), k)
+    assert len(got) == len(ref) == 3
+    assert np.allclose(got, ref, rtol=10 * ROOT_RTOL, atol=0)
+    assert max(abs(z.imag) for z in with_ions.values) < 10 * ROOT_RTOL * 4
+    # the ion shift is of the cold-ion size ω_pi²/ω² ~ m_e/m_i relative, far above the
+    # tolerance: a survey that dropped the ions would fail the comparison above
+    bare_roots = sorted(z.real for z in bare.values)
+    shift = max(abs(a / b - 1) for a, b in zip(got, bare_roots, strict=True))
+    ratio = m_e / (ION_MASSES[ion] * AMU)
+    assert 0.01 * ratio < shift < 10 * ratio
+
+
+# ------------------------------------------------------------------- bad windows
+def _ibw_data(real, imag, k_stop=4.0):
+    return {
+        "title": "ion Bernstein",
+        "magnetic_field": {"B": 0.5},
+        "species": [
+            {"name": "e", "charge": -1, "mass": "electron", "density": 1e18, "temperature": 5.0},
+            {"name": "H+", "charge": 1, "mass": "proton", "density": 1e18, "temperature": 5.0},
+        ],
+        "wave": {"model": "electrostatic", "angle": 90.0},
+        "scan": {"k": {"start": 0.1, "stop": k_stop, "points": 4}},
+        "units": {"frequency": "cyclotron:H+", "length": "gyroradius:H+"},
+        "search": {"real": real, "imag": imag},
+    }
+
+
+@pytest.mark.parametrize("real, imag, key", [
+    ([1.0, 2.98], [-0.05, 0.05], "search.real"),   # left edge on Ω_p
+    ([1.02, 3.0], [-0.05, 0.05], "search.real"),   # right edge on 3Ω_p
+    ([1.02, 2.98], [0.0, 0.05], "search.imag"),    # bottom edge along the axis through 2Ω_p
+    ([1.02, 2.98], [-0.05, 0.0], "search.imag"),   # top edge likewise
+])
+def test_window_edge_through_an_excluded_pole_is_refused(real, imag, key):
+    with pytest.raises(CaseError) as err:
+        parse_case(_ibw_data(real, imag), "ibw.toml")
+    text = str(err.value)
+    assert key in text and "pole" in text, text
+
+
+def test_window_edge_off_the_poles_is_accepted():
+    parse_case(_ibw_data([1.02, 2.98], [-0.05, 0.05]), "ibw.toml")
+    # Im = 0 is fine when no relevant harmonic is inside
+    parse_case(_ibw_data([1.02, 1.98], [0.0, 0.05]), "ibw.toml")
+
+
+def test_too_many_relevant_poles_is_refused_and_ion_harmonics_of_no_weight_are_not():
+    # k ρ_p up to 500: λ ~ 1.2e5, about 3000 proton harmonics carry weight
+    with pytest.raises(CaseError) as err:
+        parse_case(_ibw_data([0.5, 4000.5], [-0.05, 0.05], k_stop=500.0), "ibw.toml")
+    assert "search.real" in str(err.value) and "residue" in str(err.value)
+    # the same number of harmonics at small k ρ_p: only the first few matter
+    parse_case(_ibw_data([0.5, 4000.5], [-0.05, 0.05], k_stop=4.0), "ibw.toml")
