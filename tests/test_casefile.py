@@ -144,7 +144,8 @@ ERROR_CASES: list[tuple[str, dict[str, Any], tuple[str, ...]]] = [
     ("missing title", {"title": ...}, ("title", "missing")),
     ("missing model", {"wave__model": ...}, ("wave.model", "missing")),
     ("missing density", {"species__1__density": ...}, ("species[2].density", "missing")),
-    ("missing search", {"search": ...}, ("search", "missing")),
+    # [search] is optional (a window is chosen from the plasma), but an empty window is not
+    ("empty window", {"search__imag": [0.1, 0.1]}, ("search.imag", "[0.1, 0.1]", "min < max")),
     (
         "unknown key",
         {"species__0__temprature": 3.0},

@@ -381,3 +381,21 @@ def table_units(case: Any, columns: Sequence[str],
     u = case.units
     return column_units(columns, frequency=u.frequency_label_ascii,
                         length=u.length_label_ascii, parameters=parameters)
+
+
+def announce_window(case: Case, console: Console) -> None:
+    """Choose the search window now when the case gives none, and say which it is.
+
+    The choice (:func:`kinroots.study.problem.window_choice`) surveys a few probe k; it
+    is cached on the case, so the run that follows uses the same window.
+    """
+    if case.search_real is not None and case.search_imag is not None:
+        return
+    from kinroots.study.problem import window_choice
+
+    with console.status("choosing the search window from the plasma"):
+        c = window_choice(case)
+    console.print(
+        f"search window chosen from the plasma: Re omega {list(c.real)}, Im omega "
+        f"{list(c.imag)} ({c.evaluations} evaluations; summary.json search_window). "
+        f"Rule: {c.rule}", soft_wrap=True)

@@ -21,6 +21,7 @@ from kinroots.cli._common import (
     FigureFormat,
     FigureFormatOpt,
     NoPlotOpt,
+    announce_window,
     check_output_dir,
     figure_path,
     info,
@@ -64,6 +65,7 @@ def _prepare(case: Path | None, default: bool, output: Path, table: str) -> Case
             _err(f"error: {e}")
         raise typer.Exit(EXIT_BAD_INPUT)
     check_output_dir(output)
+    announce_window(loaded, stderr_console())
     return loaded
 
 

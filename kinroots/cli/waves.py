@@ -18,6 +18,7 @@ from kinroots.cli._common import (
     FigureFormatOpt,
     NoPlotOpt,
     OutOpt,
+    announce_window,
     check_output_dir,
     err,
     figure_path,
@@ -84,6 +85,7 @@ def solve(
     check_output_dir(output)
     console = stderr_console()
     results = stdout_console()  # results on stdout, diagnostics on stderr
+    announce_window(loaded, console)
     with CtrlC() as stop, Progress(
         TextColumn("[bold]tracing[/bold] {task.description}"), BarColumn(),
         TextColumn("{task.completed}/{task.total} k"), TimeElapsedColumn(),
@@ -169,6 +171,7 @@ def roots(
     check_output_dir(output)
     console = stderr_console()
     results = stdout_console()  # results on stdout, diagnostics on stderr
+    announce_window(loaded, console)
     with console.status(f"surveying the window at k = {at:g}"):
         s = survey(loaded, at)
     rows = survey_rows(loaded, at, s)

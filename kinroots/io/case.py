@@ -90,8 +90,6 @@ REQUIRED: tuple[str, ...] = (
     "species[].components[].weight  (when components are given)",
     "wave.model",
     "scan.k  (a table {start, stop, points}, one number, or an increasing array)",
-    "search.real",
-    "search.imag",
 )
 
 #: Optional keys and their defaults: the one place where defaults are decided.
@@ -225,8 +223,10 @@ class Case:
     k_values: np.ndarray
     scan: ScanSpec
     units: Normalization
-    search_real: tuple[float, float]
-    search_imag: tuple[float, float]
+    #: ``[search]`` window edges; ``None`` where the case leaves them to kinroots (see
+    #: :func:`kinroots.study.problem.window`, which every computation uses).
+    search_real: tuple[float, float] | None
+    search_imag: tuple[float, float] | None
     solver: SolverOptions
     source: Path | None
     raw: dict[str, Any] = field(repr=False)
@@ -258,8 +258,8 @@ class Case:
             f"{self.angle_deg:g} deg",
             f"  units: omega in {u.frequency_label_ascii} = {u.omega_unit:.6g} rad/s, "
             f"k in 1/{u.length_label_ascii} ({u.length_unit:.6g} m)",
-            f"  scan: {scan}; window Re omega {list(self.search_real)}, "
-            f"Im omega {list(self.search_imag)}",
+            f"  scan: {scan}; window Re omega {_edges(self.search_real)}, "
+            f"Im omega {_edges(self.search_imag)}",
         ]
 
     def __repr__(self) -> str:
@@ -271,6 +271,10 @@ class Case:
         head, *rest = self._summary_lines()
         items = "".join(f"<li>{html.escape(line.strip())}</li>" for line in rest)
         return f"<b>{html.escape(head)}</b><ul>{items}</ul>"
+
+
+def _edges(edges: tuple[float, float] | None) -> str:
+    return str(list(edges)) if edges is not None else "chosen from the plasma when solved"
 
 
 # --------------------------------------------------------------------------------------
@@ -382,8 +386,9 @@ def case_from_dict(mapping: Mapping[str, Any], *, source: str = "case") -> Case:
         {...}, "scan": {"k": ...}, "search": {...}}``).  ``title`` is optional (default
         :data:`UNTITLED`).  ``scan.k`` may be a ``{start, stop, points}`` table, one
         number or an increasing array.  numpy scalars and arrays are accepted wherever a
-        number or an array is (see :func:`plain_data`).  ``search`` has no default: where
-        to look for roots is the user's question.
+        number or an array is (see :func:`plain_data`).  Without ``search`` (or one of
+        its keys) the window is chosen from the plasma when the case is solved
+        (:func:`kinroots.study.problem.window_choice`).
     source : str
         Name used in error messages.
 
@@ -435,7 +440,7 @@ def _species_table(s: Species) -> dict[str, Any]:
 def case_from_plasma(
     plasma: Plasma,
     *,
-    search: Mapping[str, Any],
+    search: Mapping[str, Any] | None = None,
     k: Any = None,
     model: str = "electrostatic",
     angle: float = 0.0,
@@ -449,8 +454,9 @@ def case_from_plasma(
     ----------
     plasma : Plasma
         Species (SI, temperatures in eV) and B [T].
-    search : mapping
-        ``{"real": [min, max], "imag": [min, max]}``: the window in normalized ω.
+    search : mapping, optional
+        ``{"real": [min, max], "imag": [min, max]}``: the window in normalized ω; without
+        it (or a key of it) the window is chosen from the plasma when the case is solved.
     k : float, array or mapping, optional
         ``scan.k``: one number, an increasing array or ``{start, stop, points}``
         (normalized).  Without it the scan is the single value k = 1; ``roots`` and
@@ -478,8 +484,9 @@ def case_from_plasma(
         "species": [_species_table(s) for s in plasma.species],
         "wave": {"model": model, "angle": angle},
         "scan": {"k": 1.0 if k is None else k},
-        "search": dict(search),
     }
+    if search is not None:
+        data["search"] = dict(search)
     if units is not None:
         data["units"] = dict(units)
     if solver is not None:
@@ -575,11 +582,13 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
 
     scan = _check_scan(chk, data)
 
-    search = chk.table(data, "search", "search", required=True) or {}
+    # [search] is optional: a missing search.real or search.imag is chosen from the plasma
+    # when the case is solved (kinroots.study.problem.window_choice)
+    search = chk.table(data, "search", "search", required=False) or {}
     chk.unknown_keys(search, _TABLE_KEYS["search"], "search")
     wlim = LIMITS["search"]
-    real = chk.window(search, "real", "search.real", wlim) if "search" in data else None
-    imag = chk.window(search, "imag", "search.imag", wlim) if "search" in data else None
+    real = chk.window(search, "real", "search.real", wlim) if "real" in search else None
+    imag = chk.window(search, "imag", "search.imag", wlim) if "imag" in search else None
 
     solver = _check_solver(chk, data)
     launch = _check_launch(chk, data)
@@ -664,7 +673,7 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
         raise CaseError(chk.errors)
 
     assert B is not None and model is not None and angle is not None
-    assert scan is not None and real is not None and imag is not None
+    assert scan is not None
     scan_spec, k_values = scan
     plasma = Plasma(tuple(s for s in species if s is not None), B)
     default_name = _default_unit_name(plasma)
@@ -678,8 +687,9 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
     angles = {angle}
     for spec in (sweep_spec, threshold_spec):
         angles.update(getattr(spec, "angles", None) or ())
-    _check_harmonic_poles(plasma, units, real, imag, angles, float(np.max(k_values)),
-                          solver.tolerance, source)
+    if real is not None and imag is not None:  # a chosen window avoids the poles itself
+        _check_harmonic_poles(plasma, units, real, imag, angles, float(np.max(k_values)),
+                              solver.tolerance, source)
     k_values.setflags(write=False)
 
     return Case(

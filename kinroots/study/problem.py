@@ -12,8 +12,10 @@ boundary at every k) is documented in :mod:`kinroots.study.solve` and DEVELOPERS
 from __future__ import annotations
 
 import math
+import weakref
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
 
@@ -25,6 +27,7 @@ from kinroots.physics.dispersion import (
     in_blocks,
 )
 from kinroots.physics.models import krook, krook_dispersion
+from kinroots.physics.scales import Scale, characteristic_frequencies
 from kinroots.roots import (
     Branch,
     SurveyResult,
@@ -40,8 +43,280 @@ MATCH_FRACTION = 1e-6
 
 
 def window(case: Case) -> tuple[float, float, float, float]:
-    """The search window ``(re_min, re_max, im_min, im_max)`` in normalized ω."""
-    return (*case.search_real, *case.search_imag)
+    """The search window ``(re_min, re_max, im_min, im_max)`` in normalized ω.
+
+    The case's ``[search]`` table where it gives one; otherwise the window chosen from the
+    plasma by :func:`window_choice` (computed once per case).
+    """
+    if case.search_real is not None and case.search_imag is not None:
+        return (*case.search_real, *case.search_imag)
+    c = window_choice(case)
+    return (*c.real, *c.imag)
+
+
+@dataclass(frozen=True)
+class WindowChoice:
+    """The search window used for a case and how it was obtained.
+
+    Attributes
+    ----------
+    real, imag : tuple of float
+        ``(min, max)`` of Re ω and Im ω, normalized.
+    chosen : bool
+        True when kinroots chose (part of) the window from the plasma (no ``[search]``
+        or no ``search.real`` / ``search.imag``); False when the case gave it.
+    rule : str
+        The rule in words, with the scales that set each edge.
+    evaluations : int
+        Dispersion evaluations spent choosing it (probe surveys).
+    """
+
+    real: tuple[float, float]
+    imag: tuple[float, float]
+    chosen: bool
+    rule: str
+    evaluations: int = 0
+
+    def as_json(self) -> dict[str, Any]:
+        """The ``search_window`` entry of summary.json."""
+        return {"real": list(self.real), "imag": list(self.imag), "normalized": True,
+                "chosen_from_plasma": self.chosen, "rule": self.rule,
+                "evaluations": self.evaluations}
+
+
+#: Characteristic frequencies above this multiple of the case's frequency unit are not
+#: on the case's scale (the unit names the physics the user studies): they do not widen
+#: a chosen window.
+SCALE_RANGE = 10.0
+#: Margin on the highest characteristic frequency kept (Re ω edge of a chosen window).
+REAL_MARGIN = 1.3
+#: Re ω of a chosen window starts this fraction of its top edge below 0, so that purely
+#: growing or damped roots (Re ω = 0) lie inside it, not on its edge.
+ZERO_MARGIN = 0.05
+#: Without drifts or the electromagnetic model (no root on Re ω = 0 to catch), Re ω of a
+#: chosen window starts at this fraction of the lowest characteristic frequency at the
+#: smallest k, clear of the zero-frequency resonance of cold species whose Landau term
+#: grows fastest below the real axis there.
+LOW_FRACTION = 0.5
+#: First depth below the real axis of a chosen window, as a fraction of its Re ω span.
+FIRST_DEPTH = 0.01
+#: Depth multiplier per deepening step, and the deepest a chosen window goes (fraction
+#: of its Re ω span).
+DEEPEN, MAX_DEPTH = 3.0, 1.0
+#: A chosen window reaches at most this many resonance widths below the real axis where a
+#: resonance centre (k∥V + nΩ, :meth:`NormalizedDispersion.features`) lies within its Re ω
+#: range: exp(26²) is near the largest double, and the root layer may move an edge
+#: outward.
+RESONANCE_DEPTH = 12.0
+#: Probe wavenumbers (evenly spread over the scan's points) for a chosen Im ω range.
+PROBES = 5
+#: Where every probe k has a growing root, a chosen window's bottom edge lies at this
+#: fraction of the smallest of their growth rates (above the real axis).
+GROWING_FLOOR = 0.5
+#: Margin on the deepest least-damped root found by the probes.
+DEPTH_MARGIN = 1.5
+
+_CHOICES: weakref.WeakKeyDictionary[Case, WindowChoice] = weakref.WeakKeyDictionary()
+
+
+def window_choice(case: Case) -> WindowChoice:
+    """The window used for ``case``: its ``[search]`` table, or one chosen from the plasma.
+
+    Rule for a missing ``search.real`` (README "Choosing the window"): the plasma's
+    characteristic frequencies at the first and last k of the scan
+    (:func:`kinroots.physics.scales.characteristic_frequencies`: ω_ps, |Ω_s|, k∥V_s ±
+    k w_s, Bohm-Gross, light wave, hybrid, cutoff and Alfvén frequencies), keeping those
+    at most :data:`SCALE_RANGE` times the frequency unit; Re ω runs from
+    −:data:`ZERO_MARGIN` × top (or the lowest Doppler frequency kept, times
+    :data:`REAL_MARGIN`) to :data:`REAL_MARGIN` × the highest kept.
+
+    For a missing ``search.imag``: Im ω reaches up to half the Re ω span (growth rates of
+    linear instabilities stay below the frequencies that drive them), raised to twice the
+    largest growth rate the probes see if one comes within 20 % of it.  Downward the
+    window is deepened from :data:`FIRST_DEPTH` of the span by factors of
+    :data:`DEEPEN` until the window holds a root at each probe k (first, middle and last
+    of the scan), then set to :data:`DEPTH_MARGIN` times the deepest of the probes'
+    least-damped roots, and at most :data:`MAX_DEPTH` of the span.  So the window holds
+    the least-damped root and every growing root at the probe k.
+    """
+    cached = _CHOICES.get(case)
+    if cached is not None:
+        return cached
+    if case.search_real is not None and case.search_imag is not None:
+        return WindowChoice(case.search_real, case.search_imag, False,
+                            "given by the case's [search] table")
+    if cached is None:
+        cached = _choose_window(case)
+        _CHOICES[case] = cached
+    return cached
+
+
+def with_window(case: Case) -> Case:
+    """``case`` with its window fixed (chosen from the plasma if it gives none).
+
+    Studies that re-read the case at other parameter values (sweeps, thresholds) use
+    the window of the case as given, written into its ``[search]`` table, so every
+    point shares one window; :func:`window_choice` of the result still says whether it
+    was chosen.
+    """
+    if case.search_real is not None and case.search_imag is not None:
+        return case
+    choice = window_choice(case)
+    raw = dict(case.raw)
+    raw["search"] = {"real": list(choice.real), "imag": list(choice.imag)}
+    fixed = replace(case, search_real=choice.real, search_imag=choice.imag, raw=raw)
+    _CHOICES[fixed] = choice
+    return fixed
+
+
+def _scales(case: Case) -> tuple[list[Scale], list[Scale], list[str]]:
+    """Characteristic scales (normalized) at the scan's smallest and largest k.
+
+    Returns the scales kept at the largest k, those kept at the smallest k (both: on the
+    case's scale at some k of the scan and at most :data:`SCALE_RANGE` units), and the
+    names left out as beyond the case's scale.
+    """
+    units = case.units
+    w_u = units.omega_unit
+    ks = np.asarray(case.k_values, dtype=float)
+    at: dict[float, list[Scale]] = {}
+    for k in (float(ks.min()), float(ks.max())):
+        at[k] = [Scale(sc.name, sc.centre / w_u, sc.spread / w_u)
+                 for sc in characteristic_frequencies(case.plasma, k / units.length_unit,
+                                                      case.angle_deg,
+                                                      case.model == "electromagnetic")]
+
+    def size(sc: Scale) -> float:
+        return max(abs(sc.low), abs(sc.high))
+
+    every = [sc for v in at.values() for sc in v]
+    names = {sc.name for sc in every if 1.0 / SCALE_RANGE <= size(sc) <= SCALE_RANGE}
+    if not names and every:  # no scale near the unit: the slowest ones
+        smallest = min(size(sc) for sc in every)
+        names = {sc.name for sc in every if size(sc) <= smallest * SCALE_RANGE}
+    dropped = sorted({sc.name for sc in every} - names)
+    kmin, kmax = float(ks.min()), float(ks.max())
+    keep = [[sc for sc in at[k] if sc.name in names and size(sc) <= SCALE_RANGE
+             or sc.name in names and k == kmin] for k in (kmax, kmin)]
+    return keep[0], keep[1], dropped
+
+
+def _real_range(case: Case) -> tuple[tuple[float, float], str]:
+    high_k, low_k = _scales(case)[:2]
+    kept = high_k + low_k
+    top_scale = max(kept, key=lambda sc: sc.high, default=None)
+    hi = REAL_MARGIN * (top_scale.high if top_scale is not None else 1.0)
+    setter = top_scale.name if top_scale is not None else "frequency unit"
+    drifts = [sc for sc in kept if sc.name.startswith("Doppler") and abs(sc.centre) >= 0.05 * hi]
+    if case.model == "electromagnetic" or (
+            any(sc.centre > 0 for sc in drifts) and any(sc.centre < 0 for sc in drifts)):
+        # purely growing roots (Weibel, mirror, firehose, filamentation; two-stream of
+        # counter-drifting species) lie on Re omega = 0
+        lo, why_lo = -ZERO_MARGIN * hi, "just below 0, so that Re omega = 0 is inside"
+    else:
+        waves = [sc.centre for sc in low_k if sc.centre > 0 and not sc.name.startswith(
+            "cyclotron harmonics")]
+        lo = LOW_FRACTION * min(waves) if waves else 0.0
+        why_lo = (f"{LOW_FRACTION:g} x the lowest characteristic frequency at the "
+                  "smallest k")
+    backward = [REAL_MARGIN * sc.low for sc in drifts if sc.centre < 0]
+    if backward and min(backward) < lo:
+        lo, why_lo = min(backward), "the backward Doppler frequency of a drifting species"
+    why = (f"Re omega from {lo:.4g} ({why_lo}) to {hi:.4g} ({REAL_MARGIN:g} x the {setter} "
+           "at the scan's ends, the highest characteristic frequency within "
+           f"{SCALE_RANGE:g} frequency units)")
+    return (_round(lo), _round(hi)), why
+
+
+def _round(x: float) -> float:
+    """``x`` to 3 significant digits (a window the user can copy into ``[search]``)."""
+    return float(f"{x:.3g}")
+
+
+def _choose_window(case: Case) -> WindowChoice:
+    if case.search_real is not None:
+        real, why_real = case.search_real, "Re omega given by the case"
+    else:
+        real, why_real = _real_range(case)
+    span = real[1] - real[0]
+    if case.search_imag is not None:
+        return WindowChoice(real, case.search_imag, True, why_real + "; Im omega given")
+    ks = np.asarray(case.k_values, dtype=float)
+    probes = sorted({float(ks[round(i * (len(ks) - 1) / (PROBES - 1))])
+                     for i in range(PROBES)})
+    # below the real axis a Landau term exp(-zeta^2) grows like exp((Im omega / width)^2)
+    # near a resonance centre: past about 26 widths it exceeds double precision
+    cap = MAX_DEPTH * span
+    for k in (float(ks.min()),):
+        f = function_at(case, k)
+        widths = [w for c, w in f.features((real[0], real[1], -cap, 0.0))
+                  if real[0] <= c.real <= real[1]]
+        if widths:
+            cap = min(cap, RESONANCE_DEPTH * min(widths))
+    top, depth = 0.5 * span, min(FIRST_DEPTH * span, cap)
+    evaluations = 0
+    best: dict[float, float] = {}  # probe k -> Im of its least-damped root found
+    notes: list[str] = []
+
+    def look(k: float, lo: float, hi: float) -> bool:
+        """Survey the strip [lo, hi] at k; False when it could not be completed."""
+        nonlocal evaluations
+        res = survey(case, k, box=(real[0], real[1], lo, hi))
+        evaluations += res.evaluations
+        for v in res.values:
+            best[k] = max(best.get(k, -math.inf), float(v.imag))
+        return bool(res.complete)
+
+    failed = [k for k in probes if not look(k, -depth, top)]
+    if failed:
+        notes.append("the first survey (Im omega from " f"{-depth:.3g}) at k = "
+                     + ", ".join(f"{k:g}" for k in failed) + " could not be completed")
+    grow = max(best.values(), default=-math.inf)
+    if grow > 0.8 * top:
+        new_top = 2.0 * grow
+        for k in probes:
+            look(k, top, new_top)
+        top = new_top
+    while depth < cap and any(k not in best for k in probes):
+        deeper = min(DEEPEN * depth, cap)
+        failed = [k for k in probes if k not in best and not look(k, -deeper, -depth)]
+        if failed:
+            # D cannot be surveyed that deep (overflow, poles): stay above that depth
+            notes.append("a survey down to Im omega = " f"{-deeper:.3g} at k = "
+                         + ", ".join(f"{k:g}" for k in failed) + " could not be completed")
+            break
+        depth = deeper
+    if best:
+        depth = min(cap, max(depth if any(k not in best for k in probes)
+                             else min(FIRST_DEPTH * span, cap),
+                             -DEPTH_MARGIN * min(best.values())))
+    # growing beyond the root's accuracy (an undamped root's Im omega is rounding noise)
+    res = 10.0 * case.solver.tolerance * max(abs(real[0]), abs(real[1]))
+    growing = len(best) == len(probes) and min(best.values()) > res
+    if growing:
+        # every probe k has a growing root (the least-damped one): the window need not
+        # reach below the real axis, where damped roots can crowd (a cold species'
+        # resonance at Re omega = 0)
+        depth = -GROWING_FLOOR * min(best.values())
+    empty = [k for k in probes if k not in best]
+    why_imag = (f"Im omega from {-depth:.4g} ({GROWING_FLOOR:g} x the smallest of the "
+                "growth rates of the fastest-growing roots at the probe k = "
+                + ", ".join(f"{k:g}" for k in probes) + ", where every probe has one"
+                if growing else
+                f"Im omega from {-depth:.4g} (the least-damped root at the probe k = "
+                + ", ".join(f"{k:g}" for k in probes)
+                + f", with margin {DEPTH_MARGIN:g}"
+                + (f"; at most {RESONANCE_DEPTH:g} widths of the narrowest resonance in the "
+                   f"window, {cap:.3g}, where D would overflow" if depth >= cap else "")
+                + ")")
+    why_imag += f" to {top:.4g} (half the Re omega span)"
+    if empty:
+        why_imag += ("; no root found down to that depth at k = "
+                     + ", ".join(f"{k:g}" for k in empty))
+    if notes:
+        why_imag += "; " + "; ".join(notes)
+    return WindowChoice(real, (_round(-depth), _round(top)), True,
+                        f"{why_real}; {why_imag}", evaluations)
 
 
 def dispersion_at(case: Case, k: float | complex) -> Dispersion:

@@ -17,7 +17,7 @@ from kinroots.roots import (
     RootResult,
     SurveyResult,
 )
-from kinroots.study.problem import MATCH_FRACTION
+from kinroots.study.problem import MATCH_FRACTION, window, window_choice
 
 
 class _Branch(Protocol):
@@ -217,8 +217,7 @@ def link_waves(case: Case, rows: list[dict[str, Any]]) -> dict[Any, int]:
     (continuity of ω and of the polarization across a gap); a piece that matches none
     is a wave of its own.
     """
-    x0, x1 = case.search_real
-    y0, y1 = case.search_imag
+    x0, x1, y0, y1 = window(case)
     span_r, span_i = x1 - x0, y1 - y0
     pieces: dict[Any, list[dict[str, Any]]] = {}
     for r in rows:
@@ -361,6 +360,7 @@ def metadata(case: Case, *, rows: list[dict[str, Any]], extra: dict[str, Any]) -
             },
         },
         "derived": derived_quantities(case.plasma, units),
+        "search_window": window_choice(case).as_json(),
         "tolerances": {
             "root_rtol": case.solver.tolerance,
             "harmonic_tolerance": case.solver.harmonic_tolerance,

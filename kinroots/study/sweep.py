@@ -43,6 +43,7 @@ from kinroots.io.parameters import (
 )
 from kinroots.physics import modes
 from kinroots.study.growth import GrowthResult, max_growth
+from kinroots.study.problem import with_window
 from kinroots.study.threshold import find_threshold
 
 __all__ = [
@@ -366,6 +367,7 @@ def run_points(
     todo = list(indices)
     if not todo:
         return
+    case = with_window(case)  # one window for every point, chosen once if not given
     if scheduler:
         _run_dask(case.raw, source, kind, todo, on_result, scheduler)
         return

@@ -14,7 +14,7 @@ from kinroots.io.parameters import (
 )
 from kinroots.roots import polish
 from kinroots.study.growth import GrowthResult, max_growth
-from kinroots.study.problem import function_at
+from kinroots.study.problem import function_at, window
 
 
 @dataclass
@@ -120,7 +120,7 @@ def find_threshold(case: Case, path: str | ParameterPath, bracket: tuple[float, 
             gr = max_growth(with_parameter(case, path, p), angles,
                             seeds=_neighbour_seeds(case, path, memo, p))
             # nothing in the window: growth below its lower edge (for the sign only)
-            memo[p] = (case.search_imag[0] if math.isnan(gr.growth) else gr.growth, gr)
+            memo[p] = (window(case)[2] if math.isnan(gr.growth) else gr.growth, gr)
         return memo[p][0] - level
 
     try:
@@ -132,7 +132,7 @@ def find_threshold(case: Case, path: str | ParameterPath, bracket: tuple[float, 
         if math.isnan(memo[v][1].growth):
             out.notes.append(f"no root in the search window at the {end} bracket end "
                              f"({v!r}): maximum growth below the window's lower edge "
-                             f"{case.search_imag[0]!r}")
+                             f"{window(case)[2]!r}")
     out.growth_low, out.growth_high = memo[lo][1].growth, memo[hi][1].growth
     if glo == 0.0 or ghi == 0.0 or (glo < 0) != (ghi < 0):
         tol = xtol if xtol is not None else 1e-6 * abs(hi - lo)
