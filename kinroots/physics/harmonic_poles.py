@@ -13,7 +13,7 @@ Stix 1992 ch. 10–11) have the residues (ω_ps²/Ω_s) times g_n, Γ_n', g_n �
 βΓ_n/n (β = (w∥² + 2V²)/w⊥²) and (k⊥V/Ω_s) g_n/n.  Every one is bounded by
 
     R_n = (ω_ps²/|Ω_s|) · c_s · m_n,    c_s = 1 + β + |k⊥V/Ω_s|,
-    m_n = max(|Γ_n|, |g_n|, |n g_n|, |nΓ_n'|, |2λΓ_n'|) ≤ (|n| + 2λ + 1) Γ̄_{|n|−1}(λ),
+    m_n = max(|Γ_n|, |g_n|, |n g_n|, |nΓ_n'|, |2λΓ_n'|) ≤ (|n| + 2λ + 2) Γ̄_{|n|−1}(λ),
 
 (m_n the bound of the truncation rule, :func:`~kinroots.physics.models._harmonics.bessel_weights`;
 |g_n| ≤ Γ_{|n|−1}/2 and |Γ_n'| ≤ Γ_{|n|−1} from A&S 9.6.26, Γ_n decreasing in |n|) with the
@@ -128,7 +128,7 @@ def harmonic_residue_bound(species: Species, n: float, *, k_perp: float, B: floa
         beta = (wpar2 + 2.0 * part.drift * part.drift) / wperp2
         c = 1.0 + beta + abs(k_perp * part.drift) / om_c
         log_r = (math.log(part.plasma_frequency**2 / om_c) + math.log(c)
-                 + math.log(a + 2.0 * lam + 1.0) + log_weight_bound(a - 1.0, lam)
+                 + math.log(a + 2.0 * lam + 2.0) + log_weight_bound(a - 1.0, lam)
                  - math.log(a * om_c))
         total += math.exp(log_r) if log_r > -700.0 else 0.0
     return math.log(total) if total > 0.0 else -math.inf

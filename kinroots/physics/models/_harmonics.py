@@ -435,6 +435,52 @@ def _dot_rows(x: np.ndarray, w: np.ndarray) -> np.ndarray:
     return np.vecdot(np.swapaxes(w, -1, -2).conj(), x[..., None, :])[..., None, :]
 
 
+#: Largest residue, relative to the harmonic's frequency |nΩ|, of a k∥ = 0 pole whose term
+#: is dropped at ω = nΩ exactly (:func:`reciprocal_off_poles`): the largest
+#: ``solver.tolerance`` a case accepts (``kinroots.io.limits``), so every pole the survey
+#: treats as a regular point (residue bound below its tolerance,
+#: :mod:`kinroots.physics.harmonic_poles`) is one.
+DROP_RESIDUE = 1e-4
+
+
+def reciprocal_off_poles(diff: np.ndarray, residue: np.ndarray, scale: np.ndarray
+                         ) -> np.ndarray:
+    """1/diff, with 0 where diff is exactly 0 and the pole is negligible (call under
+    ``np.errstate(all="ignore")``).
+
+    Parameters
+    ----------
+    diff : ndarray
+        ω − nΩ (or ω² − n²Ω²), harmonics on the last axis.
+    residue : ndarray
+        A bound on the modulus of each harmonic's residue [rad/s] (broadcast against
+        ``diff``).
+    scale : ndarray
+        |nΩ| of each harmonic (broadcast likewise).
+
+    Returns
+    -------
+    ndarray
+
+    Notes
+    -----
+    Used for the k∥ = 0 terms 1/(ω − nΩ) (and 1/(ω² − n²Ω²)): at ω = nΩ exactly the term
+    of a harmonic with residue ≤ :data:`DROP_RESIDUE`·|nΩ| is dropped, so D there is the
+    sum of the other terms instead of inf or inf·0 = NaN.  Electrostatic: that is the
+    finite part of the Laurent series at the pole (the pole's coefficient does not depend
+    on ω).  Electromagnetic: the slope of the coefficient is left out too, at most
+    2|R|/|nΩ| (R the residue).  The survey samples such a point only where it treats the
+    harmonic as a regular point (R below rtol·|nΩ|, :mod:`kinroots.physics.harmonic_poles`),
+    so D there is right to its resolution.  A pole with a larger residue stays a pole
+    (inf or NaN exactly on it); the survey excludes those and never samples them.
+    """
+    r = 1.0 / diff
+    hit = diff == 0
+    if hit.any():
+        r = np.where(hit & (residue <= DROP_RESIDUE * scale), 0.0, r)
+    return r
+
+
 def nan_susceptibility(shape: tuple[int, ...], harmonics: int) -> Susceptibility:
     """A result that is non-finite everywhere (bad input or harmonic overflow)."""
     nan = np.full(shape, np.nan + 0j)

@@ -17,6 +17,7 @@ from kinroots.physics.models._harmonics import (
     harmonic_sums,
     landau_sign,
     landau_z,
+    reciprocal_off_poles,
     species_setup,
 )
 from kinroots.physics.models.base import Susceptibility
@@ -151,7 +152,8 @@ def _tensor_parts(
     kappa: complex | np.ndarray
     zfac: complex | np.ndarray
     if perpendicular:
-        r = 1.0 / (om1 - n_om)
+        r = reciprocal_off_poles(om1 - n_om, _residue_bound(w, lam, kperp, omega_c, V, wpar,
+                                                          wperp, species), np.abs(n_om))
         r2 = r * r
         nr = sums.dot(r, w.n[:, None] * w_all)  # Σ n w_n/(ω − nΩ)
         nr2 = sums.dot(r2, w.n[:, None] * w_all)
@@ -361,7 +363,7 @@ def _scaled_parts(
     tau = species.temperature_perp / species.temperature_par
     if perpendicular:
         core, dcore, h, dh, s33, ds33 = _perpendicular_parts(om, w, lam, kperp, omega_c, V,
-                                                             wpar, wperp)
+                                                             wpar, wperp, species)
     else:
         core, dcore, h, dh, s33, ds33 = _oblique_parts(om, w, lam, kpar, kperp, omega_c,
                                                        V, wpar, tau)
@@ -458,9 +460,25 @@ def _oblique_parts(
     return core, dcore, h, dh, s33, ds33
 
 
+def _residue_bound(w: BesselWeights, lam: complex | np.ndarray, kperp: complex | np.ndarray,
+                   omega_c: float, V: float, wpar: float, wperp: float, species: Species
+                   ) -> np.ndarray:
+    """A bound on the residue of every entry of χ_s at each harmonic nΩ (k∥ = 0) [rad/s].
+
+    From the k∥ = 0 limits of :func:`susceptibility` the residues are (ω_p²/Ω) times g_n,
+    Γ_n', g_n − 2λΓ_n'/n, βΓ_n/n and (k⊥V/Ω) g_n/n, (k⊥V/Ω)Γ_n'/n; their sum of moduli
+    bounds each (harmonics on the last axis, like the weights).
+    """
+    beta = (wpar * wpar + 2.0 * V * V) / (wperp * wperp)
+    c = 1.0 + beta + np.abs(kperp * V / omega_c)
+    weight = np.abs(w.g) + (1.0 + 2.0 * np.abs(lam)) * np.abs(w.dgamma) + np.abs(w.gamma)
+    out: np.ndarray = (species.plasma_frequency**2 / abs(omega_c)) * c * weight
+    return out
+
+
 def _perpendicular_parts(
     om: np.ndarray, w: BesselWeights, lam: complex | np.ndarray, kperp: complex | np.ndarray,
-    omega_c: float, V: float, wpar: float, wperp: float,
+    omega_c: float, V: float, wpar: float, wperp: float, species: Species,
 ) -> _FrameParts:
     """k∥ = 0: the same parts from the rational limits, harmonics ±n paired.
 
@@ -475,7 +493,8 @@ def _perpendicular_parts(
     if dg0.ndim == 1:
         dg0 = dg0[0]
     om1 = sums.omega
-    dn = 1.0 / (om1 * om1 - (n * omega_c) ** 2)  # 1/(ω² − n²Ω²)
+    res = _residue_bound(w, lam, kperp, omega_c, V, wpar, wperp, species)[..., pos]
+    dn = reciprocal_off_poles(om1 * om1 - (n * omega_c) ** 2, res, n * abs(omega_c))
     ddn = -2.0 * om1 * dn * dn
     beta = (wpar * wpar + 2.0 * V * V) / (wperp * wperp)
     ng = n * g

@@ -7,6 +7,8 @@ SI throughout (ω in rad/s, k in 1/m, B in T, temperatures of
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from kinroots.physics.models._harmonics import (
@@ -16,13 +18,15 @@ from kinroots.physics.models._harmonics import (
     harmonic_sums,
     is_array_k,
     landau_sign,
+    reciprocal_off_poles,
     species_setup,
 )
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
 from kinroots.physics.zfunc import plasma_z_and_prime
 
-__all__ = ["SpeciesSum", "susceptibility"]
+__all__ = ["SERIES_MIN_ZETA", "SERIES_TERMS", "SpeciesSum", "perpendicular_series",
+           "susceptibility"]
 
 
 def susceptibility(
@@ -115,10 +119,115 @@ def susceptibility(
             raise ValueError("array k is not supported for collisional species")
         return krook.magnetized_susceptibility(omega, species, k_par=complex(k_par),
                                                k_perp=complex(k_perp), B=B, tol=tol)
-    return evaluate(
+    res = evaluate(
         omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="es_magnetized",
         tail=(), parts=lambda om, setup, perp: _parts(om, setup, perp, species),
     )
+    return _with_perpendicular_series(res, omega, species, k_par=k_par, k_perp=k_perp, B=B)
+
+
+#: |ω| / (|k⊥| w⊥) from which :func:`perpendicular_series` is used (|ζ| ≥ 16: its
+#: truncation and the harmonics it leaves out are below e^{−ζ²} ≈ 1e-111).
+SERIES_MIN_ZETA = 16.0
+#: Terms ν_2 … ν_2M of :func:`perpendicular_series` (relative tail below 1e-19 at |ζ| = 16).
+SERIES_TERMS = 14
+
+
+def perpendicular_series(
+    omega: np.ndarray, species: Species, *, k_perp: complex | np.ndarray, B: float,
+) -> Susceptibility:
+    r"""χ_s at k∥ = 0 for |ω| ≥ :data:`SERIES_MIN_ZETA`·|k⊥|w⊥, from the moments of Γ_n.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        ω [rad/s].
+    species : Species
+        A collisionless bi-Maxwellian (only T⊥ enters at k∥ = 0).
+    k_perp : complex or array_like of complex
+        k⊥ [1/m], broadcast against ``omega``.
+    B : float
+        Magnetic field [T], non-zero.
+
+    Returns
+    -------
+    Susceptibility
+        χ_s and dχ_s/dω (broadcast shape); NaN where |ω| < SERIES_MIN_ZETA·|k⊥|w⊥ or an
+        input is not finite; ``harmonics`` = 0 (no harmonic sum).
+
+    Notes
+    -----
+    For a species whose harmonic sum (the Bernstein form of :func:`susceptibility`)
+    needs more than ``_harmonics.MAX_HARMONICS`` terms (λ ≳ 4e6: heavy ions at
+    electron scales).  Expanding ``1/(ω² − n²Ω²) = Σ_j n^{2j}Ω^{2j}/ω^{2j+2}`` in
+    ``χ_s = −(ω_p²/λ) Σ_{n≥1} 2n²Γ_n/(ω² − n²Ω²)``::
+
+        χ_s = −(ω_p²/(λΩ²)) Σ_{m≥1} ν_{2m},   ν_{2m} = μ_{2m} y^m,  y = Ω²/ω²,
+
+    μ_{2m} = Σ_n n^{2m}Γ_n(λ) the moments of the weights Γ_n.  Γ_n is the distribution of
+    the difference of two Poisson(λ/2) numbers (Skellam, J. R. Stat. Soc. 109, 296, 1946):
+    ln Σ_n Γ_n eˢⁿ = λ(cosh s − 1) by A&S 9.6.33, so every even cumulant is λ and every odd
+    one 0, and the moments follow from the cumulant recurrence
+    μ_r = Σ_{i=1}^{r} C(r−1, i−1) κ_i μ_{r−i} (common practice), here for ν directly
+    (κ_i y^{i/2} = λ y^{i/2}, no overflow).  ν_2 = λy gives the cold term −ω_p²/ω², ν_4 =
+    (λ + 3λ²)y² its thermal correction 3k⊥²T⊥/(mω²) (the unmagnetized large-ζ limit, up to
+    the magnetization term λy²).  dν_{2m}/dω = −2m ν_{2m}/ω.  The series is asymptotic:
+    its terms fall like (2m − 1)/(2ζ²), ζ = ω/(k⊥w⊥), and the harmonics it cannot
+    represent (poles of weight ≈ e^{−ζ²}, :mod:`kinroots.physics.harmonic_poles`) are
+    below double precision at |ζ| ≥ 16; :data:`SERIES_TERMS` terms reach 1e-19 there.
+    Checked against the harmonic sum where both converge (tests/test_harmonic_poles.py).
+    """
+    om = np.asarray(omega, dtype=complex)
+    kp = np.asarray(k_perp, dtype=complex)
+    with np.errstate(all="ignore"):
+        omega_c = species.cyclotron_frequency(B)
+        wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
+        om, kp = np.broadcast_arrays(om, kp)
+        lam = kp * kp * wperp * wperp / (2.0 * omega_c * omega_c)
+        y = (omega_c * omega_c) / (om * om)
+        # ν_{2m} for m = 1 … M from the even-cumulant recurrence, all elements at once
+        nu = [np.ones(om.shape, dtype=complex)]  # ν_0 = 1
+        ly = [lam * y**i for i in range(1, SERIES_TERMS + 1)]  # κ_{2i} y^i
+        for m in range(1, SERIES_TERMS + 1):
+            r = 2 * m
+            acc = np.zeros(om.shape, dtype=complex)
+            for i in range(1, m + 1):
+                acc += math.comb(r - 1, 2 * i - 1) * ly[i - 1] * nu[m - i]
+            nu.append(acc)
+        total = np.sum(nu[1:], axis=0)
+        weighted = np.sum([m * nu[m] for m in range(1, SERIES_TERMS + 1)], axis=0)
+        c = species.plasma_frequency**2 / (lam * omega_c * omega_c)
+        value = -c * total
+        derivative = 2.0 * c * weighted / om
+        bad = ~(np.isfinite(value) & np.isfinite(derivative)
+                & (np.abs(om) >= SERIES_MIN_ZETA * np.abs(kp) * wperp))
+        value = np.where(bad, np.nan + 0j, value)
+        derivative = np.where(bad, np.nan + 0j, derivative)
+    return Susceptibility(value=value, derivative=derivative, harmonics=0)
+
+
+def _with_perpendicular_series(
+    res: Susceptibility, omega: np.ndarray, species: Species, *, k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray, B: float,
+) -> Susceptibility:
+    """``res`` with :func:`perpendicular_series` where k∥ = 0, ω is finite and the harmonic
+    sum gave no finite value (it does not converge: λ too large) and the series applies."""
+    value = np.asarray(res.value)
+    bad = ~np.isfinite(value)
+    if not bad.any() or species.collision_frequency > 0.0:
+        return res
+    om = np.broadcast_to(np.asarray(omega, dtype=complex), value.shape)
+    kpar = np.broadcast_to(np.asarray(k_par, dtype=complex), value.shape)
+    fill = bad & (kpar == 0) & np.isfinite(om)
+    if not fill.any():
+        return res
+    kperp = np.broadcast_to(np.asarray(k_perp, dtype=complex), value.shape)
+    series = perpendicular_series(om[fill], species, k_perp=kperp[fill], B=B)
+    new_value = value.copy()
+    new_derivative = np.asarray(res.derivative).copy()
+    new_value[fill] = series.value
+    new_derivative[fill] = series.derivative
+    return Susceptibility(value=new_value, derivative=new_derivative, harmonics=res.harmonics)
 
 
 def _parts(
@@ -136,7 +245,9 @@ def _parts(
     wp2 = species.plasma_frequency**2
     n_om = w.n * omega_c
     if perpendicular:
-        r = 1.0 / (sums.omega - n_om)
+        # exact residue of χ_s at nΩ: (ω_p²/|Ω|)|g_n|
+        r = reciprocal_off_poles(sums.omega - n_om, (wp2 / abs(omega_c)) * np.abs(w.g),
+                                 np.abs(n_om))
         value = -(wp2 / omega_c) * sums.dot(r, w.g)
         derivative = (wp2 / omega_c) * sums.dot(r * r, w.g)
         return value, derivative
