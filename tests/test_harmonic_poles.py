@@ -343,24 +343,47 @@ def test_counting_relevant_harmonics_needs_no_memory():
 
 
 # ------------------------------------------------- the model at and near a harmonic
-@pytest.mark.parametrize("lam", [1e3, 1e4])
+def _bernstein_sum(om: np.ndarray, sp: Species, k_perp: float) -> tuple[np.ndarray, np.ndarray]:
+    """χ = −(ω_p²/λ) Σ_{n≥1} 2n²Γ_n/(ω² − n²Ω²) and dχ/dω summed directly with scipy's
+    ive (Bernstein 1958; Stix 1992 ch. 11, from memory), to 40√λ + 50 harmonics."""
+    om_c = abs(sp.cyclotron_frequency(B_FIELD))
+    lam = (k_perp * sp.thermal_speed_perp / om_c) ** 2 / 2
+    n = np.arange(1, int(40 * math.sqrt(lam)) + 50, dtype=float)
+    w = 2 * n**2 * ive(n, lam)
+    d = om[:, None] ** 2 - (n * om_c) ** 2
+    c = sp.plasma_frequency**2 / lam
+    return -c * np.sum(w / d, axis=1), c * np.sum(w * 2 * om[:, None] / d**2, axis=1)
+
+
+@pytest.mark.parametrize("lam", [1e2, 1e3, 1e4])
 def test_perpendicular_series_matches_the_harmonic_sum(lam):
-    """Where the harmonic sum converges (N ~ 10√λ), the moment series agrees with it for
-    |ζ| ≥ 16 (real and complex ω), χ to 1e-12 and dχ/dω to 1e-10 relative."""
+    """The moment series (used for λ ≥ 100, |ζ| ≥ 16) against the Bernstein sum with
+    scipy's ive, real and complex ω: χ and dχ/dω to 1e-12 relative."""
     sp = _species(M_PROTON)
     om_c = abs(sp.cyclotron_frequency(B_FIELD))
     k_perp = math.sqrt(2 * lam) * om_c / sp.thermal_speed_perp
     kw = k_perp * sp.thermal_speed_perp
     om = kw * np.array([16.0, 16.0 + 0.5j, 30.0, 100.0 - 3j, 1e3 + 1e2j])
     om = om + 0.37 * om_c  # off the harmonics (the series has no poles)
-    ref = es_magnetized.susceptibility(om, sp, k_par=0.0, k_perp=k_perp, B=B_FIELD)
+    ref_v, ref_d = _bernstein_sum(om, sp, k_perp)
     ser = es_magnetized.perpendicular_series(om, sp, k_perp=k_perp, B=B_FIELD)
-    assert np.allclose(ser.value, ref.value, rtol=1e-12, atol=0)
-    assert np.allclose(ser.derivative, ref.derivative, rtol=1e-10, atol=0)
-    # below |ζ| = 16 the series refuses (NaN), it does not guess
-    low = es_magnetized.perpendicular_series(np.array([8.0 * kw]), sp, k_perp=k_perp,
-                                             B=B_FIELD)
-    assert np.isnan(low.value).all()
+    assert np.allclose(ser.value, ref_v, rtol=1e-12, atol=0)
+    assert np.allclose(ser.derivative, ref_d, rtol=1e-12, atol=0)
+    # the builder uses it there, and the harmonic sum below |ζ| = 16, where the series
+    # refuses (NaN) rather than guess
+    got = es_magnetized.susceptibility(om, sp, k_par=0.0, k_perp=k_perp, B=B_FIELD)
+    assert np.array_equal(got.value, ser.value) and got.harmonics == 0
+    low = np.array([8.0 * kw + 0.37 * om_c])
+    assert np.isnan(es_magnetized.perpendicular_series(low, sp, k_perp=k_perp,
+                                                       B=B_FIELD).value).all()
+    mixed = es_magnetized.susceptibility(np.concatenate([low, om]), sp, k_par=0.0,
+                                         k_perp=k_perp, B=B_FIELD)
+    assert np.allclose(mixed.value[0], _bernstein_sum(low, sp, k_perp)[0][0], rtol=1e-12)
+    assert np.array_equal(mixed.value[1:], ser.value) and mixed.harmonics > 50
+    # array k (the tracer's pairs) gives the same values
+    arr = es_magnetized.susceptibility(np.concatenate([low, om]), sp, k_par=np.zeros(6),
+                                       k_perp=np.full(6, k_perp), B=B_FIELD)
+    assert np.allclose(arr.value, mixed.value, rtol=1e-13, atol=0)
 
 
 @pytest.mark.parametrize("model", [es_magnetized, em_magnetized])

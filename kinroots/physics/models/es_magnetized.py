@@ -25,8 +25,8 @@ from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
 from kinroots.physics.zfunc import plasma_z_and_prime
 
-__all__ = ["SERIES_MIN_ZETA", "SERIES_TERMS", "SpeciesSum", "perpendicular_series",
-           "susceptibility"]
+__all__ = ["SERIES_MIN_LAMBDA", "SERIES_MIN_ZETA", "SERIES_TERMS", "SpeciesSum",
+           "perpendicular_series", "susceptibility"]
 
 
 def susceptibility(
@@ -95,7 +95,12 @@ def susceptibility(
             = −(ω_p²/λ) Σ_{n≥1} 2n²Γ_n/(ω² − n²Ω²)   (Bernstein),
 
     rational in ω with poles at ω = nΩ; it depends on T⊥ only. At k = 0 exactly this is
-    the perpendicular k → 0 limit −ω_p²/(ω² − Ω²).
+    the perpendicular k → 0 limit −ω_p²/(ω² − Ω²).  For λ ≥ :data:`SERIES_MIN_LAMBDA`
+    and |ω| ≥ :data:`SERIES_MIN_ZETA`·k⊥w⊥ the same χ_s comes from
+    :func:`perpendicular_series` (a fixed 14 terms instead of about 10√λ harmonics; the
+    only form at all beyond λ ≈ 4e6).  Exactly at ω = nΩ the term of a harmonic of
+    negligible residue is dropped
+    (:func:`~kinroots.physics.models._harmonics.reciprocal_off_poles`).
 
     Non-finite ω, k or B and non-positive temperatures give NaN; overflow gives inf/NaN.
     The relative accuracy of dχ/dω degrades like ε|ζ_n|² for |ζ_n| ≫ 1 (cancellation
@@ -119,11 +124,26 @@ def susceptibility(
             raise ValueError("array k is not supported for collisional species")
         return krook.magnetized_susceptibility(omega, species, k_par=complex(k_par),
                                                k_perp=complex(k_perp), B=B, tol=tol)
-    res = evaluate(
-        omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="es_magnetized",
-        tail=(), parts=lambda om, setup, perp: _parts(om, setup, perp, species),
-    )
-    return _with_perpendicular_series(res, omega, species, k_par=k_par, k_perp=k_perp, B=B)
+    series = _series_part(omega, species, k_par=k_par, k_perp=k_perp, B=B)
+    if series is None:
+        return evaluate(
+            omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="es_magnetized",
+            tail=(), parts=lambda om, setup, perp: _parts(om, setup, perp, species),
+        )
+    value, derivative, use = series
+    if use.all():
+        return Susceptibility(value=value, derivative=derivative, harmonics=0)
+    rest = ~use
+    scalar = not is_array_k(k_par, k_perp)
+    kpar_r = k_par if scalar else np.broadcast_to(np.asarray(k_par), use.shape)[rest]
+    kperp_r = k_perp if scalar else np.broadcast_to(np.asarray(k_perp), use.shape)[rest]
+    om_r = np.broadcast_to(np.asarray(omega, dtype=complex), use.shape)[rest]
+    sub = evaluate(om_r, species, k_par=kpar_r, k_perp=kperp_r, B=B, tol=tol,
+                   model="es_magnetized", tail=(),
+                   parts=lambda om, setup, perp: _parts(om, setup, perp, species))
+    value[rest] = sub.value
+    derivative[rest] = sub.derivative
+    return Susceptibility(value=value, derivative=derivative, harmonics=sub.harmonics)
 
 
 #: |ω| / (|k⊥| w⊥) from which :func:`perpendicular_series` is used (|ζ| ≥ 16: its
@@ -157,9 +177,11 @@ def perpendicular_series(
 
     Notes
     -----
-    For a species whose harmonic sum (the Bernstein form of :func:`susceptibility`)
-    needs more than ``_harmonics.MAX_HARMONICS`` terms (λ ≳ 4e6: heavy ions at
-    electron scales).  Expanding ``1/(ω² − n²Ω²) = Σ_j n^{2j}Ω^{2j}/ω^{2j+2}`` in
+    Used by :func:`susceptibility` at k∥ = 0 for λ ≥ :data:`SERIES_MIN_LAMBDA` wherever it
+    applies: there the harmonic sum (the Bernstein form of :func:`susceptibility`) is
+    long, and beyond λ ≈ 4e6 (heavy ions at electron scales) it needs more than
+    ``_harmonics.MAX_HARMONICS`` terms and has no value at all.  Expanding
+    ``1/(ω² − n²Ω²) = Σ_j n^{2j}Ω^{2j}/ω^{2j+2}`` in
     ``χ_s = −(ω_p²/λ) Σ_{n≥1} 2n²Γ_n/(ω² − n²Ω²)``::
 
         χ_s = −(ω_p²/(λΩ²)) Σ_{m≥1} ν_{2m},   ν_{2m} = μ_{2m} y^m,  y = Ω²/ω²,
@@ -206,28 +228,38 @@ def perpendicular_series(
     return Susceptibility(value=value, derivative=derivative, harmonics=0)
 
 
-def _with_perpendicular_series(
-    res: Susceptibility, omega: np.ndarray, species: Species, *, k_par: complex | np.ndarray,
+#: λ from which :func:`susceptibility` takes χ at k∥ = 0 from :func:`perpendicular_series`
+#: wherever that applies (|ω| ≥ SERIES_MIN_ZETA·|k⊥|w⊥): the harmonic sum then has about
+#: 10√λ ≥ 100 terms per ω, the series a fixed 14, and they agree to the sum's rounding
+#: (below 1e-13 relative, tests/test_harmonic_poles.py).
+SERIES_MIN_LAMBDA = 100.0
+
+
+def _series_part(
+    omega: np.ndarray, species: Species, *, k_par: complex | np.ndarray,
     k_perp: complex | np.ndarray, B: float,
-) -> Susceptibility:
-    """``res`` with :func:`perpendicular_series` where k∥ = 0, ω is finite and the harmonic
-    sum gave no finite value (it does not converge: λ too large) and the series applies."""
-    value = np.asarray(res.value)
-    bad = ~np.isfinite(value)
-    if not bad.any() or species.collision_frequency > 0.0:
-        return res
-    om = np.broadcast_to(np.asarray(omega, dtype=complex), value.shape)
-    kpar = np.broadcast_to(np.asarray(k_par, dtype=complex), value.shape)
-    fill = bad & (kpar == 0) & np.isfinite(om)
-    if not fill.any():
-        return res
-    kperp = np.broadcast_to(np.asarray(k_perp, dtype=complex), value.shape)
-    series = perpendicular_series(om[fill], species, k_perp=kperp[fill], B=B)
-    new_value = value.copy()
-    new_derivative = np.asarray(res.derivative).copy()
-    new_value[fill] = series.value
-    new_derivative[fill] = series.derivative
-    return Susceptibility(value=new_value, derivative=new_derivative, harmonics=res.harmonics)
+) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """χ_s, dχ_s/dω from :func:`perpendicular_series` and the mask where they are used
+    (k∥ = 0, λ ≥ :data:`SERIES_MIN_LAMBDA`, the series applies), shaped like the
+    broadcast of the inputs; None where no element qualifies (the harmonic sum serves)."""
+    kpar = np.asarray(k_par, dtype=complex)
+    if species.collision_frequency > 0.0 or B == 0 or np.any(kpar != 0):
+        return None
+    kperp = np.asarray(k_perp, dtype=complex)
+    with np.errstate(all="ignore"):
+        omega_c = species.cyclotron_frequency(B)
+        lam = np.abs(kperp) ** 2 * species.thermal_speed_perp**2 / (2.0 * omega_c * omega_c)
+    if not np.any(lam >= SERIES_MIN_LAMBDA):
+        return None
+    res = perpendicular_series(omega, species, k_perp=kperp, B=B)
+    shape = np.broadcast_shapes(np.shape(omega), kpar.shape, kperp.shape)
+    lam_b = np.broadcast_to(lam, shape)
+    value = np.broadcast_to(res.value, shape).copy()
+    derivative = np.broadcast_to(res.derivative, shape).copy()
+    use = (lam_b >= SERIES_MIN_LAMBDA) & np.isfinite(value) & np.isfinite(derivative)
+    if not use.any():
+        return None
+    return value, derivative, use
 
 
 def _parts(
