@@ -299,9 +299,11 @@ case = parse_case({"title": "memory cap", "magnetic_field": {"B": 0.1}, "species
                    "scan": {"k": {"start": 0.5, "stop": 3.0, "points": 2}},
                    "units": {"frequency": "cyclotron:e", "length": "gyroradius:e"},
                    "search": {"real": [1.05, 3.95], "imag": [-0.05, 0.05]}}, "<mem>")
-for k in (0.5, 3.0):
-    s = survey(case, k)
-    assert s.complete, s.notes
+for model in ("electrostatic", "electromagnetic"):
+    data = dict(case.raw, wave={"model": model, "angle": 90.0})
+    for k in (0.5, 3.0):
+        s = survey(parse_case(data, "<mem>"), k)
+        assert s.complete, s.notes
 print("ok", len(s.values))
 """
 
@@ -310,8 +312,9 @@ print("ok", len(s.values))
 @pytest.mark.parametrize("mass", [4.002602, 39.948, 1e5, 1e9, 1e12])
 def test_any_ion_mass_runs_under_a_2_gb_address_space_cap(mass):
     """The issue's failures (MemoryError at 1e5 u, 24 GB at 1e9 u): parse + survey at the
-    first and last k in a subprocess whose address space is capped at 2 GiB with
-    resource.setrlimit(RLIMIT_AS) (virtual memory, a stricter cap than resident)."""
+    first and last k, electrostatic and electromagnetic, in a subprocess whose address
+    space is capped at 2 GiB with resource.setrlimit(RLIMIT_AS) (virtual memory, a
+    stricter cap than resident)."""
     import subprocess
     import sys
 
@@ -432,3 +435,69 @@ def test_window_edge_on_a_harmonic_of_no_weight_is_surveyed():
     off = survey(case, 0.1, box=(3.0 - 1e-7, 3.5, -0.05, 0.05))
     assert on.complete and off.complete, on.notes
     assert on.count == off.count
+
+
+# --------------------------------------------------------- electromagnetic, k∥ = 0
+@pytest.mark.parametrize("lam", [1e2, 1e3, 1e4])
+def test_em_series_matches_the_harmonic_sum(lam):
+    """The tensor from the moments of Γ_n and Γ_n' (em_magnetized._series_parts) against
+    the builders' own harmonic sums where both converge (drifting, anisotropic species;
+    real and complex ω, |ζ| ≥ 16): plain χ and dχ/dω, scaled S to 1e-12 of the largest
+    entry, dS/dω to 1e-9 (the sums' rounding grows with their 10√λ terms)."""
+    from kinroots.physics.models import _harmonics
+
+    sp = _species(M_PROTON, drift=2e4, t_par=2.0 * TEMPERATURE)
+    om_c = abs(sp.cyclotron_frequency(B_FIELD))
+    k_perp = math.sqrt(2 * lam) * om_c / sp.thermal_speed_perp
+    kw = k_perp * sp.thermal_speed_perp
+    om = kw * np.array([16.0, 16.0 + 0.5j, 30.0, 100.0 - 3j, 1e3 + 1e2j]) + 0.37 * om_c
+    cases = [
+        (em_magnetized.susceptibility(om, sp, k_par=0.0, k_perp=k_perp, B=B_FIELD),
+         lambda o, st, p: em_magnetized._tensor_parts(o, st, p, sp), 1e-12),
+        (em_magnetized.scaled_susceptibility(om, sp, k_par=0.0, k_perp=k_perp, B=B_FIELD,
+                                             omega_ref=1e9),
+         lambda o, st, p: em_magnetized._scaled_parts(o, st, p, sp, 1e9), 1e-9),
+    ]
+    for got, parts, dtol in cases:
+        ref = _harmonics.evaluate(om, sp, k_par=0.0, k_perp=k_perp, B=B_FIELD, tol=1e-14,
+                                  model="em_magnetized", tail=(3, 3), parts=parts)
+        assert got.harmonics == 0 and ref.harmonics > 50
+        scale = np.abs(ref.value).max(axis=(1, 2))[:, None, None]
+        dscale = np.abs(ref.derivative).max(axis=(1, 2))[:, None, None]
+        assert np.all(np.abs(got.value - ref.value) <= 1e-12 * scale)
+        assert np.all(np.abs(got.derivative - ref.derivative) <= dtol * dscale)
+
+
+@pytest.mark.parametrize("lam", [10.0, 999.0, 1e3, 1e5, 1e12])
+def test_gamma0_slope_against_mpmath(lam):
+    """Γ_0' = Γ_1 − Γ_0 (A&S 9.6.26 at n = 0), without the cancellation of the difference
+    at large λ (asymptotic form, A&S 9.7.1), against mpmath besseli at 30 digits."""
+    from kinroots.physics.models._harmonics import gamma0_slope
+
+    with mp.workdps(30):
+        x = mp.mpf(lam)
+        ref = mp.exp(-x) * (mp.besseli(1, x) - mp.besseli(0, x))
+    got = gamma0_slope(np.array([lam + 0j]))[0]
+    assert abs(got / complex(ref) - 1) < (1e-13 if lam >= 1e3 else 1e-12 * lam)
+
+
+def test_em_bernstein_window_with_ions_of_any_mass():
+    """Electromagnetic model, the issue's window: 1e9 u ions give the roots of the case
+    without ions (shift ~ m_e/m_i below the tolerance) for at most 3x its D evaluations;
+    argon is complete at the same cost and excludes only the electron harmonics."""
+    def em_case(mass):
+        case = ebw_case(mass)
+        return parse_case(dict(case.raw, wave={"model": "electromagnetic", "angle": 90.0}),
+                          "<em>")
+
+    bare = survey(em_case(None), 1.0)
+    for mass in (1e9, ION_MASSES["argon"]):
+        heavy = survey(em_case(mass), 1.0)
+        assert heavy.complete, heavy.notes
+        assert heavy.evaluations <= 3 * bare.evaluations
+        assert function_at(em_case(mass), 1.0).excluded((1.05, 3.95, -0.05, 0.05)) == \
+            pytest.approx([2.0, 3.0], rel=1e-14)
+        if mass == 1e9:
+            got = sorted(z.real for z in heavy.values)
+            assert np.allclose(got, sorted(z.real for z in bare.values),
+                               rtol=10 * ROOT_RTOL, atol=0)

@@ -481,6 +481,150 @@ def reciprocal_off_poles(diff: np.ndarray, residue: np.ndarray, scale: np.ndarra
     return r
 
 
+#: |ω| / (|k⊥| w⊥) from which the k∥ = 0 moment series apply (|ζ| ≥ 16: their truncation
+#: and the harmonics they leave out are below e^{−ζ²} ≈ 1e-111).
+SERIES_MIN_ZETA = 16.0
+#: Terms ν_2 … ν_2M of the moment series (relative tail below 1e-19 at |ζ| = 16).
+SERIES_TERMS = 14
+#: λ from which the k∥ = 0 builders take χ from the moment series wherever they apply:
+#: the harmonic sum then has about 10√λ ≥ 100 terms per ω, the series a fixed 14, and
+#: they agree to the sum's rounding (tests/test_harmonic_poles.py).
+SERIES_MIN_LAMBDA = 100.0
+
+
+def scaled_moments(lam: np.ndarray, y: np.ndarray, terms: int = SERIES_TERMS
+                   ) -> tuple[list[np.ndarray], list[np.ndarray]]:
+    r"""ν_{2m} = μ_{2m} y^m and ∂ν_{2m}/∂λ for m = 0 … ``terms``, μ_{2m} = Σ_n n^{2m}Γ_n(λ).
+
+    Parameters
+    ----------
+    lam, y : ndarray of complex
+        λ and y = Ω²/ω², same shape.
+    terms : int
+        Largest m.
+
+    Returns
+    -------
+    nu, dnu : list of ndarray
+        ν_0 … ν_2M and their λ-derivatives at fixed y.
+
+    Notes
+    -----
+    Γ_n is the distribution of the difference of two Poisson(λ/2) numbers (Skellam,
+    J. R. Stat. Soc. 109, 296, 1946): ln Σ_n Γ_n eˢⁿ = λ(cosh s − 1) by A&S 9.6.33, so
+    every even cumulant is λ and every odd one 0, and the moments follow from the
+    cumulant recurrence μ_r = Σ_{i=1}^{r} C(r−1, i−1) κ_i μ_{r−i} (common practice),
+    here for ν directly (κ_{2i} y^i = λ y^i: no overflow at any λ), and differentiated
+    term by term for ∂ν/∂λ.  ν_2 = λy, ν_4 = (λ + 3λ²)y².
+    """
+    nu = [np.ones(lam.shape, dtype=complex)]
+    dnu = [np.zeros(lam.shape, dtype=complex)]
+    yi = [y**i for i in range(1, terms + 1)]
+    for m in range(1, terms + 1):
+        acc = np.zeros(lam.shape, dtype=complex)
+        dacc = np.zeros(lam.shape, dtype=complex)
+        for i in range(1, m + 1):
+            c = math.comb(2 * m - 1, 2 * i - 1)
+            acc += c * lam * yi[i - 1] * nu[m - i]
+            dacc += c * yi[i - 1] * (nu[m - i] + lam * dnu[m - i])
+        nu.append(acc)
+        dnu.append(dacc)
+    return nu, dnu
+
+
+def gamma0_slope(lam: np.ndarray) -> np.ndarray:
+    r"""Γ_0'(λ) = Γ_1(λ) − Γ_0(λ) without the cancellation of the difference at large λ.
+
+    Below |λ| = 1e3 from :func:`gamma_table`; above, from the asymptotic expansion
+    e^{−λ}I_ν(λ) ~ (2πλ)^{−1/2} Σ_k (−1)^k a_k(ν) λ^{−k}, a_k(ν) = Π_{i=1}^{k}(4ν² −
+    (2i − 1)²)/(k! 8^k) (A&S 9.7.1), differenced term by term (a_0 cancels exactly).
+    """
+    lam = np.asarray(lam, dtype=complex)
+    out = np.empty(lam.shape, dtype=complex)
+    big = np.abs(lam) >= 1e3
+    small = ~big
+    if small.any():
+        tab = gamma_table(lam[small], 1)
+        out[small] = tab[1] - tab[0]
+    if big.any():
+        x = lam[big]
+        acc = np.zeros(x.shape, dtype=complex)
+        a0 = a1 = 1.0
+        for k in range(1, 12):
+            a0 *= (0.0 - (2 * k - 1) ** 2) / (8.0 * k)
+            a1 *= (4.0 - (2 * k - 1) ** 2) / (8.0 * k)
+            acc += (-1) ** k * (a1 - a0) / x**k
+        out[big] = acc / np.sqrt(2.0 * np.pi * x)
+    return out
+
+
+def with_series(
+    omega: np.ndarray, species: Species, *, k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray, B: float, tail: tuple[int, ...],
+    series: Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]],
+    rest: Callable[[np.ndarray, Any, Any], Susceptibility],
+) -> Susceptibility | None:
+    """A k∥ = 0 builder's result with the moment series where it applies, else None.
+
+    Parameters
+    ----------
+    omega, species, k_par, k_perp, B
+        As for the builder.
+    tail : tuple of int
+        Trailing shape of one element's result.
+    series : callable
+        ``series(om, kperp)`` → value, derivative at 1-D arrays of elements (shape
+        ``(E,) + tail``), NaN where the series does not apply.
+    rest : callable
+        ``rest(om, k_par, k_perp)`` → the builder's harmonic sum at the other elements
+        (scalar k passed through, or 1-D arrays).
+
+    Returns
+    -------
+    Susceptibility or None
+        None unless k∥ = 0 everywhere, the species is collisionless and some element has
+        λ ≥ :data:`SERIES_MIN_LAMBDA` and |ω| ≥ :data:`SERIES_MIN_ZETA`·|k⊥|w⊥ (the
+        harmonic sum then serves alone).  ``harmonics`` is that of the harmonic sum at
+        the other elements, 0 if there are none.
+    """
+    kpar = np.asarray(k_par, dtype=complex)
+    if species.collision_frequency > 0.0 or B == 0 or np.any(kpar != 0):
+        return None
+    kperp = np.asarray(k_perp, dtype=complex)
+    om = np.asarray(omega, dtype=complex)
+    with np.errstate(all="ignore"):
+        omega_c = species.cyclotron_frequency(B)
+        wperp = species.thermal_speed_perp if species.temperature_perp > 0 else np.nan
+        lam = np.abs(kperp) ** 2 * wperp**2 / (2.0 * omega_c * omega_c)
+        if not np.any(lam >= SERIES_MIN_LAMBDA):
+            return None
+        shape = np.broadcast_shapes(om.shape, kpar.shape, kperp.shape)
+        om_b = np.broadcast_to(om, shape)
+        kperp_b = np.broadcast_to(kperp, shape)
+        cand = (np.broadcast_to(lam, shape) >= SERIES_MIN_LAMBDA) & np.isfinite(om_b) & (
+            np.abs(om_b) >= SERIES_MIN_ZETA * np.abs(kperp_b) * wperp)
+        if not cand.any():
+            return None
+        value = np.full(shape + tail, np.nan + 0j)
+        derivative = value.copy()
+        v, d = series(om_b[cand], kperp_b[cand])
+        value[cand] = v
+        derivative[cand] = d
+    axes = tuple(range(len(shape), len(shape) + len(tail)))
+    use = cand & np.all(np.isfinite(value), axis=axes) & np.all(np.isfinite(derivative),
+                                                                 axis=axes)
+    others = ~use
+    harmonics = 0
+    if others.any():
+        scalar = not is_array_k(k_par, k_perp)
+        sub = rest(om_b[others], k_par if scalar else np.broadcast_to(kpar, shape)[others],
+                   k_perp if scalar else kperp_b[others])
+        value[others] = np.asarray(sub.value).reshape((-1,) + tail)
+        derivative[others] = np.asarray(sub.derivative).reshape((-1,) + tail)
+        harmonics = sub.harmonics
+    return Susceptibility(value=value, derivative=derivative, harmonics=harmonics)
+
+
 def nan_susceptibility(shape: tuple[int, ...], harmonics: int) -> Susceptibility:
     """A result that is non-finite everywhere (bad input or harmonic overflow)."""
     nan = np.full(shape, np.nan + 0j)

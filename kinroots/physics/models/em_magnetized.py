@@ -7,18 +7,24 @@ index order x, y, z. SI throughout (ω in rad/s, k in 1/m, B in T, temperatures 
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from kinroots.physics.models._harmonics import (
+    SERIES_TERMS,
     BesselWeights,
     SpeciesSetup,
     evaluate,
     fixed_k_sum,
+    gamma0_slope,
     harmonic_sums,
     landau_sign,
     landau_z,
     reciprocal_off_poles,
+    scaled_moments,
     species_setup,
+    with_series,
 )
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
@@ -121,10 +127,20 @@ def susceptibility(
     from memory.
     D. G. Swanson, *Plasma Waves*, 2nd ed. (IOP, 2003), ch. 4, from memory.
     """
-    return evaluate(
-        omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="em_magnetized",
-        tail=(3, 3), parts=lambda om, setup, perp: _tensor_parts(om, setup, perp, species),
-    )
+    def rest(om: np.ndarray, kpar: Any, kperp: Any) -> Susceptibility:
+        return evaluate(
+            om, species, k_par=kpar, k_perp=kperp, B=B, tol=tol, model="em_magnetized",
+            tail=(3, 3), parts=lambda o, setup, perp: _tensor_parts(o, setup, perp, species),
+        )
+
+    def series(om: np.ndarray, kperp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        t, dt, *_ = _series_parts(om, kperp, species, B)
+        p = (species.plasma_frequency**2 / (om * om))[:, None, None]
+        return p * t, p * dt - (2.0 * p / om[:, None, None]) * t
+
+    out = with_series(omega, species, k_par=k_par, k_perp=k_perp, B=B, tail=(3, 3),
+                      series=series, rest=rest)
+    return rest(omega, k_par, k_perp) if out is None else out
 
 
 def _tensor_parts(
@@ -339,11 +355,20 @@ def scaled_susceptibility(
     ----------
     T. H. Stix, *Waves in Plasmas* (AIP, 1992), ch. 10–11, from memory.
     """
-    return evaluate(
-        omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="em_magnetized",
-        tail=(3, 3),
-        parts=lambda om, setup, perp: _scaled_parts(om, setup, perp, species, omega_ref),
-    )
+    def rest(om: np.ndarray, kpar: Any, kperp: Any) -> Susceptibility:
+        return evaluate(
+            om, species, k_par=kpar, k_perp=kperp, B=B, tol=tol, model="em_magnetized",
+            tail=(3, 3),
+            parts=lambda o, setup, perp: _scaled_parts(o, setup, perp, species, omega_ref),
+        )
+
+    def series(om: np.ndarray, kperp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        parts = _series_parts(om, kperp, species, B)
+        return _scale(parts, np.zeros_like(kperp), kperp, species, omega_ref)
+
+    out = with_series(omega, species, k_par=k_par, k_perp=k_perp, B=B, tail=(3, 3),
+                      series=series, rest=rest)
+    return rest(omega, k_par, k_perp) if out is None else out
 
 
 def _scaled_parts(
@@ -358,15 +383,20 @@ def _scaled_parts(
     """
     kpar, kperp, wpar, wperp = setup.k_par, setup.k_perp, setup.w_par, setup.w_perp
     V, omega_c, lam, w = setup.drift, setup.omega_c, setup.lam, setup.weights
-    k, cth, sth = _frame(kpar, kperp)
-    wp2 = species.plasma_frequency**2
     tau = species.temperature_perp / species.temperature_par
     if perpendicular:
-        core, dcore, h, dh, s33, ds33 = _perpendicular_parts(om, w, lam, kperp, omega_c, V,
-                                                             wpar, wperp, species)
+        parts = _perpendicular_parts(om, w, lam, kperp, omega_c, V, wpar, wperp, species)
     else:
-        core, dcore, h, dh, s33, ds33 = _oblique_parts(om, w, lam, kpar, kperp, omega_c,
-                                                       V, wpar, tau)
+        parts = _oblique_parts(om, w, lam, kpar, kperp, omega_c, V, wpar, tau)
+    return _scale(parts, kpar, kperp, species, omega_ref)
+
+
+def _scale(parts: _FrameParts, kpar: complex | np.ndarray, kperp: complex | np.ndarray,
+           species: Species, omega_ref: float) -> tuple[np.ndarray, np.ndarray]:
+    """S_s and dS_s/dω from the xyz parts (projected on the wave frame and scaled)."""
+    core, dcore, h, dh, s33, ds33 = parts
+    k, cth, sth = _frame(kpar, kperp)
+    wp2 = species.plasma_frequency**2
     value = _project(core, h, cth, sth)
     deriv = _project(dcore, dh, cth, sth)
     s_t = wp2 / omega_ref**2
@@ -504,6 +534,68 @@ def _perpendicular_parts(
     e_n2dg, de_n2dg = dot(dn, n2dg), dot(ddn, n2dg)
     e_yy, de_yy = dot(dn, ng - 2.0 * lam * dg), dot(ddn, ng - 2.0 * lam * dg)
     e_zz, de_zz = dot(dn, n2gam), dot(ddn, n2gam)
+    return _perpendicular_assemble(
+        om, (e_ng, de_ng, e_n2dg, de_n2dg, e_yy, de_yy, e_zz, de_zz), sums.total(w.gamma),
+        dg0, lam, kperp, omega_c, V, beta)
+
+
+def _series_parts(om: np.ndarray, kperp: np.ndarray, species: Species, B: float
+                  ) -> _FrameParts:
+    r"""The k∥ = 0 parts of :func:`_perpendicular_parts` from the moments of Γ_n.
+
+    For 1-D arrays ω, k⊥ with |ω| ≥ ``SERIES_MIN_ZETA``·|k⊥|w⊥ (NaN where an input is not
+    finite).  Each sum E[w] = Σ_{n≥1} w_n/(ω² − n²Ω²) is expanded as
+    (1/ω²) Σ_j y^j Σ_{n≥1} n^{2j} w_n, y = Ω²/ω², and the inner sums are moments of Γ_n
+    and of Γ_n' = ∂Γ_n/∂λ (:func:`~kinroots.physics.models._harmonics.scaled_moments`,
+    ν_{2m} = μ_{2m}y^m, ν'_{2m} = ∂ν_{2m}/∂λ, symmetric in n, so Σ_{n≥1} = half of Σ_n)::
+
+        w = n g_n = n²Γ_n/λ:    y^j S_j = ν_{2j+2}/(2λy)
+        w = n²Γ_n':             y^j S_j = ν'_{2j+2}/(2y)
+        w = n g_n − 2λΓ_n':     y^j S_j = ν_{2j+2}/(2λy) − λν'_{2j}   (j ≥ 1),
+                                S_0 = 1/2 + λΓ_0'   (Σ_n Γ_n' = 0)
+        w = n²Γ_n:              y^j S_j = ν_{2j+2}/(2y)
+
+    and dE/dω = −(1/ω³) Σ_j (2j + 2) y^j S_j; Σ_n Γ_n = 1 (A&S 9.6.33 at t = 1).  Accuracy
+    as for :func:`kinroots.physics.models.es_magnetized.perpendicular_series`.
+    """
+    omega_c = species.cyclotron_frequency(B)
+    wpar, wperp, V = species.thermal_speed_par, species.thermal_speed_perp, species.drift
+    with np.errstate(all="ignore"):
+        lam = kperp * kperp * wperp * wperp / (2.0 * omega_c * omega_c)
+        y = (omega_c * omega_c) / (om * om)
+        nu, dnu = scaled_moments(lam, y)
+        dg0 = gamma0_slope(lam)
+        ly = lam * y
+        sums = []
+        for j_terms in (
+            [nu[j + 1] / (2.0 * ly) for j in range(SERIES_TERMS)],
+            [dnu[j + 1] / (2.0 * y) for j in range(SERIES_TERMS)],
+            [0.5 + lam * dg0] + [nu[j + 1] / (2.0 * ly) - lam * dnu[j]
+                                 for j in range(1, SERIES_TERMS)],
+            [nu[j + 1] / (2.0 * y) for j in range(SERIES_TERMS)],
+        ):
+            sums.append(np.sum(j_terms, axis=0) / (om * om))
+            sums.append(-np.sum([(2 * j + 2) * a for j, a in enumerate(j_terms)], axis=0)
+                        / (om * om * om))
+        beta = (wpar * wpar + 2.0 * V * V) / (wperp * wperp)
+        e_sums: _PerpendicularSums = (sums[0], sums[1], sums[2], sums[3], sums[4], sums[5],
+                                      sums[6], sums[7])
+        return _perpendicular_assemble(om, e_sums, 1.0, dg0, lam, kperp, omega_c, V, beta)
+
+
+#: The sums Σ_{n≥1} w_n/(ω² − n²Ω²) and their ω-derivatives of :func:`_perpendicular_parts`
+#: for the weights w_n = n g_n, n²Γ_n', n g_n − 2λΓ_n', n²Γ_n (value, derivative pairs).
+_PerpendicularSums = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray,
+                           np.ndarray, np.ndarray, np.ndarray]
+
+
+def _perpendicular_assemble(
+    om: np.ndarray, e_sums: _PerpendicularSums, gamma_total: Any, dg0: Any,
+    lam: complex | np.ndarray, kperp: complex | np.ndarray, omega_c: float, V: float,
+    beta: float,
+) -> _FrameParts:
+    """The k∥ = 0 parts from the sums ``e_sums``, Σ_n Γ_n (``gamma_total``) and Γ_0'."""
+    e_ng, de_ng, e_n2dg, de_n2dg, e_yy, de_yy, e_zz, de_zz = e_sums
     o2 = om * om
     t = np.empty(om.shape + (3, 3), dtype=complex)
     dt = np.empty_like(t)
@@ -521,7 +613,7 @@ def _perpendicular_parts(
     dt[..., 1, 2] = 2j * kperp * V * omega_c * de_n2dg
     t[..., 2, 1] = -t[..., 1, 2]
     dt[..., 2, 1] = -dt[..., 1, 2]
-    t[..., 2, 2] = -sums.total(w.gamma) - 2.0 * beta * omega_c**2 * e_zz
+    t[..., 2, 2] = -gamma_total - 2.0 * beta * omega_c**2 * e_zz
     dt[..., 2, 2] = -2.0 * beta * omega_c**2 * de_zz
     h = np.stack([-2.0 * kperp * om * e_ng, -2j * kperp * omega_c * e_n2dg,
                   -2.0 * kperp * kperp * V * e_ng], axis=-1)

@@ -7,11 +7,14 @@ SI throughout (ω in rad/s, k in 1/m, B in T, temperatures of
 
 from __future__ import annotations
 
-import math
+from typing import Any
 
 import numpy as np
 
 from kinroots.physics.models._harmonics import (
+    SERIES_MIN_LAMBDA,
+    SERIES_MIN_ZETA,
+    SERIES_TERMS,
     SpeciesSetup,
     evaluate,
     fixed_k_sum,
@@ -19,7 +22,9 @@ from kinroots.physics.models._harmonics import (
     is_array_k,
     landau_sign,
     reciprocal_off_poles,
+    scaled_moments,
     species_setup,
+    with_series,
 )
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
@@ -124,33 +129,19 @@ def susceptibility(
             raise ValueError("array k is not supported for collisional species")
         return krook.magnetized_susceptibility(omega, species, k_par=complex(k_par),
                                                k_perp=complex(k_perp), B=B, tol=tol)
-    series = _series_part(omega, species, k_par=k_par, k_perp=k_perp, B=B)
-    if series is None:
-        return evaluate(
-            omega, species, k_par=k_par, k_perp=k_perp, B=B, tol=tol, model="es_magnetized",
-            tail=(), parts=lambda om, setup, perp: _parts(om, setup, perp, species),
-        )
-    value, derivative, use = series
-    if use.all():
-        return Susceptibility(value=value, derivative=derivative, harmonics=0)
-    rest = ~use
-    scalar = not is_array_k(k_par, k_perp)
-    kpar_r = k_par if scalar else np.broadcast_to(np.asarray(k_par), use.shape)[rest]
-    kperp_r = k_perp if scalar else np.broadcast_to(np.asarray(k_perp), use.shape)[rest]
-    om_r = np.broadcast_to(np.asarray(omega, dtype=complex), use.shape)[rest]
-    sub = evaluate(om_r, species, k_par=kpar_r, k_perp=kperp_r, B=B, tol=tol,
-                   model="es_magnetized", tail=(),
-                   parts=lambda om, setup, perp: _parts(om, setup, perp, species))
-    value[rest] = sub.value
-    derivative[rest] = sub.derivative
-    return Susceptibility(value=value, derivative=derivative, harmonics=sub.harmonics)
 
+    def rest(om: np.ndarray, kpar: Any, kperp: Any) -> Susceptibility:
+        return evaluate(om, species, k_par=kpar, k_perp=kperp, B=B, tol=tol,
+                        model="es_magnetized", tail=(),
+                        parts=lambda o, setup, perp: _parts(o, setup, perp, species))
 
-#: |ω| / (|k⊥| w⊥) from which :func:`perpendicular_series` is used (|ζ| ≥ 16: its
-#: truncation and the harmonics it leaves out are below e^{−ζ²} ≈ 1e-111).
-SERIES_MIN_ZETA = 16.0
-#: Terms ν_2 … ν_2M of :func:`perpendicular_series` (relative tail below 1e-19 at |ζ| = 16).
-SERIES_TERMS = 14
+    def series(om: np.ndarray, kperp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        res = perpendicular_series(om, species, k_perp=kperp, B=B)
+        return res.value, res.derivative
+
+    out = with_series(omega, species, k_par=k_par, k_perp=k_perp, B=B, tail=(),
+                      series=series, rest=rest)
+    return rest(omega, k_par, k_perp) if out is None else out
 
 
 def perpendicular_series(
@@ -186,12 +177,9 @@ def perpendicular_series(
 
         χ_s = −(ω_p²/(λΩ²)) Σ_{m≥1} ν_{2m},   ν_{2m} = μ_{2m} y^m,  y = Ω²/ω²,
 
-    μ_{2m} = Σ_n n^{2m}Γ_n(λ) the moments of the weights Γ_n.  Γ_n is the distribution of
-    the difference of two Poisson(λ/2) numbers (Skellam, J. R. Stat. Soc. 109, 296, 1946):
-    ln Σ_n Γ_n eˢⁿ = λ(cosh s − 1) by A&S 9.6.33, so every even cumulant is λ and every odd
-    one 0, and the moments follow from the cumulant recurrence
-    μ_r = Σ_{i=1}^{r} C(r−1, i−1) κ_i μ_{r−i} (common practice), here for ν directly
-    (κ_i y^{i/2} = λ y^{i/2}, no overflow).  ν_2 = λy gives the cold term −ω_p²/ω², ν_4 =
+    μ_{2m} = Σ_n n^{2m}Γ_n(λ) the moments of the weights Γ_n (Skellam cumulants,
+    :func:`~kinroots.physics.models._harmonics.scaled_moments`).  ν_2 = λy gives the
+    cold term −ω_p²/ω², ν_4 =
     (λ + 3λ²)y² its thermal correction 3k⊥²T⊥/(mω²) (the unmagnetized large-ζ limit, up to
     the magnetization term λy²).  dν_{2m}/dω = −2m ν_{2m}/ω.  The series is asymptotic:
     its terms fall like (2m − 1)/(2ζ²), ζ = ω/(k⊥w⊥), and the harmonics it cannot
@@ -207,15 +195,7 @@ def perpendicular_series(
         om, kp = np.broadcast_arrays(om, kp)
         lam = kp * kp * wperp * wperp / (2.0 * omega_c * omega_c)
         y = (omega_c * omega_c) / (om * om)
-        # ν_{2m} for m = 1 … M from the even-cumulant recurrence, all elements at once
-        nu = [np.ones(om.shape, dtype=complex)]  # ν_0 = 1
-        ly = [lam * y**i for i in range(1, SERIES_TERMS + 1)]  # κ_{2i} y^i
-        for m in range(1, SERIES_TERMS + 1):
-            r = 2 * m
-            acc = np.zeros(om.shape, dtype=complex)
-            for i in range(1, m + 1):
-                acc += math.comb(r - 1, 2 * i - 1) * ly[i - 1] * nu[m - i]
-            nu.append(acc)
+        nu, _ = scaled_moments(lam, y)
         total = np.sum(nu[1:], axis=0)
         weighted = np.sum([m * nu[m] for m in range(1, SERIES_TERMS + 1)], axis=0)
         c = species.plasma_frequency**2 / (lam * omega_c * omega_c)
@@ -226,40 +206,6 @@ def perpendicular_series(
         value = np.where(bad, np.nan + 0j, value)
         derivative = np.where(bad, np.nan + 0j, derivative)
     return Susceptibility(value=value, derivative=derivative, harmonics=0)
-
-
-#: λ from which :func:`susceptibility` takes χ at k∥ = 0 from :func:`perpendicular_series`
-#: wherever that applies (|ω| ≥ SERIES_MIN_ZETA·|k⊥|w⊥): the harmonic sum then has about
-#: 10√λ ≥ 100 terms per ω, the series a fixed 14, and they agree to the sum's rounding
-#: (below 1e-13 relative, tests/test_harmonic_poles.py).
-SERIES_MIN_LAMBDA = 100.0
-
-
-def _series_part(
-    omega: np.ndarray, species: Species, *, k_par: complex | np.ndarray,
-    k_perp: complex | np.ndarray, B: float,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
-    """χ_s, dχ_s/dω from :func:`perpendicular_series` and the mask where they are used
-    (k∥ = 0, λ ≥ :data:`SERIES_MIN_LAMBDA`, the series applies), shaped like the
-    broadcast of the inputs; None where no element qualifies (the harmonic sum serves)."""
-    kpar = np.asarray(k_par, dtype=complex)
-    if species.collision_frequency > 0.0 or B == 0 or np.any(kpar != 0):
-        return None
-    kperp = np.asarray(k_perp, dtype=complex)
-    with np.errstate(all="ignore"):
-        omega_c = species.cyclotron_frequency(B)
-        lam = np.abs(kperp) ** 2 * species.thermal_speed_perp**2 / (2.0 * omega_c * omega_c)
-    if not np.any(lam >= SERIES_MIN_LAMBDA):
-        return None
-    res = perpendicular_series(omega, species, k_perp=kperp, B=B)
-    shape = np.broadcast_shapes(np.shape(omega), kpar.shape, kperp.shape)
-    lam_b = np.broadcast_to(lam, shape)
-    value = np.broadcast_to(res.value, shape).copy()
-    derivative = np.broadcast_to(res.derivative, shape).copy()
-    use = (lam_b >= SERIES_MIN_LAMBDA) & np.isfinite(value) & np.isfinite(derivative)
-    if not use.any():
-        return None
-    return value, derivative, use
 
 
 def _parts(
