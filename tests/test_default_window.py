@@ -96,7 +96,8 @@ DEFAULT_WINDOW_CASES = [
     "core_halo_electrons.toml", "hydrogen_cold_ions.toml", "ion_bernstein_perpendicular.toml",
     "weibel_hot_electrons.toml", "sweep_proton_anisotropy.toml", "space_protons_alphas.toml",
     "magnetized_oblique_electron_waves.toml", "solar_wind_kappa_langmuir.toml",
-    "whistler_anisotropy_solar_wind.toml",
+    "whistler_anisotropy_solar_wind.toml", "counterstreaming_filamentation.toml",
+    "lab_launched_ion_acoustic.toml",
 ]
 
 

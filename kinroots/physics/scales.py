@@ -62,18 +62,26 @@ def characteristic_frequencies(plasma: Plasma, k: float, angle_deg: float,
 
     Notes
     -----
-    Per species s (w = √(2T/m) from the larger of T∥, T⊥, the kinetic temperature for a
-    kappa species): ω_ps; |Ω_s| and the harmonics n|Ω_s| its Bessel weights reach (n up to
-    k⊥w⊥s/|Ω_s|, at least 1, at most 3) when B ≠ 0; a drifting species' Doppler
-    frequency k∥V_s with its spread k w_s; the ion sound frequency
-    k c_s/(1 + k²λ_De²)^½, c_s² = Z T_e/m_i (Stix 1992 §8-5, from memory) of each ion
-    species.  Of the plasma: ω_p = (Σ ω_ps²)^½ and the Bohm–Gross frequency
-    (ω_p² + 3/2 (k w_e)²)^½ of the lightest species (Stix 1992 §8-2, from memory);
-    electromagnetic: the light wave (ω_p² + k²c²)^½; magnetized: the upper-hybrid
-    frequency (ω_pe² + Ω_e²)^½, the R cutoff (|Ω_e| + (Ω_e² + 4ω_p²)^½)/2 (Stix 1992
-    §1-4), the Alfvén frequency k v_A and the whistler branch of Hall MHD,
-    k v_A ((1 + (k d_i/2)²)^½ + k d_i/2) / (1 + k² d_e²) (d_i = v_A/Ω_i of the ion species
-    with the largest mass density, d_e = c/ω_pe; common practice).
+    Per species s (w = √(2T/m) from the larger of T∥, T⊥; the kinetic temperature for
+    a kappa species):
+
+    * ω_ps (electrons; every species when B = 0: a magnetized ion species oscillates at
+      the lower-hybrid frequency and, along B, at its ion sound frequency, which
+      saturates at ω_pi);
+    * when B ≠ 0, |Ω_s| and the harmonics n|Ω_s| its Bessel weights reach (n up to
+      k⊥w⊥s/|Ω_s|, at least 1, at most 3);
+    * a drifting species' Doppler frequency k∥V_s with its spread k w_s;
+    * an ion species' sound frequency k c_s/(1 + k²λ_De²)^½, c_s² = Z T_e/m_i
+      (Stix 1992 §8-5, from memory).
+
+    Of the plasma: the Bohm–Gross frequency (ω_p² + 3/2 (k w)²)^½ of the lightest
+    species, ω_p = (Σ ω_ps²)^½ (Stix 1992 §8-2, from memory); electromagnetic: the light
+    wave (ω_p² + k²c²)^½; magnetized: the upper-hybrid frequency (ω_pe² + Ω_e²)^½, the
+    lower-hybrid frequency (:attr:`kinroots.physics.plasma.Plasma.lower_hybrid_frequency`),
+    the R cutoff (|Ω_e| + (Ω_e² + 4ω_p²)^½)/2 (Stix 1992 §1-4), the Alfvén frequency
+    k v_A and the whistler branch of Hall MHD, k v_A ((1 + (k d_i/2)²)^½ + k d_i/2) /
+    (1 + k² d_e²) (d_i = v_A/Ω_i of the ion species with the largest mass density,
+    d_e = c/ω_pe; common practice).
     """
     theta = math.radians(angle_deg)
     kpar = k * math.cos(theta)
@@ -82,7 +90,10 @@ def characteristic_frequencies(plasma: Plasma, k: float, angle_deg: float,
     lightest = None
     for s in plasma.species:
         wp2 += s.plasma_frequency**2
-        out.append(Scale(f"plasma frequency of {s.name}", s.plasma_frequency))
+        if s.is_electron or not plasma.magnetized:
+            # a magnetized ion species oscillates at the lower-hybrid frequency (below)
+            # and, along B, at its ion sound frequency, which saturates at omega_pi
+            out.append(Scale(f"plasma frequency of {s.name}", s.plasma_frequency))
         if plasma.magnetized:
             out.append(Scale(f"cyclotron frequency of {s.name}",
                              abs(s.cyclotron_frequency(plasma.B))))
@@ -119,6 +130,9 @@ def characteristic_frequencies(plasma: Plasma, k: float, angle_deg: float,
         if electrons:
             wce = max(abs(s.cyclotron_frequency(plasma.B)) for s in electrons)
             out.append(Scale("upper-hybrid frequency", math.sqrt(wpe2 + wce * wce)))
+        lh = plasma.lower_hybrid_frequency
+        if lh is not None:
+            out.append(Scale("lower-hybrid frequency", lh))
             if electromagnetic:
                 out.append(Scale("R cutoff", 0.5 * (wce + math.sqrt(wce * wce + 4.0 * wp2))))
         va = plasma.alfven_speed

@@ -268,16 +268,28 @@ def _choose_window(case: Case) -> WindowChoice:
         return bool(res.complete)
 
     failed = [k for k in probes if not look(k, -depth, top)]
+    for shallower in (0.25 * depth, 0.0625 * depth, -0.0625 * depth):
+        # damped roots crowding the bottom edge (and the outward shift of an edge through
+        # them into the overflow region): raise the bottom edge, at last above the axis
+        if not failed:
+            break
+        for k in failed:
+            best.pop(k, None)
+        failed = [k for k in failed if not look(k, -shallower, top)]
+        notes.append(f"the bottom edge was raised to Im omega = {-shallower:.3g}: a survey "
+                     f"reaching {-depth:.3g} could not be completed there")
+        depth = shallower
     if failed:
         notes.append("the first survey (Im omega from " f"{-depth:.3g}) at k = "
                      + ", ".join(f"{k:g}" for k in failed) + " could not be completed")
+    raised = depth < min(FIRST_DEPTH * span, cap)
     grow = max(best.values(), default=-math.inf)
     if grow > 0.8 * top:
         new_top = 2.0 * grow
         for k in probes:
             look(k, top, new_top)
         top = new_top
-    while depth < cap and any(k not in best for k in probes):
+    while not raised and depth < cap and any(k not in best for k in probes):
         deeper = min(DEEPEN * depth, cap)
         failed = [k for k in probes if k not in best and not look(k, -deeper, -depth)]
         if failed:
@@ -286,7 +298,7 @@ def _choose_window(case: Case) -> WindowChoice:
                          + ", ".join(f"{k:g}" for k in failed) + " could not be completed")
             break
         depth = deeper
-    if best:
+    if best and not raised:
         depth = min(cap, max(depth if any(k not in best for k in probes)
                              else min(FIRST_DEPTH * span, cap),
                              -DEPTH_MARGIN * min(best.values())))
@@ -301,7 +313,7 @@ def _choose_window(case: Case) -> WindowChoice:
     empty = [k for k in probes if k not in best]
     why_imag = (f"Im omega from {-depth:.4g} ({GROWING_FLOOR:g} x the smallest of the "
                 "growth rates of the fastest-growing roots at the probe k = "
-                + ", ".join(f"{k:g}" for k in probes) + ", where every probe has one"
+                + ", ".join(f"{k:g}" for k in probes) + ", where every probe has one)"
                 if growing else
                 f"Im omega from {-depth:.4g} (the least-damped root at the probe k = "
                 + ", ".join(f"{k:g}" for k in probes)
