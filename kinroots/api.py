@@ -29,6 +29,7 @@ if TYPE_CHECKING:
 
     from kinroots.physics.dispersion import Dispersion
     from kinroots.roots import RootResult, SurveyResult
+    from kinroots.study.problem import WindowChoice
     from kinroots.study.solve import Solution as _StudySolution
 
 __all__ = [
@@ -126,6 +127,14 @@ class RootSet:
     case: Case
     k: float
     survey: SurveyResult = field(repr=False)
+
+    @property
+    def search_window(self) -> WindowChoice:
+        """The window surveyed and whether kinroots chose it from the plasma
+        (:func:`kinroots.study.problem.window_choice`; summary.json ``search_window``)."""
+        from kinroots.study.problem import window_choice
+
+        return window_choice(self.case)
 
     @property
     def roots(self) -> list[RootResult]:
@@ -246,6 +255,14 @@ class Solution:
 
     def __setstate__(self, state: dict[str, Any]) -> None:
         self.__dict__.update(state)
+
+    @property
+    def search_window(self) -> WindowChoice:
+        """The window used and whether kinroots chose it from the plasma
+        (:func:`kinroots.study.problem.window_choice`; summary.json ``search_window``)."""
+        from kinroots.study.problem import window_choice
+
+        return window_choice(self.result.case)
 
     def rows(self) -> list[dict[str, Any]]:
         """The branches.csv rows, branch by branch, k increasing."""

@@ -64,6 +64,11 @@ def test_a_case_without_search_gets_a_window_recorded_and_printed(tmp_path):
     assert fixed.raw["search"] == {"real": list(choice.real), "imag": list(choice.imag)}
     assert window_choice(fixed).chosen
 
+    import kinroots
+
+    assert kinroots.solve(bare).search_window.real == choice.real  # same rule, same window
+    assert kinroots.roots(case, 0.3).search_window is choice  # cached on the case
+
     path = tmp_path / "bare.toml"
     text = (CASES / "hydrogen_discharge.toml").read_text()
     head, _, tail = text.partition("[search]")
