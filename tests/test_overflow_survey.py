@@ -1,5 +1,6 @@
 """Windows where |D| exceeds double precision (issue 15): the survey scales D by a
-constant 2^-N (same zeros, same D'/D) chosen from an overflow-free log|D|."""
+constant 2^-N (same zeros, same D'/D) chosen from an overflow-free log|D|; the Landau
+exponentials are carried with a common scale where a single χ_s overflows."""
 
 from __future__ import annotations
 
@@ -136,3 +137,97 @@ def test_scaled_d_matches_mpmath_where_double_d_overflows(weibel) -> None:
     for j in np.flatnonzero(np.isfinite(plain)):  # D'/D does not depend on the scale
         assert abs(dscaled[j] / scaled[j] - dplain[j] / plain[j]) <= 1e-13 * abs(
             dplain[j] / plain[j])
+
+
+# Ion acoustic with hot ions (T_i = T_e), electrostatic: at k λ_De = 0.5 the protons'
+# k w_i is about 0.0165 ω_pe, so at Im ω = −0.45 ω_pe Im ζ_i ≈ −27 and the protons' own
+# χ_i ≈ exp(ζ_i²) is near 1e318: it overflows before any sum is formed.
+HOT_IONS = """
+title = "hot-ion ion acoustic, window deep below the real axis"
+[[species]]
+name = "e"
+charge = -1
+mass = "electron"
+density = 1.0e18
+temperature = 100.0
+[[species]]
+name = "H+"
+charge = 1
+mass = "proton"
+density = 1.0e18
+temperature = 100.0
+[wave]
+model = "electrostatic"
+angle = 0.0
+[scan]
+k = { start = 0.5, stop = 0.6, points = 2 }
+[units]
+frequency = "plasma:e"
+length = "debye:e"
+[search]
+real = [-0.1, 0.1]
+imag = [-0.45, 0.05]
+"""
+
+
+def _es_d(case, k_hat: float, w: mp.mpc) -> mp.mpc:
+    """ε_L = 1 + Σ_s (2ω_ps²/(k²w_s²))(1 + ζ_s Z(ζ_s)), ζ_s = ω/(k w_s), w_s² = 2T_s/m_s
+    (unmagnetized Maxwellians; Fried & Conte 1961; T. H. Stix, *Waves in Plasmas*, 1992,
+    ch. 8, from memory), at normalized ω = w, mpmath throughout."""
+    k = mp.mpf(k_hat) / case.units.length_unit
+    om = mp.mpc(w) * case.units.omega_unit
+    d = mp.mpf(1)
+    for s in case.plasma.species:
+        ws = mp.sqrt(2 * mp.mpf(s.temperature_par) * EV / s.mass)
+        zeta = om / (k * ws)
+        d += 2 * mp.mpf(s.plasma_frequency) ** 2 / (k * ws) ** 2 * (1 + zeta * _z(zeta))
+    return d
+
+
+@pytest.fixture(scope="module")
+def hot_ions(tmp_path_factory):
+    path = tmp_path_factory.mktemp("hot") / "hot_ions.toml"
+    path.write_text(HOT_IONS)
+    return load_case(path)
+
+
+def test_es_log_d_where_a_single_chi_overflows(hot_ions) -> None:
+    k = 0.5
+    disp = function_at(hot_ions, k).dispersion
+    w = np.array([0.01 - 0.45j, 0.05 - 0.44j, -0.003 - 0.2j, 0.02 + 0.01j, 0.3 - 0.1j])
+    chis = disp.susceptibilities(w * disp.omega_ref)
+    assert not np.isfinite(chis["H+"][0])  # the protons' χ alone overflows there
+    plain = disp(w * disp.omega_ref)[0]
+    logd = disp.log_value(w * disp.omega_ref)
+    for j, wj in enumerate(w):
+        ref = mp.log(_es_d(hot_ions, k, mp.mpc(wj)))
+        assert abs(complex(ref) - logd[j]) <= 1e-12 * abs(ref), (wj, logd[j], ref)
+        if np.isfinite(plain[j]):  # the plain value is unchanged where it is finite
+            assert abs(np.log(plain[j]) - logd[j]) <= 1e-13 * abs(logd[j])
+    assert float(mp.re(mp.log(_es_d(hot_ions, k, mp.mpc(w[0]))))) > 709  # beyond 1e308
+
+
+def test_es_window_where_a_single_chi_overflows(hot_ions) -> None:
+    k = 0.5
+    res = survey(hot_ions, k)
+    assert any("exceeds double precision" in n for n in res.notes), res.notes
+    assert not any("not finite" in n for n in res.notes), res.notes
+    assert res.complete and res.count == len(res.roots) >= 10
+    # the ion-acoustic family: symmetric under ω → −ω* (D(−ω*) = D(ω)* for a plasma
+    # without drifts, common practice)
+    values = [r.value for r in res.roots]
+    for v in values:
+        assert min(abs(u + v.conjugate()) for u in values) <= 1e-9 * abs(v)
+    for r in res.roots:
+        assert r.converged and r.verified
+        # mpmath's secant from the root converges to the same zero of ε_L
+        z = mp.findroot(lambda w: _es_d(hot_ions, k, w),
+                        (mp.mpc(r.value), mp.mpc(r.value) * (1 + 1e-7)))
+        assert abs(complex(z) - r.value) <= 1e-9 * abs(r.value), r.value
+    # the roots of the part of the window that double precision handles unscaled
+    narrow = survey(hot_ions, k, box=(-0.1, 0.1, -0.2, 0.05))
+    assert not any("exceeds double precision" in n for n in narrow.notes)
+    inside = [r.value for r in res.roots if r.value.imag > -0.2]
+    assert len(inside) == len(narrow.roots) == narrow.count
+    for v in narrow.values:
+        assert min(abs(u - v) for u in inside) <= 1e-9 * abs(v)

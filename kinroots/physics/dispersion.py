@@ -17,6 +17,7 @@ from typing import Any
 
 import numpy as np
 
+from kinroots.physics.models import krook
 from kinroots.physics.models.base import Builder, Susceptibility
 from kinroots.physics.models.species_models import (
     builder_for_plasma,
@@ -24,6 +25,7 @@ from kinroots.physics.models.species_models import (
     plain_species,
 )
 from kinroots.physics.plasma import C_LIGHT, EV, Plasma
+from kinroots.physics.zfunc import landau_shift
 
 __all__ = [
     "BLOCK_ELEMENTS",
@@ -163,6 +165,37 @@ def _ldexp_complex(z: np.ndarray, p: np.ndarray | int) -> np.ndarray:
     out.real = np.ldexp(z.real, p)
     out.imag = np.ldexp(z.imag, p)
     return out
+
+
+#: :meth:`Dispersion.scaled`: the largest Landau term is brought to about 2^_TOP_BITS
+#: (room below 2^1024 for coefficients and sums), shifts are multiples of _BITS_STEP,
+#: and a group whose result still overflows is retried that many times, 4 steps up.
+_TOP_BITS = 880
+_BITS_STEP = 64
+_BITS_RETRIES = 4
+
+
+def _exponent(z: np.ndarray) -> np.ndarray:
+    """Binary exponent e with max(|Re z|, |Im z|) < 2^e (−1100 for zeros)."""
+    big = np.maximum(np.abs(z.real), np.abs(z.imag))
+    _, e = np.frexp(np.where(np.isfinite(big) & (big > 0), big, 0.0))
+    return np.where(big > 0, e, -1100)
+
+
+def _combine_scaled(
+    reg: np.ndarray, dreg: np.ndarray, x: np.ndarray, dx: np.ndarray, bits: int,
+    electromagnetic: bool,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Mantissas and exponent of D = R + 2^bits X (scalar D) or det(R + 2^bits X) (3×3)."""
+    if not electromagnetic:
+        q = np.maximum(_exponent(reg), _exponent(x) + bits)
+        return (_ldexp_complex(reg, -q) + _ldexp_complex(x, bits - q),
+                _ldexp_complex(dreg, -q) + _ldexp_complex(dx, bits - q), q)
+    q = np.max(np.maximum(_exponent(reg), _exponent(x) + bits), axis=-1)[..., None]
+    m = _ldexp_complex(reg, -q) + _ldexp_complex(x, bits - q)
+    dm = _ldexp_complex(dreg, -q) + _ldexp_complex(dx, bits - q)
+    d, cof = _det_and_cofactors(m)
+    return d, np.sum(cof * dm, axis=(-2, -1)), np.sum(q[..., 0], axis=-1)
 
 
 def _nan_where(bad: np.ndarray, d: np.ndarray, dd: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -465,38 +498,173 @@ class Dispersion:
         return total, dtotal
 
     def _d_em(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """D = det S and dD/dω = Σ C_ij dS_ij/dω (C: cofactors of S), any finite ω.
+        """D = det S and dD/dω = Σ C_ij dS_ij/dω (C: cofactors of S), any finite ω."""
+        return _det_and_derivative(*self._scaled(omega))
 
-        With :attr:`log2_offset` ≠ 0 both are multiplied by 2^(−log2_offset), formed from
-        row-scaled S (:func:`_scaled_det_and_derivative`) so that det S itself never has
-        to fit in double precision.
+    def _landau_bits(self, om: np.ndarray) -> np.ndarray:
+        """Per ω, an estimate of the largest log₂|exp(−ζ²)| over the Landau exponentials
+        that are evaluated (Maxwellian parts, Im ζ < 0; 0 where there is none).
+
+        ζ = (ω − k∥V)/κ, κ² = k⊥²w⊥² + k∥²w∥² unmagnetized; ζ_n = (ω − k∥V − nΩ)/(k∥w∥)
+        for the kept harmonics |n| ≤ N nearest to ω when magnetized (the arguments of
+        the builders; D. G. Swanson, *Plasma Waves*, 2nd ed., 2003, ch. 4, from memory).
         """
-        if self.log2_offset == 0:
-            return _det_and_derivative(*self._scaled(omega))
-        d, dd, p = _scaled_det_and_derivative(*self._scaled(omega))
-        shift = p - self.log2_offset
-        return _ldexp_complex(d, shift), _ldexp_complex(dd, shift)
+        best = np.zeros(om.shape)
+        kpar, kperp = complex(self.k_par), complex(self.k_perp)
+        if self.magnetized and kpar == 0:
+            return best
+        for s in self.plasma.species:
+            if s.distribution != "maxwellian":
+                continue
+            n_max = self.harmonics.get(s.name, 0)
+            for _, part in s.component_species():
+                wpar2 = 2.0 * part.temperature_par * EV / part.mass
+                wperp2 = 2.0 * part.temperature_perp * EV / part.mass
+                x = om - kpar * part.drift
+                zetas = []
+                if self.magnetized:
+                    width = kpar * math.sqrt(wpar2)
+                    om_c = part.cyclotron_frequency(self.plasma.B)
+                    if om_c != 0 and n_max > 0:
+                        n0 = np.rint(x.real / om_c)
+                        for dn in (-1.0, 0.0, 1.0):
+                            n = np.clip(n0 + dn, -n_max, n_max)
+                            zetas.append((x - n * om_c) / width)
+                    else:
+                        zetas.append(x / width)
+                else:
+                    zetas.append(x / cmath.sqrt(kperp * kperp * wperp2 + kpar * kpar * wpar2))
+                for z in zetas:
+                    a = np.where(z.imag < 0.0, (z.imag - z.real) * (z.imag + z.real), 0.0)
+                    best = np.fmax(best, a)
+        return best / math.log(2.0)
 
-    def log2_magnitude(self, omega: Any) -> np.ndarray:
-        """log₂|D(ω)| without overflow (electromagnetic models; NaN where not finite).
+    def _shifted(self, om: np.ndarray, bits: float) -> tuple[np.ndarray, np.ndarray]:
+        """D-side quantities (ES: D, dD/dω; EM: S, dS/dω) with every Landau exponential
+        times 2^−bits (:func:`kinroots.physics.zfunc.landau_shift`)."""
+        with landau_shift(bits):
+            if self.electromagnetic:
+                return self._scaled(om)
+            chi, dchi = self._chi(om)
+            return 1.0 + chi, dchi
 
-        From row-scaled S (:func:`_scaled_det_and_derivative`): finite wherever every
-        entry of S is, although |D| itself may exceed double precision (a 3×3 determinant
-        of entries near 1e230 is near 1e690).  Used to choose :attr:`log2_offset`.
-        Electrostatic models: log₂|D| of the plain value.
+    def _scaled_block(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """:meth:`scaled` for one block of ω (complex array, errstate set by the caller)."""
+        if self.electromagnetic:
+            d, dd, p = _scaled_det_and_derivative(*self._scaled(om))
+        else:
+            chi, dchi = self._chi(om)
+            d, dd, p = 1.0 + chi, dchi, np.zeros(om.shape, dtype=int)
+        bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
+        if not np.any(bad) or krook.collisional(self.plasma):
+            return d, dd, p
+        idx = np.flatnonzero(bad)
+        pts = om.ravel()[idx]
+        # 2^bits takes the largest exponential term to about 2^_TOP_BITS; grouped by
+        # multiples of _BITS_STEP so that a few evaluations serve the whole block
+        want = self._landau_bits(pts) - _TOP_BITS
+        groups = np.maximum(_BITS_STEP, _BITS_STEP * np.ceil(want / _BITS_STEP))
+        d_out, dd_out, p_out = d.ravel().copy(), dd.ravel().copy(), p.ravel().copy()
+        for g in np.unique(groups):
+            sel = idx[groups == g]
+            sub = om.ravel()[sel]
+            reg, dreg = self._shifted(sub, math.inf)
+            bits = float(g)
+            for _ in range(_BITS_RETRIES):
+                big, dbig = self._shifted(sub, bits)
+                x, dx = big - reg, dbig - dreg  # the exponential part, times 2^-bits
+                dm, ddm, pm = _combine_scaled(reg, dreg, x, dx, int(bits),
+                                              self.electromagnetic)
+                if np.all(np.isfinite(dm) & np.isfinite(ddm)):
+                    break
+                bits += 4 * _BITS_STEP
+            d_out[sel], dd_out[sel], p_out[sel] = dm, ddm, pm
+        return d_out.reshape(om.shape), dd_out.reshape(om.shape), p_out.reshape(om.shape)
+
+    def scaled(self, omega: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """D and dD/dω as mantissas with a binary exponent per point, never overflowing.
+
+        Parameters
+        ----------
+        omega : array_like of complex
+            Frequencies [rad/s], any shape.
+
+        Returns
+        -------
+        D_m, dD_m : ndarray of complex
+            ``D = D_m·2^p`` and ``dD/dω = dD_m·2^p`` (same p, so ``dD_m/D_m = D'/D``).
+        p : ndarray of int
+            The binary exponent (0 for electrostatic points where D is finite).
+
+        Notes
+        -----
+        Where the plain evaluation is finite it is used as is (electromagnetic: the
+        row-scaled determinant of :func:`_scaled_det_and_derivative`).  Elsewhere the
+        Landau exponentials are carried with a common scale: the reflection
+        Z(ζ) = 2i√π exp(−ζ²) − Z(−ζ), Im ζ < 0 (NIST DLMF 7.4.3; Fried & Conte 1961)
+        makes every χ_s an affine function of the terms exp(−ζ_{s,n}²) with bounded
+        coefficients, so two evaluations, one with every such term times 2^−b
+        (:func:`kinroots.physics.zfunc.landau_shift`) and one without them, give the
+        regular part R and the exponential part X of each entry with entry = R + 2^b X.
+        b is chosen from the largest Re(−ζ²) at the point (:meth:`_landau_bits`).
+        Electrostatic D = 1 + Σχ_s is such an entry; electromagnetic D = det S is then
+        formed from rows of S scaled by exact powers of two (multilinearity of det in
+        the rows; G. H. Golub and C. F. Van Loan, *Matrix Computations*, 4th ed., 2013,
+        sec. 3.5.2).  Krook (collisional) species enter χ non-linearly: for them the
+        exponent carries only what row scaling gives, and points where an entry
+        overflows stay NaN.
         """
         om = np.asarray(omega, dtype=complex) * 1.0
+        d = np.empty(om.shape, dtype=complex)
+        dd = np.empty(om.shape, dtype=complex)
+        p = np.empty(om.shape, dtype=int)
+        fd, fdd, fp = d.ravel(), dd.ravel(), p.ravel()
+        flat = om.ravel()
         with np.errstate(all="ignore"):
-            if not self.electromagnetic:
-                return np.log2(np.abs(self(om)[0]))
-            out = np.empty(om.shape)
-            flat = om.ravel()
-            res = out.ravel()
             for i in range(0, flat.size, self.block):
-                d, _, p = _scaled_det_and_derivative(*self._scaled(flat[i : i + self.block]))
-                res[i : i + self.block] = np.log2(np.abs(d)) + p
-            out[~np.isfinite(out)] = np.nan
-            return out
+                blk = flat[i : i + self.block]
+                a, b, c = self._scaled_block(blk)
+                bad = ~np.isfinite(blk)
+                fd[i : i + self.block] = np.where(bad, np.nan + 0j, a)
+                fdd[i : i + self.block] = np.where(bad, np.nan + 0j, b)
+                fp[i : i + self.block] = np.where(bad, 0, c)
+        return d, dd, p
+
+    def log_value(self, omega: Any) -> np.ndarray:
+        """log D(ω) = ln|D| + i arg D, overflow-free, every model.
+
+        Parameters
+        ----------
+        omega : array_like of complex
+            Frequencies [rad/s], any shape.
+
+        Returns
+        -------
+        ndarray of complex
+            ln|D| (natural log) plus i times the principal argument of D, shaped like
+            ``omega``; finite wherever :meth:`scaled` is (also where |D| exceeds double
+            precision), −inf + i·arg at an exact zero, NaN where D is not defined.
+
+        Notes
+        -----
+        ln D = ln D_m + p ln 2 from :meth:`scaled`.  The argument principle needs only
+        Δ arg D along a contour and D'/D (P. Henrici, *Applied and Computational Complex
+        Analysis*, vol. 1, 1974, sec. 4.10), both free of the scale 2^p.
+        """
+        d, _, p = self.scaled(omega)
+        with np.errstate(all="ignore"):
+            return np.log(d) + p * math.log(2.0)
+
+    def log2_magnitude(self, omega: Any) -> np.ndarray:
+        """log₂|D(ω)| without overflow (NaN where D is not defined); from :meth:`scaled`.
+
+        Used by the survey to choose :attr:`log2_offset`.
+        """
+        d, _, p = self.scaled(omega)
+        with np.errstate(all="ignore"):
+            out = np.log2(np.abs(d)) + p
+        out[~np.isfinite(out)] = np.nan
+        return out
 
     # ------------------------------------------------------------------ public
     def __call__(self, omega: Any) -> tuple[np.ndarray, np.ndarray]:
@@ -523,7 +691,7 @@ class Dispersion:
 
     def _evaluate(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`__call__` for one block of ω (complex array)."""
-        if om.size <= 4 and self._species_sum is not None:
+        if om.size <= 4 and self._species_sum is not None and not self.log2_offset:
             # a few finite ω (survey polish, tracer steps): Python arithmetic, no numpy
             # error state or NaN masking needed (the species sum raises where they would be)
             scalar_sum = getattr(self._species_sum, "scalar_sum", None)
@@ -534,7 +702,11 @@ class Dispersion:
                 except (OverflowError, ZeroDivisionError, ValueError):
                     pass
         with np.errstate(all="ignore"):
-            if self.electromagnetic:
+            if self.log2_offset:
+                d, dd, p = self._scaled_block(om)
+                shift = p - self.log2_offset
+                d, dd = _ldexp_complex(d, shift), _ldexp_complex(dd, shift)
+            elif self.electromagnetic:
                 d, dd = self._d_em(om)
             else:
                 chi, dchi = self._chi(om)

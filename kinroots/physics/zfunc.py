@@ -25,12 +25,23 @@ The lower half-plane follows from the reflection ``Z(ζ) = 2i√π exp(-ζ²) - 
 (DLMF 7.4.3 written for w: ``w(z) = 2 exp(-z²) - w(-z)``), which is the Fried–Conte σ = 2
 term; ``exp(-ζ²)`` is evaluated with an exactly split exponent and phase so that its
 relative error stays at a few ulp even where ``|Re ζ Im ζ|`` is large.
+
+Overflow-free evaluation.  Inside ``with landau_shift(s):`` every Landau exponential
+term of this module and of :mod:`kinroots.physics.models._landau` is returned times
+``2^-s`` (``s = inf``: the term is dropped), and nothing else changes.  A susceptibility
+is affine in these terms, so a caller that evaluates once with ``s`` and once with
+``inf`` holds its regular part R and its exponential part X with χ = R + 2^s X, both
+finite where χ itself exceeds double precision (:class:`kinroots.physics.dispersion.
+Dispersion`, ``scaled``).
 """
 
 from __future__ import annotations
 
 import cmath
 import math
+from collections.abc import Iterator
+from contextlib import contextmanager
+from contextvars import ContextVar
 from numbers import Number
 from typing import Any, Literal, TypeVar, overload
 
@@ -38,7 +49,56 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.special import wofz
 
-__all__ = ["plasma_z", "plasma_z_and_prime", "plasma_z_prime"]
+__all__ = ["landau_shift", "plasma_z", "plasma_z_and_prime", "plasma_z_prime"]
+
+#: ln 2 split so that s·_LN2_HI is exact for integer |s| < 2^20 (Cody–Waite reduction,
+#: W. J. Cody and W. Waite, *Software Manual for the Elementary Functions*, 1980).
+_LN2_HI = 0.693145751953125
+_LN2_LO = 1.4286068203094173e-06
+#: Current shift (binary orders) of the Landau exponential terms; see :func:`landau_shift`.
+_SHIFT: ContextVar[float] = ContextVar("landau_shift", default=0.0)
+
+
+@contextmanager
+def landau_shift(bits: float) -> Iterator[None]:
+    """Scale every Landau exponential term by ``2^-bits`` inside the block.
+
+    Parameters
+    ----------
+    bits : float
+        A non-negative integer (exact: ``2^-bits`` is applied to the exponent, split as
+        ``bits·ln 2`` by Cody–Waite so that no rounding enters), or ``inf`` to drop the
+        terms (the regular part alone).
+
+    Notes
+    -----
+    The exponential terms are the ``2i√π exp(-ζ²)`` of the reflection
+    ``Z(ζ) = 2i√π exp(-ζ²) - Z(-ζ)`` for ``Im ζ < 0`` (Faddeeva identity
+    ``w(z) = 2 exp(-z²) - w(-z)``, NIST DLMF 7.4.3; B. D. Fried and S. D. Conte, *The
+    Plasma Dispersion Function*, 1961, the σ term).  Paths that take ``Z`` near the
+    origin straight from ``wofz`` keep their exponential (it cannot overflow there:
+    ``|ζ| < 12``), so they count as regular.  The setting is a context variable (per
+    thread).
+    """
+    b = float(bits)
+    if not (b >= 0.0 and (math.isinf(b) or b == int(b))):
+        raise ValueError(f"bits must be a non-negative integer or inf, got {bits!r}")
+    token = _SHIFT.set(b)
+    try:
+        yield
+    finally:
+        _SHIFT.reset(token)
+
+
+def shift_exponent() -> tuple[float, float]:
+    """The current shift as ``(hi, lo)`` in natural-log units (``hi + lo = bits·ln 2``);
+    ``(inf, 0)`` when the terms are dropped, ``(0, 0)`` normally."""
+    b = _SHIFT.get()
+    if b == 0.0:
+        return 0.0, 0.0
+    if math.isinf(b):
+        return math.inf, 0.0
+    return b * _LN2_HI, b * _LN2_LO
 
 _SQRT_PI = math.sqrt(math.pi)
 
@@ -259,6 +319,14 @@ def _exp_term(zeta: NDArray[np.complex128]) -> NDArray[np.complex128]:
     t = a_hi + a_lo
     a_lo = a_lo - (t - a_hi)
     a_hi = t
+    sh_hi, sh_lo = shift_exponent()
+    if sh_hi:
+        if math.isinf(sh_hi):
+            return zeta * 0.0  # dropped (NaN stays NaN)
+        t = a_hi - sh_hi  # exact subtraction error folded into the low part (two-sum)
+        bv = t - a_hi
+        a_lo = a_lo + (((a_hi - (t - bv)) + (-sh_hi - bv)) - sh_lo)
+        a_hi = t
     mag = (2.0 * _SQRT_PI) * np.exp(a_hi)
     rot = np.cos(p_hi) - 1j * np.sin(p_hi)
     fine = np.exp(a_lo - 1j * p_lo)
@@ -300,6 +368,14 @@ def _exp_term_scalar(zeta: complex) -> complex:
     t = a_hi + a_lo
     a_lo = a_lo - (t - a_hi)
     a_hi = t
+    sh_hi, sh_lo = shift_exponent()
+    if sh_hi:
+        if math.isinf(sh_hi):
+            return 0j
+        t = a_hi - sh_hi
+        bv = t - a_hi
+        a_lo = a_lo + (((a_hi - (t - bv)) + (-sh_hi - bv)) - sh_lo)
+        a_hi = t
     p_hi, p_lo = _two_prod(2.0 * x, y)
     mag = (2.0 * _SQRT_PI) * math.exp(a_hi)
     rot = complex(math.cos(p_hi), -math.sin(p_hi))

@@ -15,13 +15,14 @@ from __future__ import annotations
 
 import cmath
 import functools
+import math
 from collections.abc import Callable
 
 import numpy as np
 from scipy.special import wofz
 
 from kinroots.physics.plasma import EV, Species
-from kinroots.physics.zfunc import plasma_z_and_prime, z_and_f_scalar
+from kinroots.physics.zfunc import plasma_z_and_prime, shift_exponent, z_and_f_scalar
 
 __all__ = ["first_moment", "first_moment_scalar", "landau_moments", "thermal_speeds_squared"]
 
@@ -33,6 +34,17 @@ _ZETA_SERIES = 7.0
 #: Terms kept in the asymptotic series; the last one is < 1e-18 of the first at |ζ| = 7
 #: and the omitted remainder is of order exp(−|ζ|²) < 1e-21.
 _N_TERMS = 27
+
+
+def _shifted_exp(arg: np.ndarray) -> np.ndarray:
+    """exp(arg) times the current Landau shift 2^-s (:func:`kinroots.physics.zfunc.
+    landau_shift`; 0 when the terms are dropped)."""
+    sh_hi, sh_lo = shift_exponent()
+    if not sh_hi:
+        return np.exp(arg)
+    if math.isinf(sh_hi):
+        return arg * 0.0
+    return np.exp((arg - sh_hi) - sh_lo)
 
 
 def _series_coefficients(n_terms: int) -> np.ndarray:
@@ -132,7 +144,7 @@ def _series_moments(z: np.ndarray, order: int) -> tuple[list[np.ndarray], list[n
     # the real axis.  Evaluated only where σ ≠ 0 so that exp never overflows uselessly.
     sigma = np.where(z.imag > 0, 0.0, np.where(z.imag == 0, 1.0, 2.0))
     zl = np.where(sigma > 0, z, 0.0)
-    e = sigma * 1j * np.sqrt(np.pi) * np.exp(-zl * zl)
+    e = sigma * 1j * np.sqrt(np.pi) * _shifted_exp(-zl * zl)
     for k in range(order + 1):
         zk = z**k
         ms[k] = ms[k] - zk * e
@@ -187,7 +199,7 @@ def _series_m1(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     if lower.any():
         zl = z[lower]
         zz = zl * zl
-        e = np.where(zl.imag == 0.0, 1.0, 2.0) * (1j * _SQRT_PI) * np.exp(-zz)
+        e = np.where(zl.imag == 0.0, 1.0, 2.0) * (1j * _SQRT_PI) * _shifted_exp(-zz)
         m1[lower] -= zl * e
         dm1[lower] += (2.0 * zz - 1.0) * e
     return m1, dm1
@@ -264,7 +276,11 @@ def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
     m1 = u * acc
     dm1 = -(u / zeta) * dacc
     if zeta.imag <= 0.0:
-        e = (1.0 if zeta.imag == 0.0 else 2.0) * (1j * _SQRT_PI) * cmath.exp(-(zeta * zeta))
+        sh_hi, sh_lo = shift_exponent()
+        if math.isinf(sh_hi):
+            return m1, dm1
+        e = (1.0 if zeta.imag == 0.0 else 2.0) * (1j * _SQRT_PI) * cmath.exp(
+            -(zeta * zeta) - sh_hi - sh_lo)
         m1 -= zeta * e
         dm1 += (2.0 * zeta * zeta - 1.0) * e
     return m1, dm1
