@@ -501,3 +501,26 @@ def test_em_bernstein_window_with_ions_of_any_mass():
             got = sorted(z.real for z in heavy.values)
             assert np.allclose(got, sorted(z.real for z in bare.values),
                                rtol=10 * ROOT_RTOL, atol=0)
+
+
+def test_moments_of_one_lambda_equal_the_recurrence_and_exact_moments():
+    """scaled_moments: the one-λ path (cached integer moment polynomials) equals the
+    elementwise cumulant recurrence, and both equal Σ_n n^{2m}Γ_n y^m summed with scipy's
+    ive at λ = 40 (and their λ-derivative a central difference)."""
+    from kinroots.physics.models._harmonics import scaled_moments
+
+    lam0 = 40.0
+    y = np.array([1e-3, 2e-3 + 1e-4j, 5e-4])
+    one, done = scaled_moments(np.full(3, lam0 + 0j), y)
+    mixed, dmixed = scaled_moments(np.array([lam0, lam0, 41.0]) + 0j, y)
+    n = np.arange(-400, 401, dtype=float)
+    gam = ive(np.abs(n), lam0)
+    h = 1e-4
+    gam_p, gam_m = ive(np.abs(n), lam0 + h), ive(np.abs(n), lam0 - h)
+    for m in range(1, 9):
+        exact = np.sum(n ** (2 * m) * gam) * y**m
+        slope = np.sum(n ** (2 * m) * (gam_p - gam_m)) / (2 * h) * y**m
+        assert np.allclose(one[m], exact, rtol=1e-12, atol=0)
+        assert np.allclose(mixed[m][:2], one[m][:2], rtol=1e-13, atol=0)
+        assert np.allclose(done[m], slope, rtol=1e-6, atol=0)
+        assert np.allclose(dmixed[m][:2], done[m][:2], rtol=1e-13, atol=0)

@@ -492,6 +492,35 @@ SERIES_TERMS = 14
 SERIES_MIN_LAMBDA = 100.0
 
 
+def _moment_polynomials(terms: int) -> list[list[int]]:
+    """Integer coefficients c[m][a] of μ_2m(λ) = Σ_a c[m][a] λ^a, m = 0 … ``terms`` (the
+    cumulant recurrence of :func:`scaled_moments` on polynomials; c[m][m] = (2m − 1)!!)."""
+    polys: list[list[int]] = [[1]]
+    for m in range(1, terms + 1):
+        acc = [0] * (m + 1)
+        for i in range(1, m + 1):
+            for a, c in enumerate(polys[m - i]):
+                acc[a + 1] += math.comb(2 * m - 1, 2 * i - 1) * c
+        polys.append(acc)
+    return polys
+
+
+_MOMENT_POLYNOMIALS = _moment_polynomials(SERIES_TERMS)
+
+
+@functools.lru_cache(maxsize=WEIGHT_CACHE)
+def _moment_coefficients(lam: complex) -> tuple[tuple[complex, ...], tuple[complex, ...]]:
+    """q_m = Σ_a c_ma λ^(a−m) and r_m = Σ_a a c_ma λ^(a−m−1), m = 0 … SERIES_TERMS, so that
+    ν_2m = q_m (λy)^m and ∂ν_2m/∂λ = r_m (λy)^m (cached per λ: one k, many ω)."""
+    inv = 1.0 / lam
+    q, r = [1.0 + 0j], [0j]
+    for m in range(1, SERIES_TERMS + 1):
+        poly = _MOMENT_POLYNOMIALS[m]
+        q.append(sum(poly[a] * inv ** (m - a) for a in range(1, m + 1)))
+        r.append(inv * sum(a * poly[a] * inv ** (m - a) for a in range(1, m + 1)))
+    return tuple(q), tuple(r)
+
+
 def scaled_moments(lam: np.ndarray, y: np.ndarray, terms: int = SERIES_TERMS
                    ) -> tuple[list[np.ndarray], list[np.ndarray]]:
     r"""ν_{2m} = μ_{2m} y^m and ∂ν_{2m}/∂λ for m = 0 … ``terms``, μ_{2m} = Σ_n n^{2m}Γ_n(λ).
@@ -519,6 +548,18 @@ def scaled_moments(lam: np.ndarray, y: np.ndarray, terms: int = SERIES_TERMS
     """
     nu = [np.ones(lam.shape, dtype=complex)]
     dnu = [np.zeros(lam.shape, dtype=complex)]
+    lam0 = complex(lam.flat[0]) if lam.size else 0j
+    if lam0 != 0 and terms <= SERIES_TERMS and np.all(lam == lam0):
+        # one λ (one k): ν_2m = u^m Σ_a c_ma λ^(a−m), u = λy, from the integer moment
+        # polynomials μ_2m = Σ_a c_ma λ^a (same recurrence), coefficients formed once
+        q, r = _moment_coefficients(lam0)
+        u = lam0 * y
+        p = np.ones(y.shape, dtype=complex)
+        for m in range(1, terms + 1):
+            p = p * u
+            nu.append(q[m] * p)
+            dnu.append(r[m] * p)
+        return nu, dnu
     yi = [y**i for i in range(1, terms + 1)]
     for m in range(1, terms + 1):
         acc = np.zeros(lam.shape, dtype=complex)

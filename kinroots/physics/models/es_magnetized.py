@@ -196,8 +196,11 @@ def perpendicular_series(
         lam = kp * kp * wperp * wperp / (2.0 * omega_c * omega_c)
         y = (omega_c * omega_c) / (om * om)
         nu, _ = scaled_moments(lam, y)
-        total = np.sum(nu[1:], axis=0)
-        weighted = np.sum([m * nu[m] for m in range(1, SERIES_TERMS + 1)], axis=0)
+        total = nu[1].copy()
+        weighted = nu[1].copy()
+        for m in range(2, SERIES_TERMS + 1):
+            total += nu[m]
+            weighted += m * nu[m]
         c = species.plasma_frequency**2 / (lam * omega_c * omega_c)
         value = -c * total
         derivative = 2.0 * c * weighted / om
