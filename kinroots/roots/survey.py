@@ -102,6 +102,8 @@ class _Survey:
         cluster_size: int,
         exclusion_radius: float,
         features: Sequence[tuple[complex, float]] = (),
+        evaluations_per_zero: int = 0,
+        max_roots: int | None = None,
     ) -> None:
         self.f_user = f
         self.func = CountedFunction(f)
@@ -115,6 +117,8 @@ class _Survey:
         self.rtol, self.atol = rtol, max(atol, _ATOL_FRACTION * rtol * self.diam0)
         self.max_depth = max_depth
         self.max_evaluations = max_evaluations
+        self.evaluations_per_zero = evaluations_per_zero
+        self.max_roots = max_roots
         self.cluster_size = cluster_size
         self.exclusion_radius = exclusion_radius
         self.notes: list[str] = []
@@ -173,7 +177,9 @@ class _Survey:
                 self.box = box
                 return self._cell_winding(box)
             if self.sampler.budget_exhausted:
-                self.notes.append("evaluation budget exhausted on the outer boundary")
+                self.notes.append(
+                    f"evaluation budget of {self.max_evaluations} evaluations exhausted on "
+                    "the window's boundary before its zeros could be counted")
                 return None
             names = ("bottom", "right", "top", "left")
             overflow = [i for i in bad if status[i].nonfinite]
@@ -441,6 +447,16 @@ class _Survey:
             self.notes.append(
                 f"negative zero count {count}: f has poles in the box not listed in excluded"
             )
+        if self.max_roots is not None and count > self.max_roots:
+            self.notes.append(
+                f"the window holds {count} zeros, more than the limit of {self.max_roots} "
+                "(max_roots): none were isolated and the survey is incomplete; narrow the "
+                "window or split it")
+            return self._result([self._unsolved(self.box, count, "more zeros than max_roots")],
+                                count)
+        # the cost of isolating zeros grows with their number: the budget does too
+        self.max_evaluations += self.evaluations_per_zero * max(count, 0)
+        self.sampler.max_evaluations = self.max_evaluations
         roots: list[RootResult] = []
         queue: deque[tuple[Box, int, int]] = deque([(self.box, w, 0)])
         while queue:
@@ -451,9 +467,7 @@ class _Survey:
             if n < 0:
                 self.notes.append(f"negative count {n} in cell {box}: unlisted poles")
                 continue
-            if self.func.evaluations > self.max_evaluations:
-                self.notes.append(f"evaluation budget exhausted; cell {box} with {n} zero(s) "
-                                  "left unsolved")
+            if self._out_of_budget():
                 roots.append(self._unsolved(box, n, "evaluation budget exhausted"))
                 continue
             if n == 1:
@@ -472,13 +486,27 @@ class _Survey:
                 continue
             kids = self._split(box)
             if kids is None:
+                if self._out_of_budget():
+                    roots.append(self._unsolved(box, n, "evaluation budget exhausted"))
+                    continue
                 self.notes.append(f"cell {box} with {n} zero(s) could not be subdivided")
                 roots.append(self._unsolved(box, n, "cell could not be subdivided"))
                 continue
             if sum(k[1] for k in kids) != wc:
                 self.notes.append(f"windings of the halves of {box} do not add up")
             queue.extend((k, wk, depth + 1) for k, wk in kids)
+        starved = [r for r in roots if not r.converged and r.reason.endswith("budget exhausted")]
+        if starved:
+            found = sum(r.multiplicity for r in roots if r.converged)
+            left = sum(r.multiplicity for r in starved)
+            self.notes.append(
+                f"evaluation budget of {self.max_evaluations} evaluations exhausted: "
+                f"{found} of {count} zeros isolated, {left} in {len(starved)} cell(s) left "
+                "unsolved; the survey is incomplete (narrow the window or split it)")
         return self._result(roots, count)
+
+    def _out_of_budget(self) -> bool:
+        return self.sampler.budget_exhausted or self.func.evaluations > self.max_evaluations
 
     def _unsolved(self, box: Box, n: int, why: str) -> RootResult:
         center = complex(0.5 * (box[0] + box[1]), 0.5 * (box[2] + box[3]))
@@ -529,6 +557,8 @@ def find_roots(
     cluster_size: int = 4,
     exclusion_radius: float = 1e-8,
     features: Sequence[tuple[complex, float]] = (),
+    evaluations_per_zero: int = 500,
+    max_roots: int | None = 2000,
 ) -> SurveyResult:
     """All zeros of an analytic function in a rectangle of the complex plane.
 
@@ -548,7 +578,17 @@ def find_roots(
     max_depth : int
         Largest number of successive subdivisions of a cell.
     max_evaluations : int
-        Budget of evaluated points (checked between cells and during refinement).
+        Budget of evaluated points for the outer boundary and, with
+        ``evaluations_per_zero`` added for each zero it counts, for the whole survey
+        (checked between cells and during refinement).  Exhausting it stops the survey
+        with one note (zeros counted, isolated and left) and an unsolved result for each
+        cell left: ``complete`` is false.
+    evaluations_per_zero : int
+        Budget added per zero counted on the outer boundary (isolating zeros costs about
+        100 evaluations each on the ion-acoustic family of tests/test_survey_many_roots.py).
+    max_roots : int or None
+        A window counting more zeros than this is not subdivided: the result holds the
+        count, a note and one unsolved entry (``complete`` false).  ``None``: no limit.
     cluster_size : int
         Cells with at most this many zeros are solved by the moment method first.
     exclusion_radius : float
@@ -582,5 +622,6 @@ def find_roots(
         f, (x0, x1, y0, y1), excluded, rtol=rtol, atol=atol, max_depth=max_depth,
         max_evaluations=max_evaluations, cluster_size=cluster_size,
         exclusion_radius=exclusion_radius, features=features,
+        evaluations_per_zero=evaluations_per_zero, max_roots=max_roots,
     )
     return survey.run()

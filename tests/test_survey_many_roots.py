@@ -1,0 +1,162 @@
+"""Windows holding many roots (issue 15): the survey stays complete, says what it counted,
+found and spent, and a guard that stops it says so and flags the result incomplete."""
+
+from __future__ import annotations
+
+import mpmath as mp
+import pytest
+import scipy.constants as sc
+
+from kinroots.io.case import load_case
+from kinroots.roots import find_roots
+from kinroots.study.problem import function_at, survey
+
+# An invented hydrogen plasma with Te/Ti = 100, unmagnetized, electrostatic.  At
+# k λ_De = 1 the window reaches 1.3 ω_pi below the real axis: besides the weakly damped
+# ion acoustic root (≈ 0.73 − 0.0036i ω_pi) it holds the family of strongly damped ion
+# roots, 28 zeros in all.
+ION_ACOUSTIC = """
+title = "Hydrogen, Te/Ti = 100: the ion acoustic family deep in the lower half-plane"
+[magnetic_field]
+B = 0.0
+[[species]]
+name = "e"
+charge = -1
+mass = "electron"
+density = 1.0e16
+temperature = 10.0
+[[species]]
+name = "H+"
+charge = 1
+mass = "proton"
+density = 1.0e16
+temperature = 0.1
+[wave]
+model = "electrostatic"
+angle = 0.0
+[scan]
+k = { start = 1.0, stop = 1.1, points = 2 }
+[units]
+frequency = "plasma:H+"
+length = "debye:e"
+[search]
+real = [0.01, 1.6]
+imag = [-1.3, 0.05]
+"""
+K_HAT = 1.0
+TE_OVER_TI = 100.0
+
+mp.mp.dps = 30
+
+
+def _z(zeta: mp.mpc) -> mp.mpc:
+    """Plasma dispersion function Z(ζ) = i√π exp(−ζ²) erfc(−iζ), valid in the whole plane
+    (B. D. Fried and S. D. Conte, *The Plasma Dispersion Function*, 1961; NIST DLMF
+    7.2.3 for erfc)."""
+    return 1j * mp.sqrt(mp.pi) * mp.exp(-zeta * zeta) * mp.erfc(-1j * zeta)
+
+
+def _d_and_prime(w: mp.mpc) -> tuple[mp.mpc, mp.mpc]:
+    """D and dD/dω̂ of the electrostatic Maxwellian plasma at normalized ω̂ = ω/ω_pi.
+
+    D = 1 + Σ_s (k λ_Ds)^−2 [1 + ζ_s Z(ζ_s)], ζ_s = ω/(k w_s), w_s = √(2T_s/m_s)
+    (N. A. Krall and A. W. Trivelpiece, *Principles of Plasma Physics*, 1973, ch. 8;
+    from memory), with Z′ = −2(1 + ζZ) (Fried & Conte 1961).  In units of ω_pi and
+    λ_De (ω_pi λ_De = √(Te/m_p), equal densities, Z = 1): (k λ_De)^−2 and ζ_e =
+    ω̂ √(m_e/(2 m_p))/k̂ for the electrons, (Te/Ti)(k λ_De)^−2 and ζ_i = ω̂/(k̂ √(2Ti/Te))
+    for the protons (constants from scipy.constants, not from kinroots).
+    """
+    k = mp.mpf(K_HAT)
+    parts = (
+        (1 / k**2, mp.sqrt(mp.mpf(sc.m_e) / (2 * mp.mpf(sc.m_p))) / k),
+        (mp.mpf(TE_OVER_TI) / k**2, 1 / (k * mp.sqrt(2 / mp.mpf(TE_OVER_TI)))),
+    )
+    d, dd = mp.mpc(1), mp.mpc(0)
+    for weight, dzeta in parts:
+        zeta = w * dzeta
+        zz = _z(zeta)
+        g = 1 + zeta * zz
+        d += weight * g
+        dd += weight * dzeta * (zz - 2 * zeta * g)  # d/dζ (1 + ζZ) = Z + ζZ′
+    return d, dd
+
+
+def _argument_principle_count(box: tuple[float, float, float, float]) -> int:
+    """Zeros of D in ``box``: the phase changes of D summed along the boundary, each
+    segment bisected until the phase moves by less than 0.3 rad (the winding number,
+    common practice), at 30 digits."""
+    x0, x1, y0, y1 = box
+    corners = [complex(x0, y0), complex(x1, y0), complex(x1, y1), complex(x0, y1)]
+    total = mp.mpf(0)
+    for a, b in zip(corners, corners[1:] + corners[:1], strict=True):
+        pts = [a + (b - a) * j / 40 for j in range(41)]
+        vals = [_d_and_prime(mp.mpc(p))[0] for p in pts]
+        i = 0
+        while i < len(pts) - 1:
+            step = mp.im(mp.log(vals[i + 1] / vals[i]))
+            if abs(step) > 0.3:
+                mid = 0.5 * (pts[i] + pts[i + 1])
+                pts.insert(i + 1, mid)
+                vals.insert(i + 1, _d_and_prime(mp.mpc(mid))[0])
+                continue
+            total += step
+            i += 1
+    return int(mp.nint(total / (2 * mp.pi)))
+
+
+@pytest.fixture(scope="module")
+def ion_acoustic(tmp_path_factory):
+    path = tmp_path_factory.mktemp("ia") / "ion_acoustic.toml"
+    path.write_text(ION_ACOUSTIC)
+    return load_case(path)
+
+
+@pytest.mark.slow
+def test_ion_acoustic_family_count_and_roots_against_mpmath(ion_acoustic) -> None:
+    box = (*ion_acoustic.search_real, *ion_acoustic.search_imag)
+    res = survey(ion_acoustic, K_HAT)
+    assert res.box == box  # no edge had to move
+    expected = _argument_principle_count(box)
+    assert expected >= 20
+    assert res.count == expected
+    assert res.complete, res.notes
+    assert len(res.values) == expected
+    assert all(r.multiplicity == 1 and r.verified for r in res.roots)
+    # what it cost: ~100 evaluations per zero today (2,780 for 28); a regression guard
+    assert res.evaluations < 300 * expected
+    # each root is a zero of D evaluated independently: the mpmath Newton correction
+    # |D/D'| there is below 1e-9 |ω|
+    for r in res.roots:
+        d, dd = _d_and_prime(mp.mpc(r.value))
+        assert abs(d / dd) <= 1e-9 * abs(r.value), r.value
+    # the ion acoustic root is among them, weakly damped (|γ/ω| < 0.01, Te/Ti = 100)
+    weak = [r.value for r in res.roots if abs(r.value.imag) < 0.01 * r.value.real]
+    assert len(weak) == 1
+
+
+def test_evaluation_budget_stops_with_one_clear_note(ion_acoustic) -> None:
+    f = function_at(ion_acoustic, K_HAT)
+    box = (*ion_acoustic.search_real, *ion_acoustic.search_imag)
+    res = find_roots(f, box, rtol=1e-12, max_evaluations=1500, evaluations_per_zero=0)
+    assert res.count is not None and res.count >= 20
+    assert not res.complete
+    found = sum(r.multiplicity for r in res.roots if r.converged)
+    left = [r for r in res.roots if not r.converged]
+    assert left and all("budget exhausted" in r.reason for r in left)
+    assert found + sum(r.multiplicity for r in left) == res.count  # every zero accounted
+    budget = [n for n in res.notes if "budget" in n]
+    assert len(budget) == 1
+    assert f"{found} of {res.count} zeros isolated" in budget[0]
+    assert "incomplete" in budget[0]
+
+
+def test_max_roots_stops_after_counting(ion_acoustic) -> None:
+    f = function_at(ion_acoustic, K_HAT)
+    box = (*ion_acoustic.search_real, *ion_acoustic.search_imag)
+    res = find_roots(f, box, rtol=1e-12, max_roots=10)
+    assert res.count is not None and res.count > 10
+    assert not res.complete and not res.values.size
+    assert [r.multiplicity for r in res.roots] == [res.count]
+    assert any("more than the limit of 10" in n for n in res.notes)
+    # the count alone is cheap: the boundary only
+    assert res.evaluations < 1000
