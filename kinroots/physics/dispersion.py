@@ -173,13 +173,15 @@ def _ldexp_complex(z: np.ndarray, p: np.ndarray | int) -> np.ndarray:
 _TOP_BITS = 880
 _BITS_STEP = 64
 _BITS_RETRIES = 4
+#: Largest shift tried (binary orders): |D| up to about 2^(2^20) = 10^315000.
+_MAX_BITS = 2**20
 
 
 def _exponent(z: np.ndarray) -> np.ndarray:
     """Binary exponent e with max(|Re z|, |Im z|) < 2^e (−1100 for zeros)."""
     big = np.maximum(np.abs(z.real), np.abs(z.imag))
     _, e = np.frexp(np.where(np.isfinite(big) & (big > 0), big, 0.0))
-    return np.where(big > 0, e, -1100)
+    return np.where(big > 0, e.astype(np.int64), -1100)
 
 
 def _combine_scaled(
@@ -564,6 +566,8 @@ class Dispersion:
         # multiples of _BITS_STEP so that a few evaluations serve the whole block
         want = self._landau_bits(pts) - _TOP_BITS
         groups = np.maximum(_BITS_STEP, _BITS_STEP * np.ceil(want / _BITS_STEP))
+        keep = groups <= _MAX_BITS  # beyond: |D| > 2^(2^20), left NaN
+        idx, groups = idx[keep], groups[keep]
         d_out, dd_out, p_out = d.ravel().copy(), dd.ravel().copy(), p.ravel().copy()
         for g in np.unique(groups):
             sel = idx[groups == g]

@@ -128,6 +128,10 @@ def mark_growing(ax: Any) -> None:
     ax.set_ylim(lo, hi)
 
 
+#: Branches named in the legend of :func:`plot_branches`; the rest are counted.
+_LEGEND_BRANCHES = 12
+
+
 def plot_branches(
     curves: Sequence[BranchCurve],
     *,
@@ -215,6 +219,10 @@ def plot_branches(
         from matplotlib.lines import Line2D
 
         handles, labels = ax_r.get_legend_handles_labels()
+        if len(handles) > _LEGEND_BRANCHES:  # dozens of branches: a legend would fill the
+            more = len(handles) - _LEGEND_BRANCHES  # figure (and collapse the axes)
+            handles = handles[:_LEGEND_BRANCHES] + [Line2D([], [], ls="none")]
+            labels = labels[:_LEGEND_BRANCHES] + [f"... and {more} more branches"]
         if any_verified:
             handles.append(Line2D([], [], ls="none", marker="o", color="0.2", ms=5))
             labels.append("marker: verified by a survey")

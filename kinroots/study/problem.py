@@ -357,11 +357,18 @@ class NormalizedDispersion:
     rtol : float
         The survey's relative root tolerance (``solver.tolerance``): it decides which
         cyclotron harmonics are poles to exclude at k∥ = 0 (:meth:`excluded`).
+    auto_window : tuple of float or None
+        See below (constant scale of D for tracing and counts in that box).
     """
 
     k: float
     dispersion: Dispersion
     rtol: float = 1e-10
+    #: A box (normalized): the first evaluation that is not finite at a finite ω sets
+    #: ``dispersion.log2_offset`` once, from log|D| on the box's boundary
+    #: (:func:`_log2_offset`), and evaluates again: D/2^N with one N for the whole box,
+    #: so Newton's and a boundary count's comparisons of |D| stay consistent.
+    auto_window: tuple[float, float, float, float] | None = None
 
     def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         # Newton steps may leave the window into regions where D overflows: the
@@ -399,7 +406,16 @@ class NormalizedDispersion:
                 k=disp.k, cos_theta=cos, sin_theta=sin,
             )
             return f, fw * w_u
-        d, dd = disp(np.asarray(omega, dtype=complex) * w_u)
+        om = np.asarray(omega, dtype=complex)
+        d, dd = disp(om * w_u)
+        if self.auto_window is not None and not self.__dict__.get("_auto_tried"):
+            bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
+            if bad.any():
+                self.__dict__["_auto_tried"] = True
+                offset, _, _ = _log2_offset(self, self.auto_window)
+                if offset:
+                    disp.log2_offset = offset
+                    d, dd = disp(om * w_u)
         return d, dd * w_u
 
     def value(self, omega: np.ndarray) -> np.ndarray:
@@ -426,10 +442,16 @@ class NormalizedDispersion:
                 for c, w in self.dispersion.resonances(box[0] * w_u, box[1] * w_u)]
 
 
-def function_at(case: Case, k: float) -> NormalizedDispersion:
-    """The normalized dispersion function of ``case`` at normalized ``k``."""
+def function_at(case: Case, k: float, *,
+                auto_window: tuple[float, float, float, float] | None = None
+                ) -> NormalizedDispersion:
+    """The normalized dispersion function of ``case`` at normalized ``k``.
+
+    With ``auto_window``, D is scaled by a constant 2^-N for that box where it exceeds
+    double precision (:attr:`NormalizedDispersion.auto_window`): for tracing and counts.
+    """
     return NormalizedDispersion(float(k), dispersion_at(case, float(k)),
-                                rtol=case.solver.tolerance)
+                                rtol=case.solver.tolerance, auto_window=auto_window)
 
 
 #: ``f(k̂, ω̂) -> (D, dD/dω̂)`` at arrays of normalized (k, ω) pairs.
@@ -446,15 +468,31 @@ def pair_function(case: Case) -> PairFunction | None:
         return None
     units = case.units
     w_u, l_u = units.omega_unit, units.length_unit
+    box = window(case)
+    # k values where D overflowed in the window: evaluated one k at a time from then on,
+    # with that k's constant scale (function_at's auto_window), so that every later call
+    # at that k sees the same D/2^N
+    scaled: dict[float, NormalizedDispersion] = {}
 
     def pairs(k: np.ndarray, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        kk, om = np.broadcast_arrays(np.asarray(k, dtype=float),
+                                     np.asarray(omega, dtype=complex))
         with np.errstate(over="ignore", invalid="ignore"):
             d, dd = dispersion_pairs(
-                case.plasma, k=np.asarray(k, dtype=float) / l_u,
-                omega=np.asarray(omega, dtype=complex) * w_u, angle_deg=case.angle_deg,
+                case.plasma, k=kk / l_u, omega=om * w_u, angle_deg=case.angle_deg,
                 model=case.model, omega_ref=w_u, harmonic_tol=case.solver.harmonic_tolerance,
             )
-        return d, dd * w_u
+        dd = dd * w_u
+        bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
+        todo = {float(v) for v in np.unique(kk[bad])} | {
+            float(v) for v in np.unique(kk) if float(v) in scaled}
+        for kv in todo:
+            f = scaled.get(kv)
+            if f is None:
+                f = scaled[kv] = function_at(case, kv, auto_window=box)
+            sel = kk == kv
+            d[sel], dd[sel] = f(om[sel])
+        return d, dd
 
     return pairs
 
@@ -464,8 +502,22 @@ def pair_function(case: Case) -> PairFunction | None:
 #: bounded by its boundary, maximum modulus principle, and the rest is margin for
 #: maxima between probe points and for dD/dω).
 _LOG2_TOP = 900
+#: Smallest log₂|D| allowed on the boundary after that scale (margin above 2^-1074).
+_LOG2_BOTTOM = -1000
 #: Probe points per edge of the window for :func:`_log2_offset`.
 _PROBES = 64
+#: Largest number of times :func:`survey` halves a window whose |D| spans more binary
+#: orders than double precision holds (at most 2^_MAX_SPLITS sub-boxes).
+_MAX_SPLITS = 6
+#: Largest span of log₂|D| on a window's boundary for which :func:`survey` tries
+#: sub-boxes (beyond it, 2^_MAX_SPLITS of them would not suffice: refused at once).
+_MAX_SPAN = 16_000
+#: The note of a window that neither a constant scale nor sub-boxes can serve.
+_TOO_WIDE = (
+    "D overflows there: |D| spans more binary orders on the window than sub-boxes of "
+    f"double precision can hold (more than about {_MAX_SPAN}, or beyond 2^(2^20)): a "
+    "Landau term exp(-zeta^2) of a cold species far below the real axis; raise the "
+    "window's lower edge toward the real axis there (README, limits)")
 
 
 def _offset_decades(offset: int) -> int:
@@ -473,39 +525,167 @@ def _offset_decades(offset: int) -> int:
     return round((offset + _LOG2_TOP) * math.log10(2.0))
 
 
-def _log2_offset(f: NormalizedDispersion, box: tuple[float, float, float, float]) -> int:
-    """A constant scale 2^-N that brings D into double precision on ``box``, or 0.
+def _boundary_log2(f: NormalizedDispersion, box: tuple[float, float, float, float]
+                   ) -> tuple[np.ndarray, np.ndarray]:
+    """Probe points on the boundary of ``box`` and log₂|D| there (NaN where undefined).
 
-    log₂|D| (:meth:`~kinroots.physics.dispersion.Dispersion.log2_magnitude`, finite where
-    every entry of the tensor is) is probed on the boundary of ``box``; by the maximum
-    modulus principle (D is analytic in the box apart from the excluded points, which the
-    survey circles) its maximum over the box is on the boundary.  N puts that maximum at
-    2^_LOG2_TOP.  0 (no scale possible) when a probe is not finite (an entry itself
-    overflows) or when the boundary's values would then underflow below 2^-1000 (the
-    range of |D| on the box exceeds double precision).
+    Each edge uniformly, plus the horizontal edges at and around every resonance centre,
+    where |exp(−ζ²)| peaks (Re ζ = 0).
     """
     x0, x1, y0, y1 = box
     t = np.linspace(0.0, 1.0, _PROBES + 1)
     z = np.concatenate((x0 + (x1 - x0) * t + 1j * y0, x1 + 1j * (y0 + (y1 - y0) * t),
                         x1 - (x1 - x0) * t + 1j * y1, x0 + 1j * (y1 - (y1 - y0) * t)))
-    # |D| peaks sharply where a species resonates (|exp(-zeta^2)| is largest at
-    # Re zeta = 0): probe the horizontal edges at and around every resonance centre too
     xs = [c.real + w * u for c, w in f.features(box) for u in (-2, -1, -0.5, 0, 0.5, 1, 2)]
     xr = np.array([x for x in xs if x0 <= x <= x1])
     z = np.concatenate((z, xr + 1j * y0, xr + 1j * y1))
-    lg = f.dispersion.log2_magnitude(z * f.dispersion.omega_ref)
+    return z, f.dispersion.log2_magnitude(z * f.dispersion.omega_ref)
+
+
+def _log2_offset(f: NormalizedDispersion, box: tuple[float, float, float, float]
+                 ) -> tuple[int, str, float]:
+    """A constant scale 2^-N that brings D into double precision on ``box``.
+
+    log₂|D| (:meth:`~kinroots.physics.dispersion.Dispersion.log2_magnitude`, overflow-free)
+    is probed on the boundary of ``box``; by the maximum modulus principle (D is analytic
+    in the box apart from the excluded points, which the survey circles) its maximum over
+    the box is on the boundary.  N puts that maximum at 2^_LOG2_TOP.
+
+    Returns
+    -------
+    offset : int
+        N, or 0 when no constant scale serves.
+    why : str
+        ``""``, ``"undefined"`` (a probe is NaN: D is not defined there) or ``"range"``
+        (|D| spans more binary orders on the boundary than double precision holds).
+    span : float
+        max − min of log₂|D| on the boundary (NaN if undefined).
+    """
+    _, lg = _boundary_log2(f, box)
     if not np.all(np.isfinite(lg)):
-        return 0
+        return 0, "undefined", math.nan
     hi, lo = float(np.max(lg)), float(np.min(lg))
-    offset = math.ceil(hi) - _LOG2_TOP
-    if offset <= 0 or lo - offset < -1000:
-        return 0
-    return offset
+    offset = max(0, math.ceil(hi) - _LOG2_TOP)
+    if lo - offset < _LOG2_BOTTOM:
+        return 0, "range", hi - lo
+    return offset, "", hi - lo
+
+
+def _undefined_note(f: NormalizedDispersion) -> str:
+    """Why D cannot be evaluated on an edge even with the exponent carried apart."""
+    plasma = f.dispersion.plasma
+    if krook.collisional(plasma):
+        return ("D overflows there: with collisional (Krook) species the susceptibility "
+                "is not a sum of Landau exponentials with bounded coefficients, so no "
+                "overflow-free form is available; raise the window's lower edge toward "
+                "the real axis (README, limits)")
+    if any(s.distribution == "kappa" for s in plasma.species):
+        return ("D is not defined there: the continued kappa functions have a branch cut "
+                "(Im zeta < -sqrt(kappa) on the imaginary zeta axis) that the edge "
+                "crosses; keep the window above it (README, limits)")
+    return _TOO_WIDE
+
+
+def _split(box: tuple[float, float, float, float], lg: np.ndarray
+           ) -> tuple[tuple[float, float, float, float], tuple[float, float, float, float]]:
+    """Halve ``box`` across the direction in which log|D| varies most on its boundary
+    (``lg``: the first 4(_PROBES + 1) probes of :func:`_boundary_log2`)."""
+    x0, x1, y0, y1 = box
+    n = _PROBES + 1
+    edges = [lg[i * n:(i + 1) * n] for i in range(4)]  # bottom, right, top, left
+    horizontal = max(float(np.ptp(edges[0])), float(np.ptp(edges[2])))
+    vertical = max(float(np.ptp(edges[1])), float(np.ptp(edges[3])))
+    if vertical >= horizontal:
+        ym = 0.5 * (y0 + y1)
+        return (x0, x1, y0, ym), (x0, x1, ym, y1)
+    xm = 0.5 * (x0 + x1)
+    return (x0, xm, y0, y1), (xm, x1, y0, y1)
+
+
+def _merge(parts: list[SurveyResult], box: tuple[float, float, float, float],
+           diameter: float) -> SurveyResult:
+    """One result for adjacent sub-boxes: roots on a shared edge (each sub-box shifts
+    such an edge outward, so both count them) are kept and counted once."""
+    roots: list = []
+    count: int | None = 0
+    evaluations = cells = 0
+    notes: list[str] = []
+    complete = True
+    for part in parts:
+        evaluations += part.evaluations
+        cells += part.cells
+        complete = complete and part.complete
+        count = None if count is None or part.count is None else count + part.count
+        for n in part.notes:
+            if n not in notes:
+                notes.append(n)
+        for r in part.roots:
+            twin = next((q for q in roots if q.converged and r.converged
+                         and abs(q.value - r.value) <= 1e-9 * max(abs(r.value), diameter)),
+                        None)
+            if twin is None:
+                roots.append(r)
+            elif count is not None:
+                count -= r.multiplicity
+    roots.sort(key=lambda r: (not r.converged, r.value.real, r.value.imag))
+    if count is not None:
+        found = sum(r.multiplicity for r in roots if r.converged)
+        complete = complete and found == count
+    return SurveyResult(roots=roots, count=count, evaluations=evaluations, cells=cells,
+                        box=box, notes=notes, complete=complete)
+
+
+def _survey_box(f: NormalizedDispersion, b: tuple[float, float, float, float],
+                excluded: list[complex], features: list[tuple[complex, float]],
+                rtol: float, splits: int) -> SurveyResult:
+    """:func:`survey` on one box: plain D, else a constant scale, else halves."""
+    f.dispersion.log2_offset = 0
+    res = find_roots(f, b, excluded=excluded, rtol=rtol, features=features)
+    if not any("is not finite" in n for n in res.notes):
+        return res
+    offset, why, span = _log2_offset(f, b)
+    if offset:
+        # |D| exceeds double precision on the box but fits after a constant scale
+        # 2^-offset (same zeros, same f'/f): survey that scaled D instead.
+        f.dispersion.log2_offset = offset
+        res = find_roots(f, b, excluded=excluded, rtol=rtol, features=features)
+        f.dispersion.log2_offset = 0
+        top = _offset_decades(offset)
+        res.notes.append(
+            f"|D| exceeds double precision on this window (up to about 1e{top}): D was "
+            f"surveyed as D/2^{offset} (same roots; residuals are of D/2^{offset})"
+        )
+        return res
+    if why == "range" and splits < _MAX_SPLITS and span <= _MAX_SPAN:
+        # log|D| spans more than double precision holds: survey halves, each with its
+        # own constant scale
+        _, lg = _boundary_log2(f, b)
+        halves = [_survey_box(f, h, excluded, features, rtol, splits + 1)
+                  for h in _split(b, lg)]
+        merged = _merge(halves, b, abs(complex(b[1] - b[0], b[3] - b[2])))
+        if splits == 0:
+            merged.notes.append(
+                "|D| spans more binary orders on this window than double precision holds: "
+                "it was surveyed in sub-boxes, each with its own constant scale")
+        return merged
+    # one plain note instead of the root layer's edge-by-edge ones
+    res.notes = [n for n in res.notes if "is not finite" not in n]
+    if why == "range":
+        res.notes.append(_TOO_WIDE)
+    else:
+        res.notes.append(_undefined_note(f))
+    return res
 
 
 def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | None = None
            ) -> SurveyResult:
-    """Every root of D in the window (or ``box``) at normalized ``k``."""
+    """Every root of D in the window (or ``box``) at normalized ``k``.
+
+    Where |D| exceeds double precision the window is surveyed as D/2^N with a constant N
+    (same zeros, same D'/D), from the overflow-free log|D| on its boundary; where one
+    constant cannot serve (|D| spans more than about 1900 binary orders) the window is
+    halved, up to 2^_MAX_SPLITS sub-boxes, each with its own N.
+    """
     f = function_at(case, k)
     b = window(case) if box is None else box
     # The root layer may shift an edge outward (a root or pole on it): list the excluded
@@ -514,30 +694,7 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     dr, di = 0.05 * (b[1] - b[0]), 0.05 * (b[3] - b[2])
     wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
     excluded, features = f.excluded(wide), f.features(wide)
-    res = find_roots(f, b, excluded=excluded, rtol=case.solver.tolerance, features=features)
-    if any("is not finite" in n for n in res.notes):
-        offset = _log2_offset(f, b)
-        if offset:
-            # |D| exceeds double precision on the window but fits after a constant
-            # scale 2^-offset (same zeros, same f'/f): survey that scaled D instead.
-            f.dispersion.log2_offset = offset
-            res = find_roots(f, b, excluded=excluded, rtol=case.solver.tolerance,
-                             features=features)
-            top = _offset_decades(offset)
-            res.notes.append(
-                f"|D| exceeds double precision on this window (up to about 1e{top}): D was "
-                f"surveyed as D/2^{offset} (same roots; residuals are of D/2^{offset})"
-            )
-    if any("is not finite" in n for n in res.notes):
-        res.notes.append(
-            "D overflows there: a Landau term exp(-zeta^2) exceeds double precision where "
-            "the edge runs below the real axis by more than about 26 widths of a resonance "
-            "(zeta = (omega - k_par V - n Omega)/(k w)): the width is k*w of a cold species "
-            "unmagnetized, k_par*w_par near a cyclotron harmonic n*Omega + k_par*V when "
-            "magnetized; raise the window's lower edge toward the real axis there, or keep "
-            "it away from those harmonics (README, limits)"
-        )
-    return res
+    return _survey_box(f, b, excluded, features, case.solver.tolerance, 0)
 
 
 

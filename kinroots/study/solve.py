@@ -315,7 +315,7 @@ def follow_branches(
         else:
             tb.end_reason, tb.end_k, tb.note = _end_text(fb), fb.end_param, fb.note
 
-    def reconcile(i: int, j: int, last_ok: int) -> None:
+    def reconcile(i: int, j: int, last_ok: int) -> SurveyResult:
         """Survey at point i (count and rows differ) and start branches for new roots."""
         s = do_survey(i)
         current = [b.points[params[i]].value for b in results
@@ -329,6 +329,7 @@ def follow_branches(
             if not r.converged:
                 notes.append(f"unsolved root near {r.value!r} at {label(params[i])}: "
                              f"{r.reason}")
+        return s
 
     s0 = do_survey(0)
     for root in s0.roots:
@@ -367,8 +368,17 @@ def follow_branches(
             for c in got:
                 counts[c.param] = (c.count, c.note)
             for m in range(i, j + 1):
-                n, _ = counts[params[m]]
+                n, why = counts[params[m]]
                 rows = rows_at(params[m])
+                if n is None and "not finite" in why:
+                    # |D| on the boundary spans more than double precision holds even
+                    # scaled by one constant: the survey counts in sub-boxes instead
+                    s = reconcile(m, j, last_ok)
+                    counts[params[m]] = (s.count, why if s.count is None else "")
+                    n, rows = s.count, rows_at(params[m])
+                    if n is not None and n == rows:
+                        last_ok, surveyed_deficit = m, None
+                    continue
                 if n is None:
                     continue
                 if n == rows:
@@ -451,7 +461,7 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
     ks = [float(k) for k in case.k_values]
     box = window(case)
     branches, surveys, evaluations, notes, checks = follow_branches(
-        lambda k: function_at(case, k),
+        lambda k: function_at(case, k, auto_window=box),
         ks,
         box,
         lambda k: survey(case, k),
