@@ -4,6 +4,7 @@ found and spent, and a guard that stops it says so and flags the result incomple
 from __future__ import annotations
 
 import mpmath as mp
+import numpy as np
 import pytest
 import scipy.constants as sc
 
@@ -160,3 +161,91 @@ def test_max_roots_stops_after_counting(ion_acoustic) -> None:
     assert any("more than the limit of 10" in n for n in res.notes)
     # the count alone is cheap: the boundary only
     assert res.evaluations < 1000
+
+
+# An invented magnetized hydrogen plasma (B = 0.1 T, n = 1e18 m^-3, Te = Ti = 10 eV),
+# electromagnetic, θ = 60°, k d_p = 1: k∥ w_i ≈ 0.01 Ω_ci, so each proton cyclotron
+# harmonic is a resonance of width 0.01 Ω_ci.  The window of issue 15, Im ω ∈ [−0.1, 0.1]
+# Ω_ci, reaches 10 widths below the real axis.
+HYDROGEN = """
+title = "Magnetized hydrogen near the proton cyclotron harmonics"
+[magnetic_field]
+B = 0.1
+[[species]]
+name = "e"
+charge = -1
+mass = "electron"
+density = 1.0e18
+temperature = 10.0
+[[species]]
+name = "H+"
+charge = 1
+mass = "proton"
+density = 1.0e18
+temperature = 10.0
+[wave]
+model = "electromagnetic"
+angle = 60.0
+[scan]
+k = { start = 1.0, stop = 1.1, points = 2 }
+[units]
+frequency = "cyclotron:H+"
+length = "inertial:H+"
+[search]
+real = [0.05, 3.0]
+imag = [-0.1, 0.1]
+"""
+
+
+@pytest.fixture(scope="module")
+def hydrogen(tmp_path_factory):
+    path = tmp_path_factory.mktemp("h") / "hydrogen.toml"
+    path.write_text(HYDROGEN)
+    return load_case(path)
+
+
+def test_harmonic_window_refused_at_once_where_d_is_rounding_noise(hydrogen) -> None:
+    f = function_at(hydrogen, 1.0)
+    # the proton harmonics are listed as narrow features of width k∥w∥ (centres nΩ_ci)
+    widths = {round(c.real): w for c, w in f.features((0.05, 3.0, -0.1, 0.1))}
+    assert {1, 2, 3} <= set(widths)
+    assert all(0.009 < widths[n] < 0.011 for n in (1, 2, 3))
+    # D there is rounding noise: at neighbouring points 1e-9 Ω_ci apart it changes by far
+    # more than D' predicts (an analytic D changes by D'·1e-9 to first order)
+    z = np.array([1.02 - 0.1j, 1.02 - 0.1j + 1e-9])
+    d, dd = f(z)
+    assert abs((d[1] - d[0]) / 1e-9 / dd[0] - 1) > 10
+    # ... and not overflow: |D| is finite there (about 1e127, a noise level; double D
+    # overflows only beyond 1e308)
+    assert np.all(np.isfinite(d))
+    res = survey(hydrogen, 1.0)
+    assert res.count is None and not res.complete and not res.values.size
+    assert any("rounding noise" in n for n in res.notes)
+    assert any("cyclotron harmonic" in n for n in res.notes)
+    assert not any("budget" in n for n in res.notes)
+    # refused at once: before the noise test the same window spent 42,197 evaluations
+    # and ran out of budget
+    assert res.evaluations < 3000
+
+
+def test_harmonic_window_within_two_widths_counted_on_sub_boxes(hydrogen) -> None:
+    box = (0.05, 3.0, -0.025, 0.1)
+    full = survey(hydrogen, 1.0, box=box)
+    assert full.complete and full.box == box, full.notes
+    assert full.count == len(full.values) >= 5
+    # zeros beside the first two harmonics, damped by about k∥w∥ (0.01 Ω_ci)
+    near = [w for w in full.values if min(abs(w.real - 1), abs(w.real - 2)) < 0.05]
+    assert len(near) >= 4 and all(-0.025 < w.imag < -0.005 for w in near)
+    # the same zeros counted independently on six sub-boxes (cuts between harmonics)
+    cuts_re, cut_im = (0.05, 0.7, 1.6, 2.4, 3.0), 0.013
+    subs = [(a, b, box[2], cut_im) for a, b in zip(cuts_re, cuts_re[1:], strict=False)]
+    subs += [(0.05, 1.6, cut_im, box[3]), (1.6, 3.0, cut_im, box[3])]
+    total, found = 0, []
+    for b in subs:
+        s = survey(hydrogen, 1.0, box=b)
+        assert s.complete and s.box == b, s.notes
+        total += s.count
+        found.extend(s.values)
+    assert total == full.count
+    for w in full.values:  # each zero of the window is a zero of exactly one piece
+        assert sum(abs(v - w) <= 1e-9 * abs(w) for v in found) == 1, w

@@ -35,6 +35,7 @@ __all__ = [
     "circle_contour",
     "feature_params",
     "hankel_zeros",
+    "noisy_segments",
     "segment_ok",
 ]
 
@@ -91,6 +92,38 @@ def segment_ok(
             & (np.abs(dlog - 0.5 * (p0 + p1)) <= 0.5 * PHASE_STEP)
         )
     return ok
+
+
+#: A failing segment shorter than this fraction of its edge, whose ends both predict
+#: almost no change of f while f changes (:func:`noisy_segments`), marks f as rounding
+#: noise there.
+NOISE_LENGTH = 1e-3
+
+
+def noisy_segments(z: np.ndarray, fv: np.ndarray, dv: np.ndarray) -> np.ndarray:
+    """Segments whose change of f contradicts f'/f at both ends: rounding noise.
+
+    Returns
+    -------
+    ndarray of bool
+        One entry per segment: ``|g_0 Δz|`` and ``|g_1 Δz|`` (g = f'/f) are both below
+        ``PHASE_STEP/8`` — f'/f at both ends says log f changes by less than 0.1 — while
+        the actual change of log f differs from that prediction by more than
+        ``PHASE_STEP/2``.  For an analytic f this needs a feature narrower than the
+        segment between its ends (which bisection resolves: the feature then lies at a
+        sample, where |f'/f| is large); where it persists on ever shorter segments, the
+        values of f are dominated by rounding errors (e.g. a determinant whose terms
+        cancel far below their size), and no sampling can count its zeros.
+    """
+    with np.errstate(all="ignore"):
+        g = dv / fv
+        dz = np.diff(z)
+        ratio = fv[1:] / fv[:-1]
+        dlog = np.log(np.abs(ratio)) + 1j * np.angle(ratio)
+        p0 = g[:-1] * dz
+        p1 = g[1:] * dz
+        small = (np.abs(p0) <= PHASE_STEP / 8) & (np.abs(p1) <= PHASE_STEP / 8)
+        return small & (np.abs(dlog - 0.5 * (p0 + p1)) > 0.5 * PHASE_STEP)
 
 
 def _closed_log_increments(fv: np.ndarray) -> np.ndarray:
@@ -206,6 +239,7 @@ class EdgeStatus:
     resolved: bool
     trouble: list[complex] = field(default_factory=list)  # where it could not resolve
     nonfinite: bool = False  # f or f' was not finite at a sample (e.g. overflow)
+    noisy: bool = False  # f is rounding noise there (:func:`noisy_segments`)
 
 
 def feature_params(edge: Edge, features: Sequence[tuple[complex, float]], spacing: float
@@ -302,7 +336,10 @@ class BoundarySampler:
 
         A segment that fails is bisected; one still failing when shorter than
         ``min_len``, or a sample where f is zero or not finite, makes the edge
-        unresolved (a zero or pole on or extremely near it).
+        unresolved (a zero or pole on or extremely near it).  A failing segment shorter
+        than :data:`NOISE_LENGTH` × the edge whose values contradict f'/f at both ends
+        (:func:`noisy_segments`) makes it unresolved at once, marked ``noisy``: f is
+        rounding noise there, and bisecting further would only spend the budget.
         """
         first = []
         for e in edges:
@@ -336,6 +373,12 @@ class BoundarySampler:
                     continue
                 bad = np.flatnonzero(~ok)
                 seglen = np.abs(np.diff(z))[bad]
+                noise = noisy_segments(z, f, d)[bad] & (
+                    seglen <= NOISE_LENGTH * abs(e.t1 - e.t0))
+                if np.any(noise):
+                    where = [complex(0.5 * (z[j] + z[j + 1])) for j in bad[noise]]
+                    status[i] = EdgeStatus(False, where, noisy=True)
+                    continue
                 if np.any(seglen <= min_len):
                     where = [complex(0.5 * (z[j] + z[j + 1])) for j in bad[seglen <= min_len]]
                     status[i] = EdgeStatus(False, where)

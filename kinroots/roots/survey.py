@@ -182,6 +182,17 @@ class _Survey:
                     "the window's boundary before its zeros could be counted")
                 return None
             names = ("bottom", "right", "top", "left")
+            noisy = [i for i in bad if status[i].noisy]
+            if noisy:
+                for i in noisy:
+                    where = ", ".join(f"{z:.6g}" for z in status[i].trouble[:3])
+                    self.notes.append(
+                        f"f is rounding noise on the {names[i]} edge near {where} (its "
+                        "values between close samples contradict f'/f: precision lost, "
+                        "e.g. by cancellation): the box cannot be surveyed; choose one "
+                        "that stays where f is accurate")
+                self.box = box
+                return None
             overflow = [i for i in bad if status[i].nonfinite]
             if overflow:
                 for i in overflow:
@@ -244,6 +255,8 @@ class _Survey:
             if not st.resolved:
                 if self.sampler.budget_exhausted:
                     return None
+                if st.noisy:
+                    self._noise_note(st.trouble)
                 continue
             edges = [e for k in kids for e in rectangle_edges(k)]
             sts = self.sampler.resolve(edges, n_init=1, min_len=1e-7 * self.diam0)
@@ -258,6 +271,15 @@ class _Survey:
             else:
                 return out
         return None
+
+    def _noise_note(self, where: list[complex]) -> None:
+        if any("rounding noise" in n for n in self.notes):
+            return
+        self.notes.append(
+            "f is rounding noise inside the window near "
+            + ", ".join(f"{z:.6g}" for z in where[:3])
+            + " (its values between close samples contradict f'/f): cells there cannot "
+            "be subdivided")
 
     # -- solving cells -------------------------------------------------------------
     def _tol(self, z: complex) -> float:

@@ -677,6 +677,17 @@ def _survey_box(f: NormalizedDispersion, b: tuple[float, float, float, float],
     return res
 
 
+#: Why D is rounding noise near cyclotron harmonics deep in the lower half-plane.
+_NOISE_NOTE = (
+    "D is rounding noise there: near a cyclotron harmonic n*Omega + k_par*V, below the "
+    "real axis by more than a few k_par*w_par of that species, its resonant term "
+    "exp(-zeta^2) grows so large that the 3x3 determinant cancels far below its terms "
+    "(at small k_perp*rho that term is nearly of rank one), and no sampling can count "
+    "zeros there; keep the window's lower edge within about 2 k_par*w_par of the real "
+    "axis near those harmonics, or away from them (README, limits)"
+)
+
+
 def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | None = None
            ) -> SurveyResult:
     """Every root of D in the window (or ``box``) at normalized ``k``.
@@ -694,7 +705,12 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     dr, di = 0.05 * (b[1] - b[0]), 0.05 * (b[3] - b[2])
     wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
     excluded, features = f.excluded(wide), f.features(wide)
-    return _survey_box(f, b, excluded, features, case.solver.tolerance, 0)
+    res = _survey_box(f, b, excluded, features, case.solver.tolerance, 0)
+    if any("rounding noise" in n for n in res.notes):
+        res.notes.append(_NOISE_NOTE if f.dispersion.magnetized else
+                         "D has lost its precision there (cancellation between terms far "
+                         "larger than D): move the window's edges toward the real axis")
+    return res
 
 
 
