@@ -1,0 +1,188 @@
+"""Windows where |D| exceeds double precision (issue 15, item 1): survey cost and the
+overhead of the overflow-free evaluation.
+
+Plain script (not collected by pytest): ``.venv/bin/python benchmarks/bench_overflow.py``.
+
+1. Survey cost (dispersion evaluations, deterministic; wall time, machine-dependent) for
+   windows that kinroots refused before the overflow-free evaluation ("f is not finite
+   on the bottom edge"), each beside the narrower window that double precision handles
+   unscaled, timed in the same run.
+2. Overhead of :meth:`Dispersion.scaled` (mantissa and binary exponent per point) and of
+   a survey's scaled call (``log2_offset`` set) against the plain ``Dispersion(ω)`` at
+   points where double D is finite, 1000 ω per call, four models; floor ≤ 1.5×.
+Ratios are meaningful only within one run; on a loaded machine they move by tens of
+percent.
+"""
+
+from __future__ import annotations
+
+import time
+import timeit
+from pathlib import Path
+from tempfile import TemporaryDirectory
+
+import numpy as np
+
+from kinroots.io.case import load_case
+from kinroots.physics.dispersion import Dispersion
+from kinroots.physics.plasma import M_ELECTRON, M_PROTON, Plasma, Species
+from kinroots.study.problem import survey
+
+FLOOR = 1.5
+N_OMEGA = 1000
+
+_HOT_IONS = """
+title = "hot-ion ion acoustic"
+[[species]]
+name = "e"
+charge = -1
+mass = "electron"
+density = 1.0e18
+temperature = 100.0
+[[species]]
+name = "H+"
+charge = 1
+mass = "proton"
+density = 1.0e18
+temperature = 100.0
+[wave]
+model = "electrostatic"
+angle = 0.0
+[scan]
+k = { start = 0.5, stop = 0.6, points = 2 }
+[units]
+frequency = "plasma:e"
+length = "debye:e"
+"""
+
+_WEIBEL = """
+title = "Weibel, k along the anisotropy axis"
+[magnetic_field]
+B = 0.0
+[[species]]
+name = "e"
+charge = -1
+mass = "electron"
+density = 1.0e18
+temperature_par = 100.0
+temperature_perp = 500.0
+[[species]]
+name = "H+"
+charge = 1
+mass = "proton"
+density = 1.0e18
+temperature = 500.0
+[wave]
+model = "electromagnetic"
+angle = 0.0
+[scan]
+k = { start = 0.5, stop = 0.6, points = 2 }
+[units]
+frequency = "plasma:e"
+length = "inertial:e"
+"""
+
+_OBLIQUE = """
+title = "oblique electromagnetic hydrogen plasma"
+[magnetic_field]
+B = 0.1
+[[species]]
+name = "e"
+charge = -1
+mass = "electron"
+density = 1.0e18
+temperature = 10.0
+[[species]]
+name = "H+"
+charge = 1
+mass = "proton"
+density = 1.0e18
+temperature = 10.0
+[wave]
+model = "electromagnetic"
+angle = 60.0
+[scan]
+k = { start = 0.5, stop = 0.6, points = 2 }
+[units]
+frequency = "cyclotron:H+"
+length = "gyroradius:H+"
+"""
+
+#: (name, case text, k, wide window (used to be refused), narrow window (double precision))
+WINDOWS = [
+    ("ES hot ions, chi_i overflows", _HOT_IONS, 0.5,
+     (-0.1, 0.1, -0.45, 0.05), (-0.1, 0.1, -0.2, 0.05)),
+    ("ES hot ions, |D| 1e1598", _HOT_IONS, 0.5,
+     (-0.1, 0.1, -1.0, 0.05), (-0.1, 0.1, -0.2, 0.05)),
+    ("EM Weibel, |D| 1e490", _WEIBEL, 0.5,
+     (-0.002, 0.002, -0.01, 0.02), (-0.002, 0.002, -0.004, 0.02)),
+    ("EM Weibel, |D| 1e4000", _WEIBEL, 0.5,
+     (-0.002, 0.002, -0.03, 0.02), (-0.002, 0.002, -0.004, 0.02)),
+    ("EM oblique B, 1e535", _OBLIQUE, 0.5,
+     (0.2, 0.9, -5.0, 0.2), (0.2, 0.9, -3.0, 0.2)),
+]
+
+
+def best(f, number: int, repeat: int = 3) -> float:
+    """Best time of one call [s] (min over repeats of the mean over ``number`` calls)."""
+    return min(timeit.repeat(f, number=number, repeat=repeat)) / number
+
+
+def surveys() -> None:
+    print("1. survey of windows that used to be refused, beside the narrower window that "
+          "double precision handles")
+    print(f"{'window':26s} {'evals':>7s} {'time [s]':>9s} {'roots':>6s} {'complete':>9s}"
+          f" | {'narrow evals':>12s} {'time [s]':>9s} {'roots':>6s}")
+    with TemporaryDirectory() as tmp:
+        for name, text, k, wide, narrow in WINDOWS:
+            path = Path(tmp) / "case.toml"
+            path.write_text(text)
+            case = load_case(path)
+            t0 = time.perf_counter()
+            res = survey(case, k, box=wide)
+            t1 = time.perf_counter()
+            ref = survey(case, k, box=narrow)
+            t2 = time.perf_counter()
+            print(f"{name:26s} {res.evaluations:7d} {t1 - t0:9.2f} {len(res.roots):6d} "
+                  f"{str(res.complete):>9s} | {ref.evaluations:12d} {t2 - t1:9.2f} "
+                  f"{len(ref.roots):6d}")
+
+
+def overhead() -> float:
+    print(f"\n2. overflow-free evaluation where double D is finite, {N_OMEGA} ω per call "
+          f"(floor: ≤ {FLOOR}x plain)")
+    rng = np.random.default_rng(0)
+    electrons = Species("e", -1, M_ELECTRON, 1.0e18, 10.0, 15.0)
+    protons = Species("p", 1, M_PROTON, 1.0e18, 5.0, 5.0)
+    wpe = electrons.plasma_frequency
+    k = 0.3 / electrons.debye_length
+    om = (rng.uniform(0.05, 3.0, N_OMEGA) + 1j * rng.uniform(-0.3, 0.5, N_OMEGA)) * wpe
+    print(f"{'model':16s} {'B':>5s} {'ω':>5s} {'plain [ms]':>11s} {'scaled':>8s} {'ratio':>6s} "
+          f"{'offset':>8s} {'ratio':>6s} {'floor':>6s}")
+    worst = 0.0
+    for model, b, angle in [("electrostatic", 0.0, 30.0), ("electromagnetic", 0.0, 30.0),
+                            ("electrostatic", 0.05, 30.0), ("electromagnetic", 0.05, 30.0)]:
+        d = Dispersion(Plasma((electrons, protons), b), k=k, angle_deg=angle, model=model,
+                       omega_ref=wpe)
+        v, dv = d(om)
+        pts = om[np.isfinite(v) & np.isfinite(dv)]  # where double D is finite
+        t_plain = best(lambda d=d, pts=pts: d(pts), number=5)
+        t_scaled = best(lambda d=d, pts=pts: d.scaled(pts), number=5)
+        d.log2_offset = 64
+        t_offset = best(lambda d=d, pts=pts: d(pts), number=5)
+        d.log2_offset = 0
+        r1, r2 = t_scaled / t_plain, t_offset / t_plain
+        worst = max(worst, r1, r2)
+        print(f"{model:16s} {b:5.2f} {pts.size:5d} {t_plain * 1e3:11.3f} "
+              f"{t_scaled * 1e3:8.3f} {r1:6.2f} {t_offset * 1e3:8.3f} {r2:6.2f} {FLOOR:6.1f}")
+    print(f"worst ratio {worst:.2f} (floor {FLOOR}): {'met' if worst <= FLOOR else 'NOT met'}")
+    return worst
+
+
+def main() -> None:
+    surveys()
+    overhead()
+
+
+if __name__ == "__main__":
+    main()
