@@ -524,3 +524,44 @@ def test_moments_of_one_lambda_equal_the_recurrence_and_exact_moments():
         assert np.allclose(mixed[m][:2], one[m][:2], rtol=1e-13, atol=0)
         assert np.allclose(done[m], slope, rtol=1e-6, atol=0)
         assert np.allclose(dmixed[m][:2], done[m][:2], rtol=1e-13, atol=0)
+
+
+def test_check_exits_2_naming_the_key_for_an_edge_through_a_pole(tmp_path):
+    """`kinroots check` (CLI): exit 2, the key and file named, no traceback."""
+    from typer.testing import CliRunner
+
+    from kinroots.cli import app
+
+    path = tmp_path / "edge.toml"
+    path.write_text("""
+title = "edge on the proton cyclotron frequency"
+[magnetic_field]
+B = 0.5
+[[species]]
+name = "e"
+charge = -1
+mass = "electron"
+density = 1e18
+temperature = 5.0
+[[species]]
+name = "H+"
+charge = 1
+mass = "proton"
+density = 1e18
+temperature = 5.0
+[wave]
+model = "electrostatic"
+angle = 90.0
+[scan]
+k = { start = 0.1, stop = 4.0, points = 4 }
+[units]
+frequency = "cyclotron:H+"
+length = "gyroradius:H+"
+[search]
+real = [1.0, 2.98]
+imag = [-0.05, 0.05]
+""")
+    result = CliRunner().invoke(app, ["check", str(path)])
+    text = result.stdout + result.stderr
+    assert result.exit_code == 2, text
+    assert "search.real" in text and "edge.toml" in text and "Traceback" not in text
