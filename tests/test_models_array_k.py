@@ -259,3 +259,26 @@ def test_cached_bessel_weights_are_the_computed_ones_and_read_only():
         with pytest.raises(ValueError):
             a[0] = 1.0
     assert first.harmonics == fresh.harmonics
+
+
+@pytest.mark.parametrize("name", BUILDERS)
+def test_flattened_pairs_with_repeated_wavevectors_share_rows_correctly(name, monkeypatch):
+    """Pairs as the tracer and the zero counts send them: each (k∥, k⊥) repeated with
+    many ω, flattened, and two wavevectors with the same k⊥ but different k∥ (parallel
+    propagation: k⊥ = 0). Rows are shared per distinct wavevector, never per k⊥ alone;
+    every element equals its scalar call."""
+    monkeypatch.setattr(_harmonics, "SHARED_ROW_MIN", 4)
+    rng = np.random.default_rng(11)
+    species = random_species(rng)
+    B = 1.0
+    omega_c = abs(species.cyclotron_frequency(B))
+    scale = omega_c / species.thermal_speed_par
+    k_par = np.array([0.3, 0.7, 0.5]) * scale
+    k_perp = np.array([0.4, 0.4, 0.0]) * scale  # the first two: same k_perp, other k_par
+    kp = np.repeat(k_par, 6)
+    kq = np.repeat(k_perp, 6)
+    omega = (rng.uniform(-3, 3, kp.size) + 0.1j) * omega_c
+    res = call(name, omega, species, kp, kq, B, omega_c)
+    for i in range(kp.size):
+        one = call(name, omega[i], species, complex(kp[i]), complex(kq[i]), B, omega_c)
+        assert_close(res.value[i], one.value, RTOL, f"{name} element {i}")

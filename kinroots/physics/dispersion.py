@@ -421,25 +421,12 @@ class Dispersion:
         #: Electromagnetic models with plain species (magnetized: k∥ ≠ 0): Σ_s S_s from the
         #: module's ``ScaledSum`` (per-k constants cached, one Z or moment call for every
         #: species and harmonic); None where the builders serve.
-        self._scaled_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
-        if self.electromagnetic and plain_species(plasma.species):
-            module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
-            factory = getattr(module, "ScaledSum", None)
-            if factory is not None:
-                self._scaled_sum = factory.for_species(
-                    tuple(plasma.species), k_par=self.k_par, k_perp=self.k_perp, B=plasma.B,
-                    tol=self.harmonic_tol, omega_ref=self.omega_ref)
-        #: Electrostatic models whose module offers ``SpeciesSum`` (constants per species
-        #: cached here, since k is fixed; every species in one pass): Σχ_s from it.
-        self._species_sum: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
-        if not self.electromagnetic and plain_species(plasma.species):
-            module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
-            factory = getattr(module, "SpeciesSum", None)
-            if factory is not None:
-                extra = {"B": plasma.B, "tol": self.harmonic_tol} if self.magnetized else {}
-                self._species_sum = factory.for_species(
-                    tuple(plasma.species), k_par=self.k_par, k_perp=self.k_perp, **extra
-                )
+        #: Built on first evaluation (:meth:`_sums`): a Dispersion made only for its
+        #: resonances, harmonics or singular points (a survey's sampling aids) skips the
+        #: per-k tables (about 3 ms for three magnetized species).
+        self._sums_ready = False
+        self._scaled_sum_: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
+        self._species_sum_: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
         if self.electromagnetic:
             self.scaling = (
                 f"D = (omega/omega_ref)^4 det(Lambda), omega_ref = {self.omega_ref!r} rad/s: "
@@ -450,6 +437,42 @@ class Dispersion:
             self.scaling = "D = 1 + sum_s chi_s (longitudinal dielectric), unscaled"
 
     # ------------------------------------------------------------------ helpers
+    def _sums(self) -> None:
+        """Build the fixed-k species sums once (models whose module offers them)."""
+        if self._sums_ready:
+            return
+        self._sums_ready = True
+        species = self.plasma.species
+        if not plain_species(species):
+            return
+        module = importlib.import_module(_REGISTRY[(self.model, self.magnetized)])
+        if self.electromagnetic:
+            factory = getattr(module, "ScaledSum", None)
+            if factory is not None:
+                self._scaled_sum_ = factory.for_species(
+                    tuple(species), k_par=self.k_par, k_perp=self.k_perp, B=self.plasma.B,
+                    tol=self.harmonic_tol, omega_ref=self.omega_ref)
+            return
+        #: Electrostatic models whose module offers ``SpeciesSum`` (constants per species
+        #: cached here, since k is fixed; every species in one pass): Σχ_s from it.
+        factory = getattr(module, "SpeciesSum", None)
+        if factory is not None:
+            extra = {"B": self.plasma.B, "tol": self.harmonic_tol} if self.magnetized else {}
+            self._species_sum_ = factory.for_species(
+                tuple(species), k_par=self.k_par, k_perp=self.k_perp, **extra)
+
+    @property
+    def _scaled_sum(self) -> Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None:
+        """Σ_s S_s from the module's ``ScaledSum`` (electromagnetic, plain species) or None."""
+        self._sums()
+        return self._scaled_sum_
+
+    @property
+    def _species_sum(self) -> Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None:
+        """Σ_s χ_s from the module's ``SpeciesSum`` (electrostatic, plain species) or None."""
+        self._sums()
+        return self._species_sum_
+
     def _slowest_scale(self) -> float:
         scales = []
         parts = [part for s in self.plasma.species for _, part in s.component_species()]

@@ -17,6 +17,7 @@ with its reason (``point_checks``).
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -460,8 +461,10 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
     """
     ks = [float(k) for k in case.k_values]
     box = window(case)
+    # the normalized D of a k, shared by the tracer and the counts' feature sampling
+    at = functools.lru_cache(maxsize=16)(lambda k: function_at(case, k, auto_window=box))
     branches, surveys, evaluations, notes, checks = follow_branches(
-        lambda k: function_at(case, k, auto_window=box),
+        at,
         ks,
         box,
         lambda k: survey(case, k),
@@ -475,7 +478,7 @@ def solve(case: Case, *, progress: Callable[[int, int], None] | None = None,
         excluded=function_at(case, float(np.max(ks))).excluded(box),
         count=count,
         should_stop=should_stop,
-        features=lambda k: function_at(case, k).features(box),
+        features=lambda k: at(k).features(box),
     )
     return Solution(case=case, branches=branches, surveys=surveys, evaluations=evaluations,
                     notes=notes, point_checks=checks)

@@ -812,8 +812,8 @@ class ArraySetup:
     omega, k_par, k_perp : ndarray of complex
         The E elements, flattened (C order).
     row : ndarray of int
-        For each element, its row of ``lam`` and ``weights`` (one row per element of the
-        broadcast of k∥ and k⊥ alone, so that many ω at one k share one row).
+        For each element, its row of ``lam`` and ``weights`` (one row per distinct
+        (k∥, k⊥), so that many ω at one k share one row).
     lam : ndarray of complex
         λ per row.
     weights : BesselWeights
@@ -866,8 +866,8 @@ def prepare_species_array(
 ) -> ArraySetup | Susceptibility:
     """:func:`prepare_species` for array k: the elements and their weights.
 
-    ω, k∥ and k⊥ are broadcast together; λ and the weights are computed once per element
-    of the broadcast of k∥ and k⊥ (:func:`bessel_weights_array`). Returns a non-finite
+    ω, k∥ and k⊥ are broadcast together; λ and the weights are computed once per
+    distinct (k∥, k⊥) (:func:`bessel_weights_array`). Returns a non-finite
     :class:`Susceptibility` shaped ``shape + tail`` when a species constant or B is not
     finite; bad elements are marked in ``good``.
     """
@@ -879,10 +879,20 @@ def prepare_species_array(
     shape = np.broadcast_shapes(om.shape, kpar.shape)
     if not all(math.isfinite(x) for x in (B, wpar, wperp, omega_c, drift)):
         return nan_susceptibility(shape + tail, 0)
+    # one row per distinct wavevector (a batch of pairs holds a few k, each with many
+    # ω): the Bessel weights are computed once per k, and elements of one row share k∥
+    # and k⊥ (evaluate_array's shared-row path relies on it)
+    kp = kperp.ravel()
+    both = np.stack((kpar.ravel(), kp), axis=1)
+    rows_k = np.arange(kp.size).reshape(kpar.shape)
+    if kp.size > 1 and np.all(np.isfinite(both)):
+        distinct, inverse = np.unique(both, axis=0, return_inverse=True)
+        if len(distinct) < kp.size:
+            kp, rows_k = distinct[:, 1], inverse.reshape(kpar.shape)
     with np.errstate(all="ignore"):
-        lam = _lam(kperp.ravel(), wperp, omega_c)
+        lam = _lam(kp, wperp, omega_c)
     weights = bessel_weights_array(lam, tol)
-    row = np.broadcast_to(np.arange(lam.size).reshape(kpar.shape), shape).ravel()
+    row = np.broadcast_to(rows_k, shape).ravel()
     om_e = np.broadcast_to(om, shape).ravel()
     kpar_e = np.broadcast_to(kpar, shape).ravel()
     kperp_e = np.broadcast_to(kperp, shape).ravel()
