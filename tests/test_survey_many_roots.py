@@ -3,6 +3,8 @@ found and spent, and a guard that stops it says so and flags the result incomple
 
 from __future__ import annotations
 
+import math
+
 import mpmath as mp
 import numpy as np
 import pytest
@@ -10,7 +12,9 @@ import scipy.constants as sc
 
 from kinroots.io.case import load_case
 from kinroots.roots import find_roots
+from kinroots.roots.survey import noise_error
 from kinroots.study.problem import function_at, survey
+from kinroots.study.rows import relative_error
 
 # An invented hydrogen plasma with Te/Ti = 100, unmagnetized, electrostatic.  At
 # k λ_De = 1 the window reaches 1.3 ω_pi below the real axis: besides the weakly damped
@@ -249,3 +253,43 @@ def test_harmonic_window_within_two_widths_counted_on_sub_boxes(hydrogen) -> Non
     assert total == full.count
     for w in full.values:  # each zero of the window is a zero of exactly one piece
         assert sum(abs(v - w) <= 1e-9 * abs(w) for v in found) == 1, w
+
+
+def test_noise_error_of_a_zero() -> None:
+    # analytic f: the remainders fall as the square of the distance, no noise is seen
+    def smooth(z):
+        return np.sin(z) * np.exp(z), (np.cos(z) + np.sin(z)) * np.exp(z)
+
+    assert noise_error(smooth, complex(math.pi), 1e-4) < 1e-13
+    # the same with a deterministic rough "noise" of 1e-8 |f'| added to f (not to f')
+    rng = np.random.default_rng(5)
+
+    def rough(z):
+        v, d = smooth(z)
+        return v + 1e-8 * math.exp(math.pi) * rng.uniform(-1, 1, z.shape), d
+
+    err = noise_error(rough, complex(math.pi), 1e-4)
+    assert 1e-9 < err < 3e-8
+
+
+def test_roots_where_d_is_noise_carry_their_accuracy(hydrogen) -> None:
+    # 4.5 widths k∥w∥ below the real axis D keeps about 8 of its digits beside the first
+    # harmonic: the zeros there are counted (the phase is still right) but their values
+    # are accurate to ~1e-8, not to the 1e-12 tolerance, and say so
+    res = survey(hydrogen, 1.0, box=(0.05, 3.0, -0.045, 0.1))
+    assert res.complete
+    f = function_at(hydrogen, 1.0)
+    flagged = [r for r in res.roots if r.noise_error > 0]
+    assert flagged
+    for r in res.roots:
+        # independent look: D's remainder from its linear model at 1e-7 and 1e-6
+        # (an analytic D's falls a hundredfold; noise does not fall)
+        z = r.value + np.array([0.0, 1e-6, 1e-7])
+        d, dd = f(z)
+        rem = np.abs(d[1:] - d[0] - dd[0] * (z[1:] - z[0])) / abs(dd[0])
+        noisy = rem[1] > 0.1 * rem[0] and rem[1] > 1e-11
+        assert noisy == (r.noise_error > 0), (r.value, rem)
+        if noisy:
+            assert "rounding noise" in r.reason
+            assert relative_error(r) >= r.noise_error / abs(r.value)
+            assert 1e-9 < r.noise_error < 1e-6

@@ -77,6 +77,11 @@ class RootResult:
         ``value`` minus the last Newton correction: not evaluated (so not reported as
         the root), but for a simple zero quadratically closer to it; continuation uses it
         to extrapolate.
+    noise_error : float
+        Absolute uncertainty of ``value`` from rounding noise in f, measured around it by
+        the survey (:func:`kinroots.roots.survey.noise_error`); 0 where f is smooth on the
+        scale of the tolerance.  When it exceeds the stopping test's tolerance the root is
+        no more accurate than this (``reason`` says so).
     """
 
     value: complex
@@ -91,6 +96,7 @@ class RootResult:
     multiplicity: int = 1
     method: str = "newton"
     refined: complex | None = None
+    noise_error: float = 0.0
 
 
 def failed_root(value: complex, status: Status, reason: str, *, method: str) -> RootResult:

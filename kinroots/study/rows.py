@@ -44,12 +44,14 @@ class _Traced(Protocol):
 def relative_error(r: RootResult) -> float | None:
     """Estimated relative error of a root, |δz|/|z|: the Newton correction computed at the
     reported value (``refined``), divided by its modulus.  For a simple zero the error
-    of the value is of that size; unlike the residual |D|, whose scale depends on how the
+    of the value is of that size (or of the root's ``noise_error``, where D is rounding
+    noise at the root's scale, if larger); unlike the residual |D|, whose scale depends on how the
     model writes D, it compares between models (common practice).  None for a failed
     root or when no correction was computed."""
     if not r.converged or r.refined is None or r.value == 0:
         return None
-    return abs(r.value - r.refined) / abs(r.value)
+    # where D is rounding noise at the root's scale, the noise bounds the accuracy
+    return max(abs(r.value - r.refined), r.noise_error) / abs(r.value)
 
 
 def relative_residual(case: Case, k: complex, omega_si: complex) -> float | None:
