@@ -633,7 +633,7 @@ class Dispersion:
         coefficients, so two evaluations, one with every such term times 2^−b
         (:func:`kinroots.physics.zfunc.landau_shift`) and one without them, give the
         regular part R and the exponential part X of each entry with entry = R + 2^b X.
-        b is chosen from the largest Re(−ζ²) at the point (:meth:`_landau_bits`).
+        b is chosen from the largest Re(−ζ²) at the point.
         Electrostatic D = 1 + Σχ_s is such an entry; electromagnetic D = det S is then
         formed from rows of S scaled by exact powers of two (multilinearity of det in
         the rows; G. H. Golub and C. F. Van Loan, *Matrix Computations*, 4th ed., 2013,

@@ -31,8 +31,8 @@ term of this module and of :mod:`kinroots.physics.models._landau` is returned ti
 ``2^-s`` (``s = inf``: the term is dropped), and nothing else changes.  A susceptibility
 is affine in these terms, so a caller that evaluates once with ``s`` and once with
 ``inf`` holds its regular part R and its exponential part X with χ = R + 2^s X, both
-finite where χ itself exceeds double precision (:class:`kinroots.physics.dispersion.
-Dispersion`, ``scaled``).
+finite where χ itself exceeds double precision
+(:meth:`kinroots.physics.dispersion.Dispersion.scaled`).
 """
 
 from __future__ import annotations

@@ -695,7 +695,7 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     Where |D| exceeds double precision the window is surveyed as D/2^N with a constant N
     (same zeros, same D'/D), from the overflow-free log|D| on its boundary; where one
     constant cannot serve (|D| spans more than about 1900 binary orders) the window is
-    halved, up to 2^_MAX_SPLITS sub-boxes, each with its own N.
+    halved, up to 64 sub-boxes, each with its own N.
     """
     f = function_at(case, k)
     b = window(case) if box is None else box
