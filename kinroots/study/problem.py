@@ -12,6 +12,7 @@ boundary at every k) is documented in :mod:`kinroots.study.solve` and DEVELOPERS
 from __future__ import annotations
 
 import math
+import re
 import weakref
 from collections.abc import Callable
 from dataclasses import dataclass, replace
@@ -679,11 +680,10 @@ def _survey_box(f: NormalizedDispersion, b: tuple[float, float, float, float],
 
 #: Why D is rounding noise near cyclotron harmonics deep in the lower half-plane.
 _NOISE_NOTE = (
-    "D is rounding noise there: near a cyclotron harmonic n*Omega + k_par*V, below the "
-    "real axis by more than a few k_par*w_par of that species, its resonant term "
-    "exp(-zeta^2) grows so large that the 3x3 determinant cancels far below its terms "
-    "(at small k_perp*rho that term is nearly of rank one), and no sampling can count "
-    "zeros there; keep the window's lower edge within about 2 k_par*w_par of the real "
+    "near a cyclotron harmonic n*Omega + k_par*V, below the real axis by more than a few "
+    "k_par*w_par of that species, its resonant term exp(-zeta^2) grows so large that the "
+    "3x3 determinant cancels far below its terms (at small k_perp*rho that term is nearly "
+    "of rank one); keep the window's lower edge within about 2 k_par*w_par of the real "
     "axis near those harmonics, or away from them (README, limits)"
 )
 
@@ -706,11 +706,22 @@ def survey(case: Case, k: float, *, box: tuple[float, float, float, float] | Non
     wide = (b[0] - dr, b[1] + dr, b[2] - di, b[3] + di)
     excluded, features = f.excluded(wide), f.features(wide)
     res = _survey_box(f, b, excluded, features, case.solver.tolerance, 0)
-    if any("rounding noise" in n for n in res.notes):
-        res.notes.append(_NOISE_NOTE if f.dispersion.magnetized else
-                         "D has lost its precision there (cancellation between terms far "
-                         "larger than D): move the window's edges toward the real axis")
+    # the root layer's notes on noise become one note in physics terms, with the places
+    noisy = [m for m in (_NOISE_WHERE.match(n) for n in res.notes) if m]
+    if noisy:
+        res.notes = [n for n in res.notes if not _NOISE_WHERE.match(n)]
+        where = "; ".join(f"{m.group(1)} near {m.group(2)}" for m in noisy)
+        why = (_NOISE_NOTE if f.dispersion.magnetized else
+               "it has lost its precision to cancellation between terms far larger than "
+               "D: move the window's edges toward the real axis")
+        res.notes.append(f"D is rounding noise {where} (its values between close samples "
+                         f"contradict D'/D), so its zeros cannot be counted there: {why}")
     return res
+
+
+#: The root layer's note on a place where f is rounding noise (place, points).
+_NOISE_WHERE = re.compile(r"f is rounding noise (on the \w+ edge|inside the window) near "
+                          r"(.+?) \(its values")
 
 
 
