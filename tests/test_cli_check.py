@@ -137,8 +137,12 @@ def test_shipped_cases(path: Path) -> None:
     r = run("check", str(path))
     assert r.exit_code == 0, r.stderr
     lines = r.stdout.splitlines()
-    assert lines[0] == "ok" and len(lines) == 2
-    assert r.stderr == ""  # shipped cases are neutral and current-free: no warnings
+    assert lines[0] == "ok" and len(lines) == 3
+    # the window tried at the first and last k: its zeros counted, nothing to warn about
+    assert lines[2].startswith("window Re ω [") and "not counted" not in lines[2], lines[2]
+    assert "zeros by the boundary winding" in lines[2]
+    # shipped cases are neutral and current-free, their windows surveyable: no warnings
+    assert r.stderr == ""
     table = run("plasma", str(path))
     assert table.exit_code == 0 and "λ_D" in table.stdout
     js = run("plasma", str(path), "--json")
@@ -230,3 +234,103 @@ def test_check_never_tracebacks(content: bytes) -> None:
             assert result.stderr.strip() and all(
                 ln.startswith(("error: ", "kinroots: ")) for ln in result.stderr.splitlines()
             )
+
+
+# check tries the window -------------------------------------------------------------------
+
+
+def _edited(tmp_path: Path, source: str, old: str, new: str) -> Path:
+    text = (CASES_DIR / source).read_text(encoding="utf-8")
+    assert old in text
+    path = tmp_path / source
+    path.write_text(text.replace(old, new), encoding="utf-8")
+    return path
+
+
+def test_check_warns_when_a_landau_term_overflows_on_the_bottom_edge(tmp_path: Path) -> None:
+    """Argon ions at Ti = 0.03 eV, window down to Im ω = -0.5 ω_pi: at k λ_De = 0.02 the
+    bottom edge runs ~177 ion resonance widths below the axis, where exp(-ζ²) exceeds
+    double precision (no constant rescaling can help an overflowing term)."""
+    import re
+
+    from scipy.constants import e, epsilon_0, m_u
+
+    path = _edited(tmp_path, "argon_ion_acoustic.toml", "imag = [-0.002, 0.1]",
+                   "imag = [-0.5, 0.1]")
+    r = run("check", str(path))
+    assert r.exit_code == 0, r.stderr  # a warning, not an error
+    assert r.stdout.splitlines()[0] == "ok"
+    assert "not counted at k = 0.02" in r.stdout
+    (line,) = [ln for ln in r.stderr.splitlines() if ln.startswith("warning: ")]
+    assert str(path) in line and "at k = 0.02" in line
+    for words in ("cannot be surveyed", "bottom", "Landau term exp(-ζ²) of species Ar+",
+                  "resonance width", "below the real axis", "search.imag"):
+        assert words in line, (words, line)
+    assert "None" not in r.stdout + r.stderr and "Error" not in r.stderr
+    # the size claimed for the term: |exp(-ζ²)| = exp(Im ζ² - Re ζ²) at the edge's point
+    # on Re ω = 0.005 ω_pi, with ζ = ω/(k w_i) (k along z, no drift) from SI constants
+    n, te, ti, m_i = 1e17, 3.0, 0.03, 39.948 * m_u
+    w_pi = math.sqrt(n * e * e / (epsilon_0 * m_i))
+    debye = math.sqrt(epsilon_0 * te * e / (n * e * e))
+    k = 0.02 / debye
+    w_i = math.sqrt(2.0 * ti * e / m_i)
+    zeta = complex(0.005, -0.5) * w_pi / (k * w_i)
+    decades = -(zeta * zeta).real / math.log(10.0)
+    claimed = float(re.search(r"reaches about 1e(\d+)", line).group(1))
+    assert claimed == pytest.approx(decades, abs=1.0)
+    depth = float(re.search(r"runs (\d+) times", line).group(1))
+    assert depth == pytest.approx(0.5 * w_pi / (k * w_i), abs=1.0)
+
+
+def test_check_warns_when_the_survey_must_split_the_window(tmp_path: Path) -> None:
+    """The same argon window to Im ω = -0.13 ω_pi: exp(-ζ²) of the ions about 1e916 on
+    the bottom edge (46 widths deep), |D| spanning more than one constant scale can hold:
+    the survey splits the window (costly), which check says before it is tried."""
+    path = _edited(tmp_path, "argon_ion_acoustic.toml", "imag = [-0.002, 0.1]",
+                   "imag = [-0.13, 0.1]")
+    r = run("check", str(path))
+    assert r.exit_code == 0, r.stderr
+    (line,) = [ln for ln in r.stderr.splitlines() if ln.startswith("warning: ")]
+    for words in ("at k = 0.02:", "more than double precision holds",
+                  "Landau term exp(-ζ²) of species Ar+", "46 times its resonance width",
+                  "sub-boxes", "costly"):
+        assert words in line, (words, line)
+
+
+def test_check_warns_of_a_pole_next_to_an_edge(tmp_path: Path) -> None:
+    """Perpendicular ion Bernstein waves (k∥ = 0): the proton's first cyclotron harmonic
+    is a pole of D, here 1e-5 Ω_p left of the window's left edge."""
+    path = _edited(tmp_path, "ion_bernstein_perpendicular.toml", "real = [1.02, 2.98]",
+                   "real = [1.00001, 2.98]")
+    r = run("check", str(path))
+    assert r.exit_code == 0, r.stderr
+    (line,) = [ln for ln in r.stderr.splitlines() if ln.startswith("warning: ")]
+    assert "at k = 0.1, k = 4:" in line  # one line for both k
+    for words in ("cyclotron harmonic 1Ω of species H+", "pole of D at k∥ = 0",
+                  "left edge", "move that edge away"):
+        assert words in line, (words, line)
+    # on the edge itself the case is refused (exit 2, the key named)
+    path = _edited(tmp_path, "ion_bernstein_perpendicular.toml", "real = [1.02, 2.98]",
+                   "real = [1.0, 2.98]")
+    r = run("check", str(path))
+    assert r.exit_code == 2 and "search.real" in r.stderr
+
+
+def test_check_notes_a_window_the_constant_rescaling_handles(tmp_path: Path) -> None:
+    """Weibel with hot protons, window to Im ω = -0.01 ω_pe: |D| about 1e490 on the bottom
+    edge, each term finite: a note (no warning), and the zero count from the boundary
+    winding equals the survey's own count (subdivision and Newton, another algorithm)."""
+    from test_overflow_survey import WEIBEL  # sibling test module (rootdir import)
+
+    from kinroots.io.case import load_case
+    from kinroots.study.problem import survey
+
+    path = tmp_path / "weibel.toml"
+    path.write_text(WEIBEL, encoding="utf-8")
+    r = run("check", str(path))
+    assert r.exit_code == 0 and "warning" not in r.stderr, r.stderr
+    assert "note: window at k = 0.5: |D| exceeds double precision on the bottom" in r.stderr
+    assert "divides D by a constant power of two" in r.stderr
+    s = survey(load_case(path), 0.5)
+    assert s.complete and s.count is not None
+    assert f"{s.count} at k = 0.5," in r.stdout.splitlines()[2]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from pathlib import Path
 from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
@@ -10,7 +11,14 @@ from rich.console import Console
 from rich.table import Table
 
 import kinroots
-from kinroots.cli._common import CaseArg, DefaultOpt, case_summary, load_case_or_exit
+from kinroots.cli._common import (
+    CaseArg,
+    DefaultOpt,
+    case_summary,
+    err,
+    info,
+    load_case_or_exit,
+)
 
 if TYPE_CHECKING:
     from kinroots.io.case import Case
@@ -25,7 +33,13 @@ def version() -> None:
 
 
 def check(case: CaseArg = None, default: DefaultOpt = False) -> None:
-    """Validate a case file; print "ok" and a one-line summary, or every problem found.
+    """Validate a case file; print "ok" and a one-line summary, or every problem found;
+    then try the window: D on its edges at the scan's first and last k.
+
+    The try counts the window's zeros from the phase of D along its edges and warns (on
+    stderr; the exit code stays 0) when the survey would be costly or impossible: D not
+    finite on an edge, a pole on or next to an edge, many zeros or a fast phase turn.
+    A [launch] table's k box is tried at its first and last frequency too.
 
     Exit code 0 when the case is usable (warnings go to stderr), 2 otherwise.
 
@@ -34,6 +48,44 @@ def check(case: CaseArg = None, default: DefaultOpt = False) -> None:
     loaded = load_case_or_exit(case, default)
     typer.echo("ok")
     typer.echo(case_summary(loaded))
+    _try_window(loaded, case)
+
+
+def _try_window(loaded: Case, case: Path | None) -> None:
+    """Evaluate D on the window's edges at the scan's first and last k (and the launch k
+    box at the first and last frequency): one line on stdout, warnings on stderr."""
+    import time
+
+    from kinroots.study.probe import WindowProbe, probe_launch, probe_window
+
+    name = "the default case" if case is None else str(case)
+    start = time.perf_counter()
+    probes: list[tuple[str, WindowProbe]] = [("window", probe_window(loaded))]
+    spatial = probe_launch(loaded)
+    if spatial is not None:
+        probes.append(("launch k box", spatial))
+    seconds = time.perf_counter() - start
+    parts = []
+    for what, p in probes:
+        counts = ", ".join(f"{n if n is not None else 'not counted'} at {where}"
+                           for where, n in p.counts.items())
+        symbol = "ω" if p.variable == "omega" else "k"
+        parts.append(f"{what} {_box_text(p.box, symbol)}: zeros by the boundary winding "
+                     f"{counts}")
+    evaluations = sum(p.evaluations for _, p in probes)
+    typer.echo("; ".join(parts) + f" ({evaluations} evaluations, {seconds:.2g} s)")
+    for what, p in probes:
+        for f in p.findings:
+            line = f"{what} at {', '.join(f.where)}: {f.text}"
+            if f.level == "warning":
+                err(f"warning: {name}: {line}")
+            else:
+                info(f"note: {line}")
+
+
+def _box_text(box: tuple[float, float, float, float], symbol: str) -> str:
+    return (f"Re {symbol} [{box[0]:.6g}, {box[1]:.6g}] × Im {symbol} "
+            f"[{box[2]:.6g}, {box[3]:.6g}]")
 
 
 def _fmt(value: float | None) -> str:

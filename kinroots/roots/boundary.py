@@ -45,13 +45,15 @@ class BoundaryCount:
     """Zeros inside the box at one parameter value.
 
     ``count`` is ``None`` when the boundary could not be resolved (``note`` says why).
-    ``evaluations`` is the number of points at which f_p was evaluated for it.
+    ``evaluations`` is the number of points at which f_p was evaluated for it; ``where``,
+    when the count is ``None`` for a reason on the boundary, a boundary point there.
     """
 
     param: float
     count: int | None
     evaluations: int
     note: str = ""
+    where: complex | None = None
 
 
 def _corners(box: Box) -> np.ndarray:
@@ -187,6 +189,7 @@ class BoundaryCounter:
         evals = [z.size for z in zl]
         result: list[int | None] = [None] * m
         notes = [""] * m
+        wheres: list[complex | None] = [None] * m
         todo = list(range(m))
         while todo:
             req_i: list[int] = []
@@ -196,6 +199,7 @@ class BoundaryCounter:
                 z, f, d = zl[i], fl[i], dl[i]
                 bad_pt = ~np.isfinite(f) | ~np.isfinite(d) | (f == 0)
                 if np.any(bad_pt):
+                    wheres[i] = complex(z[bad_pt][0])
                     notes[i] = (f"f is zero or not finite on the boundary near "
                                 f"{complex(z[bad_pt][0]):.6g}")
                     continue
@@ -211,7 +215,7 @@ class BoundaryCounter:
                 z1 = np.roll(z, -1)[bad]
                 seg = np.abs(z1 - z[bad])
                 if np.any(seg <= self.min_len) or z.size + bad.size > self.max_points:
-                    where = complex(0.5 * (z[bad[0]] + z1[0]))
+                    where = wheres[i] = complex(0.5 * (z[bad[0]] + z1[0]))
                     notes[i] = (f"boundary unresolved near {where:.6g} (a zero on or next "
                                 "to an edge)")
                     continue
@@ -249,7 +253,7 @@ class BoundaryCounter:
                     c, note = None, "winding around an excluded point not resolved"
                 else:
                     c += poles[i].size - ex_i
-            out.append(BoundaryCount(p, c, evals[i] + ex_evals[i], note))
+            out.append(BoundaryCount(p, c, evals[i] + ex_evals[i], note, wheres[i]))
         return out
 
     # -- internals ----------------------------------------------------------------
