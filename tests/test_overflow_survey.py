@@ -377,3 +377,35 @@ def test_oblique_em_window_beyond_double_precision(oblique) -> None:
     finally:
         mp.mp.dps = 40
     assert abs(complex(z) - r.value) <= 1e-9 * abs(r.value), (r.value, z)
+
+
+def test_oblique_es_magnetized_log_d_against_mpmath(tmp_path) -> None:
+    # the same plasma, electrostatic: ε_L = 1 + Σ_s (2ω_ps²/(k²w_s²))
+    # [1 + ζ₀ Σ_n e^{−λ} I_n(λ) Z(ζ_n)] (T. H. Stix, *Waves in Plasmas*, 1992, ch. 11,
+    # electrostatic limit, from memory); at Im ω = −8 Ω_ci |ε_L| ≈ 1e450
+    path = tmp_path / "es.toml"
+    path.write_text(OBLIQUE.replace('"electromagnetic"', '"electrostatic"'))
+    case = load_case(path)
+    disp = function_at(case, 0.5).dispersion
+    kpar, kperp = mp.mpf(disp.k_par.real), mp.mpf(disp.k_perp.real)
+    w = np.array([0.7 - 0.3j, 0.3 + 0.1j, 0.6 - 4.9j, 0.4 - 8.0j])
+    plain = disp(w * disp.omega_ref)[0]
+    logd = disp.log_value(w * disp.omega_ref)
+    assert not np.isfinite(plain[-1])
+    mp.mp.dps = 30
+    try:
+        for j, wj in enumerate(w):
+            om = mp.mpc(wj) * disp.omega_ref
+            d = mp.mpf(1)
+            for s in case.plasma.species:
+                om_c = mp.mpf(s.cyclotron_frequency(case.plasma.B))
+                ws = mp.sqrt(2 * mp.mpf(s.temperature_par) * EV / s.mass)
+                lam = (kperp * ws / om_c) ** 2 / 2
+                acc = mp.fsum(mp.exp(-lam) * mp.besseli(n, lam) * _z((om - n * om_c) / (kpar * ws))
+                              for n in range(-30, 31))
+                d += (2 * mp.mpf(s.plasma_frequency) ** 2 / ((kpar**2 + kperp**2) * ws**2)
+                      * (1 + om / (kpar * ws) * acc))
+            ref = mp.log(d)
+            assert abs(complex(ref) - logd[j]) <= 1e-12 * abs(ref), (wj, logd[j], ref)
+    finally:
+        mp.mp.dps = 40
