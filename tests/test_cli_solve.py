@@ -162,3 +162,45 @@ def test_a_window_that_cannot_be_surveyed_says_so_once_and_plainly(tmp_path):
     assert "branches.csv holds only its header" in out
     assert "4 of 4 k not verified" in out
     assert (tmp_path / "o" / "branches.csv").read_text().count("\n") == 1
+    # the summary says so too, with the reason from the counts
+    notes = json.loads((tmp_path / "o" / "summary.json").read_text())["notes"]
+    assert notes[-1].startswith("no root found in the search window (k = ")
+
+
+def test_runs_that_find_nothing_say_so(tmp_path):
+    """Argon discharge, window wholly above the real axis (Im ω ≥ 0.01 ω_pi): a plasma of
+    non-drifting isotropic Maxwellians has no growing root (C. S. Gardner, Phys. Fluids 6,
+    839 (1963): monotonic distributions are stable), so the window holds none. solve,
+    roots and launch (a k box beyond the ion acoustic wave's k) say so on the terminal and
+    in the summary, once, exit 0 (issue 15.6)."""
+    text = Path("cases/argon_ion_acoustic.toml").read_text()
+    text = (text.replace("real = [0.005, 1.5]", "real = [0.5, 1.5]")
+            .replace("imag = [-0.002, 0.1]", "imag = [0.01, 0.1]")
+            .replace("points = 100", "points = 3").replace("stop = 2.0", "stop = 0.04"))
+    case = tmp_path / "c.toml"
+    case.write_text(text)
+    for cmd, table, summary, words in (
+        ("solve", "branches.csv", "summary.json",
+         "no root in the search window (k = 0.02 to k = 0.04): the zero count on its "
+         "boundary is 0 at every point"),
+        ("roots", "roots.csv", "summary.json",
+         "no root in the search window at k = 0.02: the zero count on its boundary is 0"),
+    ):
+        out = tmp_path / cmd
+        res = CliRunner().invoke(app, [cmd, str(case), "-o", str(out)], terminal_width=300)
+        assert res.exit_code == 0, res.output
+        assert res.stdout.count(words) == 1, res.stdout
+        assert "None" not in res.output
+        assert json.loads((out / summary).read_text())["notes"][-1].startswith(words)
+        assert (out / table).read_text().count("\n") == 1  # header only
+    text = Path("cases/lab_launched_ion_acoustic.toml").read_text()
+    text = (text.replace("k_real = [0.04, 2.0]", "k_real = [2.5, 3.0]")
+            .replace("points = 12 }", "points = 3 }"))
+    case.write_text(text)
+    out = tmp_path / "launch"
+    res = CliRunner().invoke(app, ["launch", str(case), "-o", str(out)], terminal_width=300)
+    assert res.exit_code == 0, res.output
+    words = "no wave in the k box (f = 500000 Hz to f = 6e+06 Hz): the zero count"
+    assert res.stdout.count(words) == 1, res.stdout
+    assert "flagged in the table" not in res.output
+    assert json.loads((out / "launch.json").read_text())["notes"][-1].startswith(words)

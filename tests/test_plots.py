@@ -194,3 +194,46 @@ def test_root_map_colour_scale_follows_the_window_interior() -> None:
     assert lo >= finite.min() - 1e-9
     labels = fig.axes[0].get_legend_handles_labels()[1]
     assert "D not finite (overflow)" in labels
+
+
+def test_root_map_marks_the_window_used_and_the_excluded_points() -> None:
+    """D = (ω - 0.2)/(ω - 0.5): the pole at 0.5 is excluded (a cross with its legend
+    entry); a surveyed box moved off an edge is drawn beside the window (issue 15.9)."""
+    from kinroots.plots.branches import plot_root_map
+
+    def func(w: np.ndarray) -> np.ndarray:
+        return (w - 0.2) / (w - 0.5)
+
+    box = (0.0, 1.0, -0.3, 0.3)
+    used = (0.0, 1.0, -0.3, 0.3 + 1e-4)
+    fig = plot_root_map(func, box, [0.2 + 0j], omega_label="ω_pe", resolution=40,
+                        used=used, excluded=[0.5 + 0j])
+    axis = fig.axes[0]
+    handles, labels = axis.get_legend_handles_labels()
+    assert "search window" in labels
+    cross = handles[labels.index("excluded point (pole circled by the survey)")]
+    assert list(cross.get_xdata()) == [0.5] and list(cross.get_ydata()) == [0.0]
+    frame = handles[labels.index("window surveyed (edge moved off a root or pole)")]
+    assert max(frame.get_ydata()) == pytest.approx(0.3 + 1e-4)
+    # the same box is not drawn twice, and no excluded entry without excluded points
+    labels = plot_root_map(func, box, [0.2 + 0j], omega_label="ω_pe", resolution=40,
+                           used=box).axes[0].get_legend_handles_labels()[1]
+    assert not any(lb.startswith(("window surveyed", "excluded")) for lb in labels)
+
+
+def test_empty_figures_say_nothing_was_found() -> None:
+    """A run that finds nothing says so on its figure (issue 15.6): map, branches, launch."""
+    from kinroots.plots.branches import plot_root_map
+
+    def texts(fig) -> str:
+        return " ".join(t.get_text() for a in fig.axes for t in a.texts)
+
+    fig = plot_root_map(lambda w: w - 5.0, (0.0, 1.0, -0.1, 0.1), [], omega_label="ω_pe",
+                        resolution=20)
+    assert "no root found in the search window" in texts(fig)
+    assert "no root found" not in texts(
+        plot_root_map(lambda w: w - 0.5, (0.0, 1.0, -0.1, 0.1), [0.5 + 0j],
+                      omega_label="ω_pe", resolution=20))
+    assert "no root found in the search window" in texts(
+        plot_branches([], k_label="λ_De", omega_label="ω_pe"))
+    assert "no wave found in the k box" in texts(plot_launch([]))

@@ -63,6 +63,7 @@ def launch_command(
     from kinroots.io.tables import OutputSet, write_csv, write_json, write_units
     from kinroots.study import launch as launch_mod
     from kinroots.study.rows import metadata
+    from kinroots.study.solve import nothing_found_note
 
     loaded = load_case_or_exit(case, default)
     if loaded.launch is None:
@@ -112,7 +113,10 @@ def launch_command(
         "unverified_points": res.unverified_points,
         "failed_points": res.failed_points,
         "interrupted": res.interrupted,
-        "notes": res.notes,
+        "notes": res.notes + ([] if rows else [nothing_found_note(
+            res.point_checks, what="wave", region="k box",
+            label=lambda w: f"f = {w * u.omega_unit / (2.0 * math.pi):.6g} Hz",
+            keys="launch.k_real, launch.k_imag")]),
     })
     summary.pop("fastest_growing", None)
     summary.pop("least_damped", None)
@@ -136,6 +140,8 @@ def launch_command(
                           f"{r['wavelength_m']:.4g} m, damping length {damp}")
     for note in res.notes:
         console.print(f"note: {note}")
+    if not rows:
+        results.print(summary["notes"][-1])
     results.print(written(output / "launch.csv", output / "launch.json", fig_path))
     if res.interrupted:
         console.print("interrupted: the tables hold the frequencies done before Ctrl-C "

@@ -118,6 +118,8 @@ def solve(
     results.print(f"least damped:    {_describe_root(summary['least_damped'], loaded)}")
     for note in sol.notes:
         console.print(f"note: {note}")
+    if not rows:
+        results.print(summary["notes"][-1])
     results.print(written(output / "branches.csv", output / "summary.json", fig_path))
     if sol.interrupted:
         console.print("interrupted: the tables hold the scan points done before Ctrl-C "
@@ -131,6 +133,16 @@ def solve(
                       f"{len(loaded.k_values)} k not verified by a zero count: {where}",
                       style="red")
         raise typer.Exit(1)
+
+
+def _nothing_at(s: Any, k: float) -> str:
+    """The note of a ``roots`` run whose table is empty."""
+    if s.complete and s.count == 0:
+        return (f"no root in the search window at k = {k:g}: the zero count on its "
+                "boundary is 0, so the window holds none; a wider one (search.real, "
+                "search.imag) may")
+    return (f"no root found in the search window at k = {k:g}: the survey was "
+            "incomplete (the notes say why)")
 
 
 def roots(
@@ -185,7 +197,7 @@ def roots(
         "count": s.count,
         "complete": s.complete,
         "evaluations": s.evaluations,
-        "notes": list(s.notes),
+        "notes": list(s.notes) + ([] if rows else [_nothing_at(s, at)]),
         "harmonics": f.dispersion.harmonics,
     })
     out = OutputSet(output, "roots")
@@ -200,6 +212,7 @@ def roots(
         plot_root_map(f.value, window(loaded),
                       [complex(r["omega_real"], r["omega_imag"]) for r in ok],
                       verified=[bool(r["verified"]) for r in ok],
+                      used=s.box, excluded=f.excluded(s.box),
                       omega_label=loaded.units.frequency_label,
                       title=f"{loaded.title}: k = {at:g} /{loaded.units.length_label}",
                       path=out.stage(fig_path.name))
@@ -207,6 +220,8 @@ def roots(
     for r in rows:
         if r.get("converged"):
             results.print(_describe_root(r, loaded))
+    if not rows:
+        results.print(summary["notes"][-1])
     results.print(f"{len(s.values)} root(s) in the window ({s.count_text} by the argument "
                   "principle); "
                   f"{s.evaluations} evaluations; "

@@ -316,6 +316,8 @@ def plot_root_map(
     resolution: int = 160,
     margin: float = 0.08,
     verified: Sequence[bool] | None = None,
+    used: tuple[float, float, float, float] | None = None,
+    excluded: Sequence[complex] = (),
     ax: Any = None,
     path: Path | None = None,
 ) -> Any:
@@ -336,6 +338,11 @@ def plot_root_map(
         Converged roots to mark (filled when verified, open otherwise).
     verified : sequence of bool, optional
         Verification flag of each root (all taken as verified when omitted).
+    used : (re_min, re_max, im_min, im_max), optional
+        The box the survey used, drawn when it differs from ``box`` (the survey moves an
+        edge outward off a root or pole on it).
+    excluded : sequence of complex
+        Points the survey excluded (poles it circled), marked with a legend entry.
 
     Returns
     -------
@@ -362,6 +369,18 @@ def plot_root_map(
         axis.fill_between([], [], color="0.75", label="D not finite (overflow)")
     axis.plot([re0, re1, re1, re0, re0], [im0, im0, im1, im1, im0], "w--", lw=1.0,
               label="search window")
+    if used is not None and tuple(used) != tuple(box):
+        u0, u1, v0, v1 = used
+        axis.plot([u0, u1, u1, u0, u0], [v0, v0, v1, v1, v0], "-", color="#E69F00",
+                  lw=1.0, label="window surveyed (edge moved off a root or pole)")
+    ex = np.asarray(excluded, dtype=complex)
+    if ex.size:
+        axis.plot(ex.real, ex.imag, "x", color="#D55E00", ms=8, mew=2.0,
+                  label="excluded point (pole circled by the survey)")
+    if not roots:
+        axis.text(0.5, 0.5, "no root found in the search window\n(see the notes in the "
+                  "summary)", transform=axis.transAxes, ha="center", va="center",
+                  color="white")
     if roots:
         r = np.asarray(roots, dtype=complex)
         v = np.ones(r.size, bool) if verified is None else np.asarray(verified, bool)

@@ -110,6 +110,10 @@ def plot_launch(curves: Sequence[LaunchCurve], *, title: str = "", ax: Any = Non
                for ln in a.get_lines()):
             a.set_yscale("log")
             plain_log_ticks(a.yaxis, span=1.0)
+    if not any(np.isfinite(c.k_per_m).any() for c in curves):
+        for a in (ax_l, ax_v, ax_d):  # say why the panels are blank
+            a.text(0.5, 0.5, "no wave found in the k box\n(see the notes in launch.json)",
+                   transform=a.transAxes, ha="center", va="center", color="0.3")
     if any_growth:
         ax_d.text(0.01, 0.02, "dotted, open markers: growing along +k (|1/Im k| shown)",
                   transform=ax_d.transAxes, fontsize="small", va="bottom")

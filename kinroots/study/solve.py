@@ -86,6 +86,35 @@ class PointCheck:
     reason: str = ""
 
 
+def nothing_found_note(checks: Sequence[PointCheck], *, what: str, region: str,
+                       label: Callable[[float], str], keys: str) -> str:
+    """The note of a run whose table is empty (``solve``, ``launch``): why, from the counts.
+
+    Parameters
+    ----------
+    checks : sequence of PointCheck
+        The zero count at every parameter value done.
+    what, region : str
+        Names for messages, e.g. ``"root"`` and ``"search window"``.
+    label : callable
+        ``label(param)``, e.g. ``"k = 0.1"``.
+    keys : str
+        The case keys that set the region (for the advice).
+    """
+    if not checks:
+        return f"no {what} found: no point was done"
+    span = (label(checks[0].param) if len(checks) == 1
+            else f"{label(checks[0].param)} to {label(checks[-1].param)}")
+    if all(c.count == 0 for c in checks):
+        return (f"no {what} in the {region} ({span}): the zero count on its boundary is 0 "
+                f"at every point, so the {region} holds none; a wider one ({keys}) may")
+    unknown = sum(1 for c in checks if c.count is None)
+    unsolved = sum(1 for c in checks if c.count)
+    return (f"no {what} found in the {region} ({span}): at {unsolved} point(s) its "
+            f"boundary counts zeros that were not solved and at {unknown} the count could "
+            "not be made; the notes and point_checks say why")
+
+
 #: Start of the note that says a trace was stopped early (``should_stop``).
 INTERRUPTED = "interrupted"
 
@@ -524,7 +553,9 @@ def solution_summary(sol: Solution, rows: list[dict[str, Any]]) -> dict[str, Any
         "evaluations": sol.evaluations,
         "failed_points": sol.failed_points,
         "interrupted": sol.interrupted,
-        "notes": sol.notes,
+        "notes": sol.notes + ([] if rows else [nothing_found_note(
+            sol.point_checks, what="root", region="search window",
+            label=lambda k: f"k = {k:g}", keys="search.real, search.imag")]),
     })
 
 
