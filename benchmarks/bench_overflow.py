@@ -19,7 +19,6 @@ from __future__ import annotations
 import time
 import timeit
 from pathlib import Path
-from tempfile import TemporaryDirectory
 
 import numpy as np
 
@@ -31,84 +30,13 @@ from kinroots.study.problem import survey
 FLOOR = 1.5
 N_OMEGA = 1000
 
-_HOT_IONS = """
-title = "hot-ion ion acoustic"
-[[species]]
-name = "e"
-charge = -1
-mass = "electron"
-density = 1.0e18
-temperature = 100.0
-[[species]]
-name = "H+"
-charge = 1
-mass = "proton"
-density = 1.0e18
-temperature = 100.0
-[wave]
-model = "electrostatic"
-angle = 0.0
-[scan]
-k = { start = 0.5, stop = 0.6, points = 2 }
-[units]
-frequency = "plasma:e"
-length = "debye:e"
-"""
+#: The case files of tests/test_overflow_survey.py.
+DATA = Path(__file__).resolve().parents[1] / "tests" / "data"
+_HOT_IONS = DATA / "overflow_hot_ions.toml"
+_WEIBEL = DATA / "overflow_weibel.toml"
+_OBLIQUE = DATA / "overflow_oblique.toml"
 
-_WEIBEL = """
-title = "Weibel, k along the anisotropy axis"
-[magnetic_field]
-B = 0.0
-[[species]]
-name = "e"
-charge = -1
-mass = "electron"
-density = 1.0e18
-temperature_par = 100.0
-temperature_perp = 500.0
-[[species]]
-name = "H+"
-charge = 1
-mass = "proton"
-density = 1.0e18
-temperature = 500.0
-[wave]
-model = "electromagnetic"
-angle = 0.0
-[scan]
-k = { start = 0.5, stop = 0.6, points = 2 }
-[units]
-frequency = "plasma:e"
-length = "inertial:e"
-"""
-
-_OBLIQUE = """
-title = "oblique electromagnetic hydrogen plasma"
-[magnetic_field]
-B = 0.1
-[[species]]
-name = "e"
-charge = -1
-mass = "electron"
-density = 1.0e18
-temperature = 10.0
-[[species]]
-name = "H+"
-charge = 1
-mass = "proton"
-density = 1.0e18
-temperature = 10.0
-[wave]
-model = "electromagnetic"
-angle = 60.0
-[scan]
-k = { start = 0.5, stop = 0.6, points = 2 }
-[units]
-frequency = "cyclotron:H+"
-length = "gyroradius:H+"
-"""
-
-#: (name, case text, k, wide window (used to be refused), narrow window (double precision))
+#: (name, case file, k, wide window (used to be refused), narrow window (double precision))
 WINDOWS = [
     ("ES hot ions, chi_i overflows", _HOT_IONS, 0.5,
      (-0.1, 0.1, -0.45, 0.05), (-0.1, 0.1, -0.2, 0.05)),
@@ -133,19 +61,16 @@ def surveys() -> None:
           "double precision handles")
     print(f"{'window':26s} {'evals':>7s} {'time [s]':>9s} {'roots':>6s} {'complete':>9s}"
           f" | {'narrow evals':>12s} {'time [s]':>9s} {'roots':>6s}")
-    with TemporaryDirectory() as tmp:
-        for name, text, k, wide, narrow in WINDOWS:
-            path = Path(tmp) / "case.toml"
-            path.write_text(text)
-            case = load_case(path)
-            t0 = time.perf_counter()
-            res = survey(case, k, box=wide)
-            t1 = time.perf_counter()
-            ref = survey(case, k, box=narrow)
-            t2 = time.perf_counter()
-            print(f"{name:26s} {res.evaluations:7d} {t1 - t0:9.2f} {len(res.roots):6d} "
-                  f"{str(res.complete):>9s} | {ref.evaluations:12d} {t2 - t1:9.2f} "
-                  f"{len(ref.roots):6d}")
+    for name, path, k, wide, narrow in WINDOWS:
+        case = load_case(path)
+        t0 = time.perf_counter()
+        res = survey(case, k, box=wide)
+        t1 = time.perf_counter()
+        ref = survey(case, k, box=narrow)
+        t2 = time.perf_counter()
+        print(f"{name:26s} {res.evaluations:7d} {t1 - t0:9.2f} {len(res.roots):6d} "
+              f"{str(res.complete):>9s} | {ref.evaluations:12d} {t2 - t1:9.2f} "
+              f"{len(ref.roots):6d}")
 
 
 def overhead() -> float:

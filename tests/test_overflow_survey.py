@@ -4,6 +4,8 @@ exponentials are carried with a common scale where a single χ_s overflows."""
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import mpmath as mp
 import numpy as np
 import pytest
@@ -12,38 +14,13 @@ from kinroots.io.case import load_case
 from kinroots.physics.plasma import C_LIGHT, EV
 from kinroots.study.problem import function_at, survey
 
+#: Case files of this module (also read by benchmarks/bench_overflow.py).
+DATA = Path(__file__).parent / "data"
+
 # Weibel instability with k along the anisotropy axis: electrons T⊥/T∥ = 5, hot protons,
 # B = 0, electromagnetic.  The window reaches Im ω = −0.01 ω_pe, where the protons'
 # Landau term makes |D| about 1e490 (each tensor entry stays finite).
-WEIBEL = """
-title = "Weibel, k along the anisotropy axis, window below the real axis"
-[magnetic_field]
-B = 0.0
-[[species]]
-name = "e"
-charge = -1
-mass = "electron"
-density = 1.0e18
-temperature_par = 100.0
-temperature_perp = 500.0
-[[species]]
-name = "H+"
-charge = 1
-mass = "proton"
-density = 1.0e18
-temperature = 500.0
-[wave]
-model = "electromagnetic"
-angle = 0.0
-[scan]
-k = { start = 0.5, stop = 0.6, points = 2 }
-[units]
-frequency = "plasma:e"
-length = "inertial:e"
-[search]
-real = [-0.002, 0.002]
-imag = [-0.01, 0.02]
-"""
+WEIBEL = DATA / "overflow_weibel.toml"
 
 mp.mp.dps = 40
 
@@ -77,10 +54,8 @@ def _lambdas(case, k_hat: float, w: mp.mpc) -> tuple[mp.mpc, mp.mpc]:
 
 
 @pytest.fixture(scope="module")
-def weibel(tmp_path_factory):
-    path = tmp_path_factory.mktemp("weibel") / "weibel.toml"
-    path.write_text(WEIBEL)
-    return load_case(path)
+def weibel():
+    return load_case(WEIBEL)
 
 
 def test_weibel_window_below_the_real_axis(weibel) -> None:
@@ -142,32 +117,7 @@ def test_scaled_d_matches_mpmath_where_double_d_overflows(weibel) -> None:
 # Ion acoustic with hot ions (T_i = T_e), electrostatic: at k λ_De = 0.5 the protons'
 # k w_i is about 0.0165 ω_pe, so at Im ω = −0.45 ω_pe Im ζ_i ≈ −27 and the protons' own
 # χ_i ≈ exp(ζ_i²) is near 1e318: it overflows before any sum is formed.
-HOT_IONS = """
-title = "hot-ion ion acoustic, window deep below the real axis"
-[[species]]
-name = "e"
-charge = -1
-mass = "electron"
-density = 1.0e18
-temperature = 100.0
-[[species]]
-name = "H+"
-charge = 1
-mass = "proton"
-density = 1.0e18
-temperature = 100.0
-[wave]
-model = "electrostatic"
-angle = 0.0
-[scan]
-k = { start = 0.5, stop = 0.6, points = 2 }
-[units]
-frequency = "plasma:e"
-length = "debye:e"
-[search]
-real = [-0.1, 0.1]
-imag = [-0.45, 0.05]
-"""
+HOT_IONS = DATA / "overflow_hot_ions.toml"
 
 
 def _es_d(case, k_hat: float, w: mp.mpc) -> mp.mpc:
@@ -185,10 +135,8 @@ def _es_d(case, k_hat: float, w: mp.mpc) -> mp.mpc:
 
 
 @pytest.fixture(scope="module")
-def hot_ions(tmp_path_factory):
-    path = tmp_path_factory.mktemp("hot") / "hot_ions.toml"
-    path.write_text(HOT_IONS)
-    return load_case(path)
+def hot_ions():
+    return load_case(HOT_IONS)
 
 
 def test_es_log_d_where_a_single_chi_overflows(hot_ions) -> None:
@@ -243,34 +191,7 @@ def test_es_window_where_a_single_chi_overflows(hot_ions) -> None:
 # Oblique electromagnetic hydrogen plasma, B = 0.1 T, θ = 60°, T_e = T_i = 10 eV: at
 # k ρ_i = 0.5 the ion resonances are k∥w_i = 0.25 Ω_ci wide, so at Im ω = −5 Ω_ci
 # |exp(−ζ_n²)| ≈ e^400: tensor entries reach 1e181 and |D| 1e535 on the contour.
-OBLIQUE = """
-title = "oblique electromagnetic hydrogen plasma, window far below the real axis"
-[magnetic_field]
-B = 0.1
-[[species]]
-name = "e"
-charge = -1
-mass = "electron"
-density = 1.0e18
-temperature = 10.0
-[[species]]
-name = "H+"
-charge = 1
-mass = "proton"
-density = 1.0e18
-temperature = 10.0
-[wave]
-model = "electromagnetic"
-angle = 60.0
-[scan]
-k = { start = 0.5, stop = 0.6, points = 2 }
-[units]
-frequency = "cyclotron:H+"
-length = "gyroradius:H+"
-[search]
-real = [0.2, 0.9]
-imag = [-5.0, 0.2]
-"""
+OBLIQUE = DATA / "overflow_oblique.toml"
 
 
 def _stix_chi(s, om: mp.mpc, kpar: mp.mpf, kperp: mp.mpf, B: float, n_max: int = 30):
@@ -325,10 +246,8 @@ def _stix_d(case, disp, w: complex) -> mp.mpc:
 
 
 @pytest.fixture(scope="module")
-def oblique(tmp_path_factory):
-    path = tmp_path_factory.mktemp("oblique") / "oblique.toml"
-    path.write_text(OBLIQUE)
-    return load_case(path)
+def oblique():
+    return load_case(OBLIQUE)
 
 
 def test_oblique_em_log_d_against_stix(oblique) -> None:
@@ -384,7 +303,7 @@ def test_oblique_es_magnetized_log_d_against_mpmath(tmp_path) -> None:
     # [1 + ζ₀ Σ_n e^{−λ} I_n(λ) Z(ζ_n)] (T. H. Stix, *Waves in Plasmas*, 1992, ch. 11,
     # electrostatic limit, from memory); at Im ω = −8 Ω_ci |ε_L| ≈ 1e450
     path = tmp_path / "es.toml"
-    path.write_text(OBLIQUE.replace('"electromagnetic"', '"electrostatic"'))
+    path.write_text(OBLIQUE.read_text().replace('"electromagnetic"', '"electrostatic"'))
     case = load_case(path)
     disp = function_at(case, 0.5).dispersion
     kpar, kperp = mp.mpf(disp.k_par.real), mp.mpf(disp.k_perp.real)
