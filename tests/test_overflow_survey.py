@@ -20,7 +20,8 @@ DATA = Path(__file__).parent / "data"
 # Weibel instability with k along the anisotropy axis: electrons T⊥/T∥ = 5, hot protons,
 # B = 0, electromagnetic.  The window reaches Im ω = −0.01 ω_pe, where the protons'
 # Landau term makes |D| about 1e490 (each tensor entry stays finite).
-WEIBEL = DATA / "overflow_weibel.toml"
+WEIBEL_FILE = DATA / "overflow_weibel.toml"
+WEIBEL = WEIBEL_FILE.read_text(encoding="utf-8")  # the text (tests/test_cli_check.py)
 
 mp.mp.dps = 40
 
@@ -55,7 +56,7 @@ def _lambdas(case, k_hat: float, w: mp.mpc) -> tuple[mp.mpc, mp.mpc]:
 
 @pytest.fixture(scope="module")
 def weibel():
-    return load_case(WEIBEL)
+    return load_case(WEIBEL_FILE)
 
 
 def test_weibel_window_below_the_real_axis(weibel) -> None:
