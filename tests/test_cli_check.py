@@ -334,3 +334,18 @@ def test_check_notes_a_window_the_constant_rescaling_handles(tmp_path: Path) -> 
     s = survey(load_case(path), 0.5)
     assert s.complete and s.count is not None
     assert f"{s.count} at k = 0.5," in r.stdout.splitlines()[2]
+
+
+def test_check_tries_the_window_chosen_from_the_plasma(tmp_path: Path) -> None:
+    """Without [search] check says which window kinroots chooses (as solve would) and
+    tries that one."""
+    text = (CASES_DIR / "argon_ion_acoustic.toml").read_text(encoding="utf-8")
+    head, _, tail = text.partition("[search]")
+    path = tmp_path / "nosearch.toml"
+    path.write_text(head, encoding="utf-8")
+    assert "real" in tail and "[search]" not in head
+    r = run("check", str(path))
+    assert r.exit_code == 0, r.stderr
+    assert "search window chosen from the plasma" in r.stderr and "warning" not in r.stderr
+    line = r.stdout.splitlines()[2]
+    assert line.startswith("window Re ω [") and "not counted" not in line

@@ -14,10 +14,12 @@ import kinroots
 from kinroots.cli._common import (
     CaseArg,
     DefaultOpt,
+    announce_window,
     case_summary,
     err,
     info,
     load_case_or_exit,
+    stderr_console,
 )
 
 if TYPE_CHECKING:
@@ -59,6 +61,7 @@ def _try_window(loaded: Case, case: Path | None) -> None:
     from kinroots.study.probe import WindowProbe, probe_launch, probe_window
 
     name = "the default case" if case is None else str(case)
+    announce_window(loaded, stderr_console())  # a window chosen from the plasma: said
     start = time.perf_counter()
     probes: list[tuple[str, WindowProbe]] = [("window", probe_window(loaded))]
     spatial = probe_launch(loaded)
