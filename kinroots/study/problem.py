@@ -636,6 +636,11 @@ def _merge(parts: list[SurveyResult], box: tuple[float, float, float, float],
                         box=box, notes=notes, complete=complete)
 
 
+#: The note of a box surveyed with a constant scale (its power of ten).
+_SCALE_NOTE = re.compile(r"\|D\| exceeds double precision on this window \(up to about "
+                         r"1e(\d+)\): D was surveyed as D/2\^")
+
+
 def _survey_box(f: NormalizedDispersion, b: tuple[float, float, float, float],
                 excluded: list[complex], features: list[tuple[complex, float]],
                 rtol: float, splits: int) -> SurveyResult:
@@ -664,10 +669,14 @@ def _survey_box(f: NormalizedDispersion, b: tuple[float, float, float, float],
         halves = [_survey_box(f, h, excluded, features, rtol, splits + 1)
                   for h in _split(b, lg)]
         merged = _merge(halves, b, abs(complex(b[1] - b[0], b[3] - b[2])))
-        if splits == 0:
+        if splits == 0:  # the sub-boxes' scale notes become one
+            scaled = [int(m.group(1)) for m in map(_SCALE_NOTE.match, merged.notes) if m]
+            merged.notes = [n for n in merged.notes if not _SCALE_NOTE.match(n)]
+            upto = f" (up to about 1e{max(scaled)})" if scaled else ""
             merged.notes.append(
-                "|D| spans more binary orders on this window than double precision holds: "
-                "it was surveyed in sub-boxes, each with its own constant scale")
+                f"|D| exceeds double precision on this window{upto} and spans more binary "
+                "orders than it holds: the window was surveyed in sub-boxes, each as "
+                "D/2^N with its own constant N (same roots; residuals are of the scaled D)")
         return merged
     # one plain note instead of the root layer's edge-by-edge ones
     res.notes = [n for n in res.notes if "is not finite" not in n]
