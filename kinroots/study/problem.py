@@ -106,8 +106,9 @@ FIRST_DEPTH = 0.01
 DEEPEN, MAX_DEPTH = 3.0, 1.0
 #: A chosen window reaches at most this many resonance widths below the real axis where a
 #: resonance centre (k∥V + nΩ, :meth:`NormalizedDispersion.features`) lies within its Re ω
-#: range: exp(26²) is near the largest double, and the root layer may move an edge
-#: outward.
+#: range. The survey handles D beyond double precision (the constant scale, sub-boxes),
+#: but deeper the damped roots of that species crowd in (hundreds near Re ω = 0 for a
+#: cold ion species) and a count at every k costs a survey.
 RESONANCE_DEPTH = 12.0
 #: Probe wavenumbers (evenly spread over the scan's points) for a chosen Im ω range.
 PROBES = 5
