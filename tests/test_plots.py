@@ -237,3 +237,13 @@ def test_empty_figures_say_nothing_was_found() -> None:
     assert "no root found in the search window" in texts(
         plot_branches([], k_label="λ_De", omega_label="ω_pe"))
     assert "no wave found in the k box" in texts(plot_launch([]))
+
+
+def test_threshold_plot_with_no_points_on_a_log_axis() -> None:
+    """A threshold run that found no point draws an empty curve on a log-spaced axis
+    (was an internal error: max of an empty array; found by test_fuzz_commands)."""
+    from kinroots.plots.maps import plot_threshold
+
+    fig = plot_threshold(np.array([]), np.array([]), x_label="β∥", y_label="T⊥/T∥",
+                         label="γ = 1e-3", x_log=True)
+    assert fig.axes[0].get_xscale() == "linear"

@@ -27,8 +27,9 @@ __all__ = ["parameter_label", "plot_growth_map", "plot_threshold", "sweep_map", 
 
 def _scale(axis: Any, which: str, values: np.ndarray | None, log: bool) -> None:
     """Log scale for a log-spaced axis, ticks written as plain numbers (0.5, not 5×10⁻¹)."""
-    if not (log and values is not None and np.all(np.asarray(values) > 0)):
-        return
+    if not (log and values is not None and np.size(values)
+            and np.all(np.asarray(values) > 0)):
+        return  # (no values: nothing to scale; a threshold with no point found)
     (axis.set_xscale if which == "x" else axis.set_yscale)("log")
     v = np.asarray(values, dtype=float)
     plain_log_ticks(axis.xaxis if which == "x" else axis.yaxis,
