@@ -45,6 +45,10 @@ def test_characteristic_frequencies_against_the_formulas():
     assert got["cyclotron frequency of e"] == pytest.approx(wce, rel=1e-6)
     assert got["light wave"] == pytest.approx(math.sqrt(wpe**2 + (k * c) ** 2), rel=1e-6)
     assert got["upper-hybrid frequency"] == pytest.approx(math.hypot(wpe, wce), rel=1e-6)
+    # R cutoff: a zero of Stix's R = 1 - w_pe^2 / (w (w - |W_e|)) for electrons alone
+    # (Stix 1992 eq. 1-19, from memory)
+    w_r = got["R cutoff"]
+    assert 1.0 - wpe**2 / (w_r * (w_r - wce)) == pytest.approx(0.0, abs=1e-9)
 
 
 def test_a_case_without_search_gets_a_window_recorded_and_printed(tmp_path):

@@ -130,11 +130,11 @@ def characteristic_frequencies(plasma: Plasma, k: float, angle_deg: float,
         if electrons:
             wce = max(abs(s.cyclotron_frequency(plasma.B)) for s in electrons)
             out.append(Scale("upper-hybrid frequency", math.sqrt(wpe2 + wce * wce)))
+            if electromagnetic:
+                out.append(Scale("R cutoff", 0.5 * (wce + math.sqrt(wce * wce + 4.0 * wp2))))
         lh = plasma.lower_hybrid_frequency
         if lh is not None:
             out.append(Scale("lower-hybrid frequency", lh))
-            if electromagnetic:
-                out.append(Scale("R cutoff", 0.5 * (wce + math.sqrt(wce * wce + 4.0 * wp2))))
         va = plasma.alfven_speed
         if electromagnetic and va is not None and math.isfinite(va):
             out.append(Scale("Alfven frequency", k * min(va, C_LIGHT)))
