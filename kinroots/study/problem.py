@@ -147,9 +147,7 @@ def window_choice(case: Case) -> WindowChoice:
     if case.search_real is not None and case.search_imag is not None:
         return WindowChoice(case.search_real, case.search_imag, False,
                             "given by the case's [search] table")
-    if cached is None:
-        cached = _choose_window(case)
-        _CHOICES[case] = cached
+    cached = _CHOICES[case] = _choose_window(case)
     return cached
 
 
@@ -181,8 +179,9 @@ def _scales(case: Case) -> tuple[list[Scale], list[Scale], list[str]]:
     units = case.units
     w_u = units.omega_unit
     ks = np.asarray(case.k_values, dtype=float)
+    kmin, kmax = float(ks.min()), float(ks.max())
     at: dict[float, list[Scale]] = {}
-    for k in (float(ks.min()), float(ks.max())):
+    for k in (kmin, kmax):
         at[k] = [Scale(sc.name, sc.centre / w_u, sc.spread / w_u)
                  for sc in characteristic_frequencies(case.plasma, k / units.length_unit,
                                                       case.angle_deg,
@@ -197,10 +196,12 @@ def _scales(case: Case) -> tuple[list[Scale], list[Scale], list[str]]:
         smallest = min(size(sc) for sc in every)
         names = {sc.name for sc in every if size(sc) <= smallest * SCALE_RANGE}
     dropped = sorted({sc.name for sc in every} - names)
-    kmin, kmax = float(ks.min()), float(ks.max())
-    keep = [[sc for sc in at[k] if sc.name in names and size(sc) <= SCALE_RANGE
-             or sc.name in names and k == kmin] for k in (kmax, kmin)]
-    return keep[0], keep[1], dropped
+    # at the largest k a kept scale must itself lie within range (it sets the top edge);
+    # at the smallest k every kept scale counts (the lowest sets the left edge)
+    high_k = [sc for sc in at[kmax]
+              if sc.name in names and (size(sc) <= SCALE_RANGE or kmax == kmin)]
+    low_k = [sc for sc in at[kmin] if sc.name in names]
+    return high_k, low_k, dropped
 
 
 def _real_range(case: Case) -> tuple[tuple[float, float], str]:
@@ -249,12 +250,10 @@ def _choose_window(case: Case) -> WindowChoice:
     # below the real axis a Landau term exp(-zeta^2) grows like exp((Im omega / width)^2)
     # near a resonance centre: past about 26 widths it exceeds double precision
     cap = MAX_DEPTH * span
-    for k in (float(ks.min()),):
-        f = function_at(case, k)
-        widths = [w for c, w in f.features((real[0], real[1], -cap, 0.0))
-                  if real[0] <= c.real <= real[1]]
-        if widths:
-            cap = min(cap, RESONANCE_DEPTH * min(widths))
+    widths = [w for c, w in function_at(case, float(ks.min())).features(
+        (real[0], real[1], -cap, 0.0)) if real[0] <= c.real <= real[1]]
+    if widths:
+        cap = min(cap, RESONANCE_DEPTH * min(widths))
     top, depth = 0.5 * span, min(FIRST_DEPTH * span, cap)
     evaluations = 0
     best: dict[float, float] = {}  # probe k -> Im of its least-damped root found
