@@ -283,16 +283,26 @@ class BoundaryCounter:
     def _thin(self, z: np.ndarray, f: np.ndarray, d: np.ndarray) -> np.ndarray:
         """Mask of samples to keep: every other one whose neighbours pass without it."""
         keep = np.ones(z.size, dtype=bool)
-        j = 1
-        while j < z.size:
-            nxt = (j + 1) % z.size
-            if z[j].item() not in self._corner_set:
-                trial = segment_ok(z[[j - 1, nxt]], f[[j - 1, nxt]], d[[j - 1, nxt]])
-                if trial[0]:
-                    keep[j] = False
-                    j += 2  # at most every other sample per batch
-                    continue
-            j += 1
+        if z.size < 3:
+            return keep
+        # merged segment (j−1, j+1) for every j ≥ 1, tested in one call: the segments are
+        # independent, and a dropped sample's neighbours are both kept (the skip below),
+        # so each test is the one the thinned loop will see
+        j = np.arange(1, z.size)
+        nxt = (j + 1) % z.size
+        zz = np.stack([z[j - 1], z[nxt]], axis=1).ravel()
+        ff = np.stack([f[j - 1], f[nxt]], axis=1).ravel()
+        dd = np.stack([d[j - 1], d[nxt]], axis=1).ravel()
+        merged = segment_ok(zz, ff, dd)[::2]
+        corner = np.isin(z[1:], np.array(list(self._corner_set)))
+        can = (merged & ~corner).tolist()
+        i = 0
+        while i < len(can):
+            if can[i]:
+                keep[i + 1] = False
+                i += 2  # at most every other sample per batch
+            else:
+                i += 1
         return keep
 
     def _exclusions(self, ps: list[float], family: Family | None, pairs: PairFamily | None
