@@ -58,6 +58,8 @@ _REGISTRY: dict[tuple[str, bool], str] = {
 #: (k, ω) pairs per block of :func:`dispersion_pairs` times harmonics: each temporary
 #: array of a block then holds at most this many complex numbers (1 MiB).
 BLOCK_ELEMENTS = 65536
+#: The dtype of the Python-arithmetic path's input (:meth:`Dispersion.__call__`).
+_COMPLEX = np.dtype(complex)
 
 #: Points on the Cauchy circles used for dD/dk of magnetized models.
 _N_CIRCLE = 32
@@ -427,6 +429,8 @@ class Dispersion:
         self._sums_ready = False
         self._scaled_sum_: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
         self._species_sum_: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None = None
+        self._scalar_path_: Callable[[np.ndarray, float],
+                                     tuple[np.ndarray, np.ndarray]] | None = None
         if self.electromagnetic:
             self.scaling = (
                 f"D = (omega/omega_ref)^4 det(Lambda), omega_ref = {self.omega_ref!r} rad/s: "
@@ -460,6 +464,9 @@ class Dispersion:
             extra = {"B": self.plasma.B, "tol": self.harmonic_tol} if self.magnetized else {}
             self._species_sum_ = factory.for_species(
                 tuple(species), k_par=self.k_par, k_perp=self.k_perp, **extra)
+            #: ``offset`` + Σχ_s and its ω-derivative at a few ω in Python arithmetic
+            #: (:meth:`__call__`), where the species sum offers it.
+            self._scalar_path_ = getattr(self._species_sum_, "scalar_sum", None)
 
     @property
     def _scaled_sum(self) -> Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]] | None:
@@ -714,20 +721,23 @@ class Dispersion:
         same values, since every ω is evaluated independently), which bounds the memory
         of one call (DEVELOPERS.md, "Memory").
         """
-        return in_blocks(self._evaluate, np.asarray(omega, dtype=complex), block=self.block)
+        om = (omega if type(omega) is np.ndarray and omega.dtype == _COMPLEX
+              else np.asarray(omega, dtype=complex))
+        if om.size <= 4 and not self.log2_offset:
+            # a few finite ω (survey polish, tracer steps): Python arithmetic, no numpy
+            # error state or NaN masking needed (the species sum raises where they would be)
+            if not self._sums_ready:
+                self._sums()
+            scalar = self._scalar_path_
+            if scalar is not None:
+                try:
+                    return scalar(om, 1.0)
+                except (OverflowError, ZeroDivisionError, ValueError):
+                    pass
+        return in_blocks(self._evaluate, om, block=self.block)
 
     def _evaluate(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`__call__` for one block of ω (complex array)."""
-        if om.size <= 4 and self._species_sum is not None and not self.log2_offset:
-            # a few finite ω (survey polish, tracer steps): Python arithmetic, no numpy
-            # error state or NaN masking needed (the species sum raises where they would be)
-            scalar_sum = getattr(self._species_sum, "scalar_sum", None)
-            if scalar_sum is not None:
-                try:
-                    chi, dchi = scalar_sum(om)
-                    return 1.0 + chi, dchi
-                except (OverflowError, ZeroDivisionError, ValueError):
-                    pass
         with np.errstate(all="ignore"):
             if self.log2_offset:
                 d, dd, p = self._scaled_block(om)

@@ -231,6 +231,35 @@ _A_LIST = [float(c) for c in _A]
 _DA_LIST = [float(2 * n * c) for n, c in enumerate(_A)]
 
 
+def _series_count(r: float) -> int:
+    """Terms of the series kept at |ζ| = r: up to the first n ≥ 2 with a_n / r^{2n} below
+    1e-18 (the rule of :func:`_terms_needed`), at most _N_TERMS."""
+    ua = 1.0 / (r * r)
+    power = ua
+    for i in range(2, _N_TERMS):
+        power *= ua  # ua**i
+        if _A_LIST[i] * power < 1e-18:
+            return i + 1
+    return _N_TERMS
+
+
+def _series_rows(count: int) -> tuple[float, float, tuple[tuple[float, float], ...]]:
+    """The Horner data of ``count`` terms: a_{count−1}, 2(count−1)a_{count−1}, then the
+    pairs (a_n, 2n·a_n) for n = count − 2 … 1."""
+    rest = tuple((_A_LIST[n], _DA_LIST[n]) for n in range(count - 2, 0, -1))
+    return _A_LIST[count - 1], _DA_LIST[count - 1], rest
+
+
+#: |ζ| beyond which :data:`_SCALAR_ROWS` holds one last entry (5 terms there).
+_COUNT_TABLE_END = 1024
+#: Horner data (:func:`_series_rows`) for |ζ| in [n, n + 1), n < _COUNT_TABLE_END, then for
+#: |ζ| ≥ _COUNT_TABLE_END: with the count at the cell's smallest |ζ|, which is enough
+#: everywhere in the cell (the count never grows with |ζ|), so that a point needs no loop
+#: to find its own.
+_SCALAR_ROWS = tuple(_series_rows(_series_count(max(float(n), _ZETA_SERIES)))
+                     for n in range(_COUNT_TABLE_END + 1))
+
+
 def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
     """:func:`first_moment` at one finite point, in Python arithmetic.
 
@@ -259,20 +288,13 @@ def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
             m1 = -f
         return m1, -zf - 2.0 * zeta * m1
     u = 1.0 / (zeta * zeta)
-    # terms kept as in _terms_needed, with this point's own |ζ|
-    ua = 1.0 / (r * r)
-    count = _N_TERMS
-    power = ua
-    for i in range(2, _N_TERMS):
-        power *= ua  # ua**i
-        if _A_LIST[i] * power < 1e-18:
-            count = i + 1
-            break
-    acc: complex = _A_LIST[count - 1]
-    dacc: complex = _DA_LIST[count - 1]
-    for n in range(count - 2, 0, -1):
-        acc = acc * u + _A_LIST[n]
-        dacc = dacc * u + _DA_LIST[n]
+    # terms kept as in _terms_needed, with the count of the integer part of this |ζ|
+    acc: complex
+    dacc: complex
+    acc, dacc, rest = _SCALAR_ROWS[int(r) if r < _COUNT_TABLE_END else -1]
+    for a, da in rest:
+        acc = acc * u + a
+        dacc = dacc * u + da
     m1 = u * acc
     dm1 = -(u / zeta) * dacc
     if zeta.imag <= 0.0:

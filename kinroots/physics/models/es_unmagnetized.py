@@ -212,22 +212,29 @@ class SpeciesSum:
             derivative = (dcoef[:, None] * dm1.reshape(-1, n)).sum(axis=0)
         return value.reshape(om.shape), derivative.reshape(om.shape)
 
-    def scalar_sum(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """The sums at each of a few finite ω, in Python arithmetic (raises ValueError for a
-        non-finite ω and OverflowError where an exponential overflows; no numpy error
-        state is needed, and the results are finite where no exception is raised)."""
+    def scalar_sum(self, om: np.ndarray, offset: float = 0.0
+                   ) -> tuple[np.ndarray, np.ndarray]:
+        """``offset`` + Σ_s χ_s and Σ_s ∂χ_s/∂ω at each of a few finite ω, in Python
+        arithmetic (raises ValueError for a non-finite ω and OverflowError where an
+        exponential overflows; no numpy error state is needed, and the results are finite
+        where no exception is raised). ``offset = 1`` gives the dielectric function."""
+        moment = first_moment_scalar
+        isfinite = math.isfinite
         values = []
         derivatives = []
-        for w in om.ravel().tolist():
-            if not (math.isfinite(w.real) and math.isfinite(w.imag)):
+        single = om.size == 1  # the tracer's and the polish's calls
+        for w in (om.item(),) if single else om.ravel().tolist():
+            if not (isfinite(w.real) and isfinite(w.imag)):
                 raise ValueError("non-finite frequency")
             v = d = 0j
             for shift, kappa, coef, dcoef in self._scalar_constants:
-                m1, dm1 = first_moment_scalar((w - shift) / kappa)
+                m1, dm1 = moment((w - shift) / kappa)
                 v += coef * m1
                 d += dcoef * dm1
-            values.append(v)
+            values.append(offset + v)
             derivatives.append(d)
+        if om.ndim == 1:
+            return np.array(values), np.array(derivatives)  # complex: v, d are
         return (
             np.array(values, dtype=complex).reshape(om.shape),
             np.array(derivatives, dtype=complex).reshape(om.shape),
