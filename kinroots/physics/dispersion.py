@@ -17,7 +17,6 @@ from typing import Any
 
 import numpy as np
 
-from kinroots.physics.models import krook
 from kinroots.physics.models.base import Builder, Susceptibility
 from kinroots.physics.models.species_models import (
     builder_for_plasma,
@@ -25,7 +24,13 @@ from kinroots.physics.models.species_models import (
     plain_species,
 )
 from kinroots.physics.plasma import C_LIGHT, EV, Plasma
+from kinroots.physics.zfunc import SHIFT_MAX_BITS as _MAX_BITS
+from kinroots.physics.zfunc import SHIFT_RETRIES as _BITS_RETRIES
+from kinroots.physics.zfunc import SHIFT_STEP as _BITS_STEP
+from kinroots.physics.zfunc import SHIFT_TOP_BITS as _TOP_BITS
+from kinroots.physics.zfunc import binary_exponent as _exponent
 from kinroots.physics.zfunc import landau_shift
+from kinroots.physics.zfunc import ldexp_complex as _ldexp_complex
 
 __all__ = [
     "BLOCK_ELEMENTS",
@@ -161,29 +166,6 @@ def _scaled_det_and_derivative(
     return d, np.sum(cof * (dm * scale), axis=(-2, -1)), np.sum(e, axis=-1)
 
 
-def _ldexp_complex(z: np.ndarray, p: np.ndarray | int) -> np.ndarray:
-    """z · 2^p for complex z and integer p, exact unless the result over/underflows."""
-    out = np.empty(np.broadcast_shapes(np.shape(z), np.shape(p)), dtype=complex)
-    out.real = np.ldexp(z.real, p)
-    out.imag = np.ldexp(z.imag, p)
-    return out
-
-
-#: :meth:`Dispersion.scaled`: the largest Landau term is brought to about 2^_TOP_BITS
-#: (room below 2^1024 for coefficients and sums), shifts are multiples of _BITS_STEP,
-#: and a group whose result still overflows is retried that many times, 4 steps up.
-_TOP_BITS = 880
-_BITS_STEP = 64
-_BITS_RETRIES = 4
-#: Largest shift tried (binary orders): |D| up to about 2^(2^20) = 10^315000.
-_MAX_BITS = 2**20
-
-
-def _exponent(z: np.ndarray) -> np.ndarray:
-    """Binary exponent e with max(|Re z|, |Im z|) < 2^e (−1100 for zeros)."""
-    big = np.maximum(np.abs(z.real), np.abs(z.imag))
-    _, e = np.frexp(np.where(np.isfinite(big) & (big > 0), big, 0.0))
-    return np.where(big > 0, e.astype(np.int64), -1100)
 
 
 def _combine_scaled(
@@ -546,8 +528,8 @@ class Dispersion:
         if self.magnetized and kpar == 0:
             return best
         for s in self.plasma.species:
-            if s.distribution != "maxwellian":
-                continue
+            if s.distribution != "maxwellian" or s.collision_frequency > 0.0:
+                continue  # a Krook χ_s is finite and regular (krook.ratio)
             n_max = self.harmonics.get(s.name, 0)
             for _, part in s.component_species():
                 wpar2 = 2.0 * part.temperature_par * EV / part.mass
@@ -588,7 +570,7 @@ class Dispersion:
             chi, dchi = self._chi(om)
             d, dd, p = 1.0 + chi, dchi, np.zeros(om.shape, dtype=int)
         bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
-        if not np.any(bad) or krook.collisional(self.plasma):
+        if not np.any(bad):
             return d, dd, p
         idx = np.flatnonzero(bad)
         pts = om.ravel()[idx]
@@ -644,9 +626,10 @@ class Dispersion:
         Electrostatic D = 1 + Σχ_s is such an entry; electromagnetic D = det S is then
         formed from rows of S scaled by exact powers of two (multilinearity of det in
         the rows; G. H. Golub and C. F. Van Loan, *Matrix Computations*, 4th ed., 2013,
-        sec. 3.5.2).  Krook (collisional) species enter χ non-linearly: for them the
-        exponent carries only what row scaling gives, and points where an entry
-        overflows stay NaN.
+        sec. 3.5.2).  A Krook (collisional) χ_s = N_s/Q_s is not affine in its terms, but
+        it is finite (its builder forms the ratio from mantissas where N_s and Q_s
+        overflow, :func:`kinroots.physics.models.krook.ratio`) and does not shift
+        (it evaluates with ``landau_shift(0)``): it is part of R.
         """
         om = np.asarray(omega, dtype=complex) * 1.0
         d = np.empty(om.shape, dtype=complex)

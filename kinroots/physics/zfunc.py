@@ -102,6 +102,46 @@ def shift_exponent() -> tuple[float, float]:
 
 _SQRT_PI = math.sqrt(math.pi)
 
+#: Overflow-free evaluation (:meth:`kinroots.physics.dispersion.Dispersion.scaled`,
+#: :func:`kinroots.physics.models.krook.split_parts`): the largest Landau term is brought
+#: to about 2^SHIFT_TOP_BITS (room below 2^1024 for coefficients and sums), shifts are
+#: multiples of SHIFT_STEP, a group whose result still overflows is retried SHIFT_RETRIES
+#: times, 4 steps up, and no shift beyond SHIFT_MAX_BITS is tried (|D| up to about
+#: 2^(2^20) = 10^315000).
+SHIFT_TOP_BITS = 880
+SHIFT_STEP = 64
+SHIFT_RETRIES = 4
+SHIFT_MAX_BITS = 2**20
+
+
+def binary_exponent(z: np.ndarray) -> np.ndarray:
+    """Binary exponent e with max(|Re z|, |Im z|) < 2^e, per element (int64).
+
+    Parameters
+    ----------
+    z : ndarray of complex
+        Values, any shape.
+
+    Returns
+    -------
+    ndarray of int64
+        ``e`` from :func:`numpy.frexp` of the larger part; −1100 for zeros and for
+        non-finite values (below every finite exponent: such elements never set a scale).
+    """
+    big = np.maximum(np.abs(z.real), np.abs(z.imag))
+    _, e = np.frexp(np.where(np.isfinite(big) & (big > 0), big, 0.0))
+    return np.where(np.isfinite(big) & (big > 0), e.astype(np.int64), -1100)
+
+
+def ldexp_complex(z: np.ndarray, p: np.ndarray | int) -> np.ndarray:
+    """``z · 2^p`` for complex ``z`` and integer ``p`` (broadcast), exact unless the result
+    over- or underflows (:func:`numpy.ldexp` on both parts)."""
+    out = np.empty(np.broadcast_shapes(np.shape(z), np.shape(p)), dtype=complex)
+    out.real = np.ldexp(np.real(z), p)
+    out.imag = np.ldexp(np.imag(z), p)
+    return out
+
+
 #: Below this |s| Z comes from scipy's Faddeeva function and F = 1 + sZ directly.
 _R_INNER = 2.0
 #: At and above this |s| the asymptotic series is used for F.

@@ -233,7 +233,7 @@ def _overflow_text(case: Case, f: NormalizedDispersion, z: np.ndarray, box: Box,
     on = f"{_join(edges)} edge{'s' if len(edges) > 1 else ''}"
     term = _largest_landau_term(case, z * w_u, np.full(z.shape, complex(d.k)),
                                 d.harmonics if d.magnetized else None)
-    if why == "undefined" and _undefined_note(f) != _TOO_WIDE:  # Krook, kappa cut
+    if why == "undefined" and _undefined_note(f) != _TOO_WIDE:  # kappa cut
         return "warning", (f"D cannot be evaluated on the {on} near ω = {_c(complex(z[0]))} "
                            f"{unit}: " + _undefined_note(f).replace("zeta", "ζ"))
     if term is None or term.decades < 300.0:

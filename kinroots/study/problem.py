@@ -29,6 +29,7 @@ from kinroots.physics.dispersion import (
 )
 from kinroots.physics.models import krook, krook_dispersion
 from kinroots.physics.scales import Scale, characteristic_frequencies
+from kinroots.physics.zfunc import ldexp_complex
 from kinroots.roots import (
     Branch,
     SurveyResult,
@@ -382,33 +383,8 @@ class NormalizedDispersion:
     def _call(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         disp = self.dispersion
         w_u = disp.omega_ref
-        krook_es = self.__dict__.get("_krook_es")
-        if krook_es is None:  # fixed for the wrapped function: decided on the first call
-            krook_es = self.__dict__["_krook_es"] = (
-                krook.collisional(disp.plasma) and not disp.electromagnetic
-            )
-        if krook_es and disp.magnetized:
-            # same scaling, magnetized χ_s = N_s/Q_s; at k∥ = 0 F has poles (nΩ − iν), which
-            # the case file rejects: NaN makes such a point fail visibly if reached otherwise
-            om = np.asarray(omega, dtype=complex)
-            if disp.k_par == 0:
-                nan = np.full(om.shape, np.nan + 0j)
-                return nan, nan.copy()
-            f, fw = krook_dispersion.magnetized_scaled_dispersion(
-                om * w_u, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
-                B=disp.plasma.B, tol=disp.harmonic_tol,
-            )
-            return f, fw * w_u
-        if krook_es:
-            # Krook χ_s has poles: hand the root layer F = (Π_s Q_s) D, entire, same zeros
-            cos, sin = disp._cos, disp._sin
-            f, fw, _ = krook.scaled_dispersion(
-                np.asarray(omega, dtype=complex) * w_u, disp.plasma.species,
-                k=disp.k, cos_theta=cos, sin_theta=sin,
-            )
-            return f, fw * w_u
         om = np.asarray(omega, dtype=complex)
-        d, dd = disp(om * w_u)
+        d, dd = self._krook(om * w_u, disp.log2_offset) if self._krook_es else disp(om * w_u)
         if self.auto_window is not None and not self.__dict__.get("_auto_tried"):
             bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
             if bad.any():
@@ -416,8 +392,65 @@ class NormalizedDispersion:
                 offset, _, _ = _log2_offset(self, self.auto_window)
                 if offset:
                     disp.log2_offset = offset
-                    d, dd = disp(om * w_u)
+                    d, dd = (self._krook(om * w_u, offset) if self._krook_es
+                             else disp(om * w_u))
         return d, dd * w_u
+
+    @property
+    def _krook_es(self) -> bool:
+        """Electrostatic with Krook species: the function handed over is F = (Π_s Q_s) D."""
+        flag = self.__dict__.get("_krook_flag")
+        if flag is None:  # fixed for the wrapped function: decided on the first call
+            disp = self.dispersion
+            flag = self.__dict__["_krook_flag"] = (krook.collisional(disp.plasma)
+                                                   and not disp.electromagnetic)
+        return bool(flag)
+
+    def _krook_split(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """F, dF/dω (SI ω) as mantissas and the binary exponent per point."""
+        disp = self.dispersion
+        if disp.magnetized:
+            # at k∥ = 0 F has poles (nΩ − iν), which the case file rejects: NaN makes such
+            # a point fail visibly if reached otherwise
+            if disp.k_par == 0:
+                nan = np.full(om.shape, np.nan + 0j)
+                return nan, nan.copy(), np.zeros(om.shape, dtype=int)
+            return krook_dispersion.magnetized_split_dispersion(
+                om, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
+                B=disp.plasma.B, tol=disp.harmonic_tol)
+        f, fw, _, p = krook.split_dispersion(om, disp.plasma.species, k=disp.k,
+                                             cos_theta=disp._cos, sin_theta=disp._sin)
+        return f, fw, p
+
+    def _krook(self, om: np.ndarray, offset: int) -> tuple[np.ndarray, np.ndarray]:
+        """F = (Π_s Q_s) D and dF/dω at SI ω (Krook χ_s = N_s/Q_s has poles; F is entire
+        with the same zeros), times 2^−offset when ``offset`` is set (overflow-free)."""
+        disp = self.dispersion
+        if offset:
+            f, fw, p = self._krook_split(om)
+            return ldexp_complex(f, p - offset), ldexp_complex(fw, p - offset)
+        if disp.magnetized:
+            if disp.k_par == 0:
+                nan = np.full(om.shape, np.nan + 0j)
+                return nan, nan.copy()
+            return krook_dispersion.magnetized_scaled_dispersion(
+                om, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
+                B=disp.plasma.B, tol=disp.harmonic_tol)
+        f, fw, _ = krook.scaled_dispersion(om, disp.plasma.species, k=disp.k,
+                                           cos_theta=disp._cos, sin_theta=disp._sin)
+        return f, fw
+
+    def log2_magnitude(self, omega: np.ndarray) -> np.ndarray:
+        """log₂|f| at normalized ω without overflow (NaN where f is not defined): of D,
+        or of F = (Π_s Q_s) D with Krook species."""
+        om = np.asarray(omega, dtype=complex) * self.dispersion.omega_ref
+        if not self._krook_es:
+            return self.dispersion.log2_magnitude(om)
+        f, _, p = self._krook_split(om)
+        with np.errstate(all="ignore"):
+            out = np.log2(np.abs(f)) + p
+        out[~np.isfinite(out)] = np.nan
+        return out
 
     def value(self, omega: np.ndarray) -> np.ndarray:
         """D only (for maps)."""
@@ -540,7 +573,7 @@ def _boundary_log2(f: NormalizedDispersion, box: tuple[float, float, float, floa
     xs = [c.real + w * u for c, w in f.features(box) for u in (-2, -1, -0.5, 0, 0.5, 1, 2)]
     xr = np.array([x for x in xs if x0 <= x <= x1])
     z = np.concatenate((z, xr + 1j * y0, xr + 1j * y1))
-    return z, f.dispersion.log2_magnitude(z * f.dispersion.omega_ref)
+    return z, f.log2_magnitude(z)
 
 
 def _log2_offset(f: NormalizedDispersion, box: tuple[float, float, float, float]
@@ -575,11 +608,6 @@ def _log2_offset(f: NormalizedDispersion, box: tuple[float, float, float, float]
 def _undefined_note(f: NormalizedDispersion) -> str:
     """Why D cannot be evaluated on an edge even with the exponent carried apart."""
     plasma = f.dispersion.plasma
-    if krook.collisional(plasma):
-        return ("D overflows there: with collisional (Krook) species the susceptibility "
-                "is not a sum of Landau exponentials with bounded coefficients, so no "
-                "overflow-free form is available; raise the window's lower edge toward "
-                "the real axis (README, limits)")
     if any(s.distribution == "kappa" for s in plasma.species):
         return ("D is not defined there: the continued kappa functions have a branch cut "
                 "(Im zeta < -sqrt(kappa) on the imaginary zeta axis) that the edge "

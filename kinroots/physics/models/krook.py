@@ -12,13 +12,25 @@ particle number is conserved (a plain Krook term −ν f does not conserve it).
 
 from __future__ import annotations
 
+import math
+from collections.abc import Callable
+
 import numpy as np
 
 from kinroots.physics.models._harmonics import hdot, landau_sign, prepare_species
 from kinroots.physics.models._landau import landau_moments, thermal_speeds_squared
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
-from kinroots.physics.zfunc import plasma_z_and_prime
+from kinroots.physics.zfunc import (
+    SHIFT_MAX_BITS,
+    SHIFT_RETRIES,
+    SHIFT_STEP,
+    SHIFT_TOP_BITS,
+    binary_exponent,
+    landau_shift,
+    ldexp_complex,
+    plasma_z_and_prime,
+)
 
 __all__ = [
     "collisional",
@@ -26,8 +38,14 @@ __all__ = [
     "magnetized_parts",
     "magnetized_susceptibility",
     "product_sum",
+    "ratio",
+    "landau_bits",
+    "magnetized_landau_bits",
     "scaled_dispersion",
+    "split_dispersion",
+    "split_parts",
     "susceptibility",
+    "unmagnetized_parts",
 ]
 
 
@@ -154,24 +172,210 @@ def susceptibility(
         np.asarray(k_par, dtype=complex),
         np.asarray(k_perp, dtype=complex),
     )
-    nu = float(species.collision_frequency)
-    wp2 = species.plasma_frequency**2
-    with np.errstate(all="ignore"):
-        kappa = _kappa(species, kpar, kperp)
-        kappa2 = kappa * kappa
-        zeta = (om - kpar * species.drift + 1j * nu) / kappa
-        ms, dms = landau_moments(zeta, order=1)
-        coef = -2.0 * wp2 / kappa2
-        n = coef * ms[1]
-        dn = coef * dms[1] / kappa
-        if nu == 0.0:
-            return Susceptibility(value=n, derivative=dn, harmonics=0)
-        a = 1j * nu / kappa
-        q = 1.0 - a * ms[0]
-        dq = -a * dms[0] / kappa
+
+    def parts(idx: np.ndarray | None) -> tuple[np.ndarray, ...]:
+        o, a, b = (om, kpar, kperp) if idx is None else (
+            om.ravel()[idx], kpar.ravel()[idx], kperp.ravel()[idx])
+        return unmagnetized_parts(o, species, k_par=a, k_perp=b, dk=False)
+
+    return ratio(parts, lambda idx: landau_bits(om.ravel()[idx], species,
+                                                k_par=kpar.ravel()[idx],
+                                                k_perp=kperp.ravel()[idx]),
+                 om.shape, harmonics=0)
+
+
+def ratio(
+    parts: Callable[[np.ndarray | None], tuple[np.ndarray, ...]],
+    bits: Callable[[np.ndarray], np.ndarray],
+    shape: tuple[int, ...],
+    *,
+    harmonics: int,
+) -> Susceptibility:
+    """χ = N/Q and ∂χ/∂ω = (N′Q − NQ′)/Q² from ``parts`` = (N, Q, N′, Q′), overflow-free.
+
+    Parameters
+    ----------
+    parts : callable
+        ``parts(idx)`` gives N, Q, ∂N/∂ω, ∂Q/∂ω at the flat indices ``idx`` of the
+        points (all points, shaped ``shape``, for ``idx = None``).
+    bits : callable
+        ``bits(idx)``: log₂ of the largest Landau term exp(−ζ²) at those points
+        (:func:`landau_bits`).
+    shape : tuple of int
+        Shape of the points.
+    harmonics : int
+        Passed to the result.
+
+    Notes
+    -----
+    N and Q are affine in the species' Landau terms 2i√π exp(−ζ²) (the reflection
+    Z(ζ) = 2i√π exp(−ζ²) − Z(−ζ), NIST DLMF 7.4.3), so where they overflow the ratio is
+    formed from the mantissas of :func:`split_parts` (the common power of two cancels);
+    it stays finite since both grow like the same exponential.  Every evaluation is
+    done with the terms unshifted (``landau_shift(0)``), whatever the caller's setting:
+    χ is then a regular part for the affine split of :meth:`Dispersion.scaled`.
+    """
+    with landau_shift(0), np.errstate(all="ignore"):
+        n, q, dn, dq = (np.asarray(x, dtype=complex) for x in parts(None))
         value = n / q
         derivative = (dn * q - n * dq) / (q * q)
-    return Susceptibility(value=value, derivative=derivative, harmonics=0)
+        bad = ~(np.isfinite(value) & np.isfinite(derivative))
+        if bad.any():  # overflow (or bad input, which stays NaN)
+            idx = np.flatnonzero(bad)
+            (nm, qm, dnm, dqm), _ = split_parts(
+                lambda i: parts(idx if i is None else idx[i])[:4], lambda i: bits(idx[i]),
+                idx.size)
+            value = value.ravel().copy()
+            derivative = derivative.ravel().copy()
+            value[idx] = nm / qm
+            derivative[idx] = (dnm * qm - nm * dqm) / (qm * qm)
+            value, derivative = value.reshape(shape), derivative.reshape(shape)
+    return Susceptibility(value=value, derivative=derivative, harmonics=harmonics)
+
+
+def split_parts(
+    evaluate: Callable[[np.ndarray | None], tuple[np.ndarray, ...]],
+    bits: Callable[[np.ndarray], np.ndarray],
+    size: int,
+) -> tuple[list[np.ndarray], np.ndarray]:
+    """Mantissas of (N, Q, derivatives …) of one species with one binary exponent per point.
+
+    Parameters
+    ----------
+    evaluate : callable
+        ``evaluate(idx)`` gives N, Q and any derivatives (arrays of one flat shape) at the
+        points ``idx`` (an index array into ``range(size)``, or None for all), under the
+        current :func:`~kinroots.physics.zfunc.landau_shift`.
+    bits : callable
+        ``bits(idx)``: log₂ of the largest Landau term at those points (:func:`landau_bits`).
+    size : int
+        Number of points.
+
+    Returns
+    -------
+    mantissas : list of ndarray
+        Each part times 2^−p (flat).
+    p : ndarray of int
+        The exponent: max(|N|, |Q|) < 2^p (0 where both vanish).
+
+    Notes
+    -----
+    Every part is affine in the species' Landau terms, so where the plain evaluation
+    overflows, one evaluation with the terms dropped (regular part R) and one with them
+    times 2^−b (b from :func:`landau_bits`) give part = R + 2^b X exactly; the mantissas
+    are R·2^−p + X·2^(b−p).  Elsewhere the plain parts are scaled by 2^−p, which is exact.
+    A product such as F = Π Q_s + Σ N_s Π_(r≠s) Q_r, linear in each species' pair
+    (N_s, Q_s), is then Π 2^(p_s) times the same product of mantissas (the argument of
+    row scaling for a determinant; G. H. Golub and C. F. Van Loan, *Matrix
+    Computations*, 4th ed., 2013, sec. 3.5.2).  Points beyond 2^(2^20) stay NaN.
+    """
+    with landau_shift(0), np.errstate(all="ignore"):
+        plain = [np.asarray(x, dtype=complex).ravel() for x in evaluate(None)]
+    with np.errstate(all="ignore"):
+        p = np.maximum(binary_exponent(plain[0]), binary_exponent(plain[1]))
+        p = np.where(p == -1100, 0, p)
+        out = [ldexp_complex(x, -p) for x in plain]
+        bad = ~np.all([np.isfinite(x) for x in out], axis=0)
+        if not bad.any():
+            return out, p
+        idx = np.flatnonzero(bad)
+        want = np.asarray(bits(idx), dtype=float) - SHIFT_TOP_BITS
+        with np.errstate(invalid="ignore"):
+            groups = np.maximum(SHIFT_STEP, SHIFT_STEP * np.ceil(want / SHIFT_STEP))
+        keep = groups <= SHIFT_MAX_BITS  # beyond (or NaN): left NaN
+        for x in out:
+            x[idx[~keep]] = np.nan
+        idx, groups = idx[keep], groups[keep]
+        for g in np.unique(groups):
+            sel = idx[groups == g]
+            with landau_shift(math.inf):
+                reg = [np.asarray(x, dtype=complex).ravel() for x in evaluate(sel)]
+            b = int(g)
+            for _ in range(SHIFT_RETRIES):
+                with landau_shift(b):
+                    big = [np.asarray(x, dtype=complex).ravel() for x in evaluate(sel)]
+                xs = [u - r for u, r in zip(big, reg, strict=True)]
+                q = np.maximum(
+                    np.maximum(binary_exponent(reg[0]), binary_exponent(xs[0]) + b),
+                    np.maximum(binary_exponent(reg[1]), binary_exponent(xs[1]) + b))
+                ms = [ldexp_complex(r, -q) + ldexp_complex(x, b - q)
+                      for r, x in zip(reg, xs, strict=True)]
+                if np.all([np.isfinite(m) for m in ms]):
+                    break
+                b += 4 * SHIFT_STEP
+            for x, m in zip(out, ms, strict=True):
+                x[sel] = m
+            p[sel] = q
+    return out, p
+
+
+def landau_bits(
+    omega: np.ndarray, species: Species, /, *, k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray,
+) -> np.ndarray:
+    """log₂|exp(−ζ′²)| where Im ζ′ < 0 (else 0): the Landau term of an unmagnetized species.
+
+    ζ′ = (ω − k∥V + iν)/κ as in :func:`susceptibility` (ν = 0 collisionless).
+    """
+    with np.errstate(all="ignore"):
+        kappa = _kappa(species, np.asarray(k_par, dtype=complex),
+                       np.asarray(k_perp, dtype=complex))
+        z = (np.asarray(omega, dtype=complex) - k_par * species.drift
+             + 1j * species.collision_frequency) / kappa
+        a = np.where(z.imag < 0.0, (z.imag - z.real) * (z.imag + z.real), 0.0)
+    return a / math.log(2.0)
+
+
+def unmagnetized_parts(
+    omega: np.ndarray, species: Species, /, *, k_par: complex | np.ndarray,
+    k_perp: complex | np.ndarray, dk: bool = True,
+) -> tuple[np.ndarray, ...]:
+    """N, Q, ∂N/∂ω, ∂Q/∂ω (and ∂N/∂k, ∂Q/∂k if ``dk``) of :func:`susceptibility`.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        ω [rad/s].
+    species : Species
+        A Maxwellian species, ν ≥ 0 (Q = 1 exactly at ν = 0: the collisionless χ = N).
+    k_par, k_perp : complex or array_like
+        Wave-vector components [1/m], broadcast against ``omega``; ∂/∂k is taken at fixed
+        real direction.
+    dk : bool
+        Whether to return the k derivatives.
+
+    Notes
+    -----
+    The formulas of :func:`susceptibility` (N) and :func:`denominator` (Q), one
+    :func:`~kinroots.physics.models._landau.landau_moments` call:
+    ∂N/∂k = −2N/k − (2ω_p²/κ²) M_1′ ∂ζ′/∂k (κ ∝ k at fixed direction).
+    """
+    om, kpar, kperp = np.broadcast_arrays(
+        np.asarray(omega, dtype=complex),
+        np.asarray(k_par, dtype=complex),
+        np.asarray(k_perp, dtype=complex),
+    )
+    nu = float(species.collision_frequency)
+    with np.errstate(all="ignore"):
+        kappa = _kappa(species, kpar, kperp)
+        zeta = (om - kpar * species.drift + 1j * nu) / kappa
+        ms, dms = landau_moments(zeta, order=1)
+        coef = -2.0 * species.plasma_frequency**2 / (kappa * kappa)
+        n = coef * ms[1]
+        dn = coef * dms[1] / kappa
+        a = 1j * nu / kappa
+        if nu == 0.0:
+            q, dq = np.ones_like(om), np.zeros_like(om)
+        else:
+            q = 1.0 - a * ms[0]
+            dq = -a * dms[0] / kappa
+        if not dk:
+            return n, q, dn, dq
+        k = np.sqrt(kpar * kpar + kperp * kperp)
+        dzeta_dk = -(kpar / k) * species.drift / kappa - zeta / k
+        dnk = -2.0 * n / k + coef * dms[1] * dzeta_dk
+        dqk = np.zeros_like(om) if nu == 0.0 else a * ms[0] / k - a * dms[0] * dzeta_dk
+    return n, q, dn, dq, dnk, dqk
 
 
 def collisional(species: object) -> bool:
@@ -196,7 +400,7 @@ def scaled_dispersion(
     omega : array_like of complex
         ω [rad/s].
     species : tuple of Species
-        All species (unmagnetized; ν_s ≥ 0 each, Q_s = 1 where ν_s = 0).
+        All species (unmagnetized Maxwellians; ν_s ≥ 0 each, Q_s = 1 where ν_s = 0).
     k : complex or array_like
         Wavenumber [1/m] (complex allowed, Re k > 0), broadcast against ``omega``.
     cos_theta, sin_theta : float
@@ -210,50 +414,72 @@ def scaled_dispersion(
     -----
     With χ_s = N_s/Q_s (see :func:`susceptibility`), F = Π Q + Σ_s N_s Π_{r≠s} Q_r has the
     same zeros as D = 1 + Σ χ_s but none of its poles, so it is entire in ω and k
-    (Re k > 0).  N_s = −(2ω_ps²/κ_s²) M_1(ζ′_s): ∂N/∂ω = −(2ω_p²/κ³) M_1′ and
-    ∂N/∂k = −2N/k − (2ω_p²/κ²) M_1′ ∂ζ′/∂k (κ ∝ k at fixed direction).  Needed because χ_s
-    is not homogeneous in (ω, k) once ν ≠ 0, so dD/dk cannot come from Euler's relation.
+    (Re k > 0); N_s, Q_s and their derivatives from :func:`unmagnetized_parts`.  Needed
+    because χ_s is not homogeneous in (ω, k) once ν ≠ 0, so dD/dk cannot come from
+    Euler's relation.  Where F exceeds double precision, :func:`split_dispersion`.
     """
     om, kk = np.broadcast_arrays(np.asarray(omega, dtype=complex), np.asarray(k, dtype=complex))
-    kpar, kperp = kk * cos_theta, kk * sin_theta
+    with np.errstate(all="ignore"):
+        parts = [unmagnetized_parts(om, s, k_par=kk * cos_theta, k_perp=kk * sin_theta)
+                 for s in species]
+        f, fw = product_sum([x[1] for x in parts], [x[3] for x in parts],
+                            [x[0] for x in parts], [x[2] for x in parts], om)
+        _, fk = product_sum([x[1] for x in parts], [x[5] for x in parts],
+                            [x[0] for x in parts], [x[4] for x in parts], om)
+    return f, fw, fk
+
+
+def split_dispersion(
+    omega: np.ndarray,
+    species: tuple[Species, ...],
+    /,
+    *,
+    k: complex | np.ndarray,
+    cos_theta: float,
+    sin_theta: float,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """F, ∂F/∂ω, ∂F/∂k of :func:`scaled_dispersion` as mantissas times 2^P, never overflowing.
+
+    Returns
+    -------
+    F_m, dF_domega_m, dF_dk_m : ndarray of complex
+        F = F_m·2^P, and the same P for both derivatives (so ratios such as F′/F are
+        those of the mantissas).
+    P : ndarray of int
+        The binary exponent per point, Σ_s p_s.
+
+    Notes
+    -----
+    Each species' (N_s, Q_s) and derivatives come scaled by 2^−p_s from
+    :func:`split_parts` (overflow-free where a Landau term exceeds double precision);
+    F is linear in each species' pair, so F = 2^(Σ p_s) times F of the mantissas.
+    """
+    om, kk = np.broadcast_arrays(np.asarray(omega, dtype=complex), np.asarray(k, dtype=complex))
+    shape = om.shape
+    ofl, kfl = om.ravel(), kk.ravel()
     qs, dqw, dqk, ns, dnw, dnk = [], [], [], [], [], []
+    total = np.zeros(ofl.shape, dtype=np.int64)
     with np.errstate(all="ignore"):
         for s in species:
-            q, q_w, q_k = denominator(om, s, k_par=kpar, k_perp=kperp)
-            kappa = _kappa(s, kpar, kperp)
-            zeta = (om - kpar * s.drift + 1j * s.collision_frequency) / kappa
-            ms, dms = landau_moments(zeta, order=1)
-            coef = -2.0 * s.plasma_frequency**2 / (kappa * kappa)
-            n = coef * ms[1]
-            dzeta_dk = -cos_theta * s.drift / kappa - zeta / kk
-            qs.append(q)
-            dqw.append(q_w)
-            dqk.append(q_k)
+            def parts(idx: np.ndarray | None, s: Species = s) -> tuple[np.ndarray, ...]:
+                o, kv = (ofl, kfl) if idx is None else (ofl[idx], kfl[idx])
+                return unmagnetized_parts(o, s, k_par=kv * cos_theta, k_perp=kv * sin_theta)
+
+            def bits(idx: np.ndarray, s: Species = s) -> np.ndarray:
+                return landau_bits(ofl[idx], s, k_par=kfl[idx] * cos_theta,
+                                   k_perp=kfl[idx] * sin_theta)
+
+            (n, q, n_w, q_w, n_k, q_k), p = split_parts(parts, bits, ofl.size)
             ns.append(n)
-            dnw.append(coef * dms[1] / kappa)
-            dnk.append(-2.0 * n / kk + coef * dms[1] * dzeta_dk)
-        f = np.ones_like(om)
-        fw = np.zeros_like(om)
-        fk = np.zeros_like(om)
-        # F = Π_r Q_r + Σ_s N_s Π_{r≠s} Q_r, differentiated term by term
-        m = len(species)
-        for j in range(-1, m):
-            prod = np.ones_like(om) if j < 0 else ns[j]
-            d_w = np.zeros_like(om) if j < 0 else dnw[j]
-            d_k = np.zeros_like(om) if j < 0 else dnk[j]
-            for r in range(m):
-                if r == j:
-                    continue
-                d_w = d_w * qs[r] + prod * dqw[r]
-                d_k = d_k * qs[r] + prod * dqk[r]
-                prod = prod * qs[r]
-            if j < 0:
-                f = prod
-            else:
-                f = f + prod
-            fw = fw + d_w
-            fk = fk + d_k
-    return f, fw, fk
+            qs.append(q)
+            dnw.append(n_w)
+            dqw.append(q_w)
+            dnk.append(n_k)
+            dqk.append(q_k)
+            total += p
+        f, fw = product_sum(qs, dqw, ns, dnw, ofl)
+        _, fk = product_sum(qs, dqk, ns, dnk, ofl)
+    return f.reshape(shape), fw.reshape(shape), fk.reshape(shape), total.reshape(shape)
 
 
 # ------------------------------------------------------------------ magnetized (B ≠ 0)
@@ -411,14 +637,44 @@ def magnetized_susceptibility(
     Susceptibility
         ``value`` = χ_s, ``derivative`` = ∂χ_s/∂ω, ``harmonics`` = N.
     """
-    n, dn, q, dq, harm = magnetized_parts(omega, species, k_par=k_par, k_perp=k_perp,
-                                          B=B, tol=tol)
-    if species.collision_frequency == 0.0:
-        return Susceptibility(value=n, derivative=dn, harmonics=harm)
+    om = np.asarray(omega, dtype=complex)
+    harm = [0]
+
+    def parts(idx: np.ndarray | None) -> tuple[np.ndarray, ...]:
+        n, dn, q, dq, harm[0] = magnetized_parts(om if idx is None else om.ravel()[idx],
+                                                 species, k_par=k_par, k_perp=k_perp, B=B,
+                                                 tol=tol)
+        return n, q, dn, dq
+
+    res = ratio(parts, lambda idx: magnetized_landau_bits(
+        om.ravel()[idx], species, k_par=k_par, k_perp=k_perp, B=B, tol=tol),
+        om.shape, harmonics=0)
+    return Susceptibility(value=res.value, derivative=res.derivative, harmonics=harm[0])
+
+
+def magnetized_landau_bits(
+    omega: np.ndarray, species: Species, /, *, k_par: complex, k_perp: complex, B: float,
+    tol: float = 1e-14,
+) -> np.ndarray:
+    """log₂ of the largest |exp(−ζ_n²)| over the kept harmonics where Im ζ_n < 0 (else 0).
+
+    ζ_n = (ω − k∥V − nΩ + iν)/(s k∥w∥), s = sign Re k∥, |n| ≤ N, as in
+    :func:`magnetized_parts` (ν = 0: the collisionless builder's arguments).
+    """
+    from kinroots.physics.models._harmonics import harmonics_needed
+
+    om = np.asarray(omega, dtype=complex)
+    kpar = complex(k_par)
+    if kpar == 0 or om.size == 0:
+        return np.zeros(om.shape)
+    n_max = harmonics_needed(species, k_perp=complex(k_perp), B=B, tol=tol)
+    n = np.arange(-n_max, n_max + 1)
+    a = landau_sign(kpar) * kpar * species.thermal_speed_par
     with np.errstate(all="ignore"):
-        value = n / q
-        derivative = (dn * q - n * dq) / (q * q)
-    return Susceptibility(value=value, derivative=derivative, harmonics=harm)
+        z = (om[..., None] - kpar * species.drift - n * species.cyclotron_frequency(B)
+             + 1j * species.collision_frequency) / a
+        e = np.where(z.imag < 0.0, (z.imag - z.real) * (z.imag + z.real), 0.0)
+    return np.max(e, axis=-1) / math.log(2.0)
 
 
 def product_sum(

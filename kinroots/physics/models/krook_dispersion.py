@@ -15,7 +15,82 @@ import numpy as np
 from kinroots.physics.models import es_magnetized, krook
 from kinroots.physics.plasma import Species
 
-__all__ = ["magnetized_scaled_dispersion", "magnetized_scaled_dispersion_in_k"]
+__all__ = [
+    "magnetized_scaled_dispersion",
+    "magnetized_scaled_dispersion_in_k",
+    "magnetized_split_dispersion",
+]
+
+
+def _species_parts(
+    om: np.ndarray, s: Species, k_par: complex, k_perp: complex, B: float, tol: float,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """N_s, Q_s, ∂N_s/∂ω, ∂Q_s/∂ω of one species (Q = 1 for a collisionless species)."""
+    if s.collision_frequency > 0.0:
+        n, dn, q, dq, _ = krook.magnetized_parts(om, s, k_par=k_par, k_perp=k_perp, B=B,
+                                                 tol=tol)
+        return n, q, dn, dq
+    res = es_magnetized.susceptibility(om, s, k_par=k_par, k_perp=k_perp, B=B, tol=tol)
+    return (np.asarray(res.value), np.ones_like(om), np.asarray(res.derivative),
+            np.zeros_like(om))
+
+
+def magnetized_split_dispersion(
+    omega: np.ndarray,
+    species: tuple[Species, ...],
+    /,
+    *,
+    k_par: complex,
+    k_perp: complex,
+    B: float,
+    tol: float = 1e-14,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """F and ∂F/∂ω of :func:`magnetized_scaled_dispersion` as mantissas times 2^P.
+
+    Parameters
+    ----------
+    omega : array_like of complex
+        ω [rad/s].
+    species, k_par, k_perp, B, tol
+        As for :func:`magnetized_scaled_dispersion`.
+
+    Returns
+    -------
+    F_m, dF_domega_m : ndarray of complex
+        F = F_m·2^P and ∂F/∂ω = dF_m·2^P.
+    P : ndarray of int
+        Binary exponent per point, never overflowing.
+
+    Notes
+    -----
+    Each species' (N_s, Q_s) is affine in its Landau terms exp(−ζ_n²) (the harmonic sums
+    of :func:`~kinroots.physics.models.krook.magnetized_parts` and of the collisionless
+    builder), so :func:`~kinroots.physics.models.krook.split_parts` gives them scaled by
+    2^−p_s without overflow; F is linear in each pair, F = 2^(Σ p_s) F(mantissas).
+    """
+    om = np.asarray(omega, dtype=complex).ravel()
+    qs, dqs, ns, dns = [], [], [], []
+    total = np.zeros(om.shape, dtype=np.int64)
+    with np.errstate(all="ignore"):
+        for s in species:
+            def parts(idx: np.ndarray | None, s: Species = s) -> tuple[np.ndarray, ...]:
+                return _species_parts(om if idx is None else om[idx], s, k_par, k_perp, B,
+                                      tol)
+
+            def bits(idx: np.ndarray, s: Species = s) -> np.ndarray:
+                return krook.magnetized_landau_bits(om[idx], s, k_par=k_par, k_perp=k_perp,
+                                                    B=B, tol=tol)
+
+            (n, q, dn, dq), p = krook.split_parts(parts, bits, om.size)
+            ns.append(n)
+            qs.append(q)
+            dns.append(dn)
+            dqs.append(dq)
+            total += p
+        f, df = krook.product_sum(qs, dqs, ns, dns, om)
+    shape = np.shape(omega)
+    return f.reshape(shape), df.reshape(shape), total.reshape(shape)
+
 
 def magnetized_scaled_dispersion(
     omega: np.ndarray,
@@ -51,21 +126,10 @@ def magnetized_scaled_dispersion(
     ω = nΩ_s − iν_s (see :func:`~kinroots.physics.models.krook.magnetized_parts`).
     """
     om = np.asarray(omega, dtype=complex)
-    qs, dqs, ns, dns = [], [], [], []
-    for s in species:
-        if s.collision_frequency > 0.0:
-            n, dn, q, dq, _ = krook.magnetized_parts(om, s, k_par=k_par, k_perp=k_perp, B=B,
-                                                     tol=tol)
-        else:
-            res = es_magnetized.susceptibility(om, s, k_par=k_par, k_perp=k_perp, B=B, tol=tol)
-            n, dn = np.asarray(res.value), np.asarray(res.derivative)
-            q, dq = np.ones_like(om), np.zeros_like(om)
-        qs.append(q)
-        dqs.append(dq)
-        ns.append(n)
-        dns.append(dn)
+    parts = [_species_parts(om, s, k_par, k_perp, B, tol) for s in species]
     with np.errstate(all="ignore"):
-        return krook.product_sum(qs, dqs, ns, dns, om)
+        return krook.product_sum([x[1] for x in parts], [x[3] for x in parts],
+                                 [x[0] for x in parts], [x[2] for x in parts], om)
 
 
 #: Points and relative radius of the Cauchy circle for ∂F/∂k (magnetized, collisional).
