@@ -91,6 +91,8 @@ def scaled_double_zero(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 _J0 = scipy.special.jn_zeros(0, 3)
 _J1 = scipy.special.jn_zeros(1, 3)
+#: Two close pairs, far apart: moments of a cell holding both blur each pair.
+_PAIRS = (0.5, 0.5 + 2e-3, -0.7 + 0.2j, -0.7 + 0.203j, 0.1 - 0.4j)
 _CLUSTER = tuple(0.4 + 0.3j + 1e-3 * np.exp(1j * (0.7 + np.pi / 2 * np.arange(4))))
 
 PROBLEMS: dict[str, Problem] = {
@@ -104,6 +106,8 @@ PROBLEMS: dict[str, Problem] = {
         Problem("poly-cluster", product_of_linear([*_CLUSTER, 2 - 1j, -1.5 + 0.5j]),
                 (-3.0, 3.0, -2.0, 2.1), (*_CLUSTER, 2 - 1j, -1.5 + 0.5j), (1,) * 6,
                 "4 roots on a circle of radius 1e-3, roots by construction"),
+        Problem("poly-pairs", product_of_linear(_PAIRS), (-1.0, 1.1, -1.0, 0.9), _PAIRS,
+                (1,) * 5, "two pairs 2e-3 and 3e-3 apart, roots by construction"),
         Problem("sin", sin_f, (-10.0, 10.0, -1.0, 1.3),
                 tuple(k * np.pi for k in range(-3, 4)), (1,) * 7, "zeros kπ (closed form)"),
         Problem("cos", cos_f, (-7.0, 7.5, -2.0, 0.8),

@@ -17,10 +17,11 @@ Method
 4. One zero: the first contour moment gives the starting point; Newton polishes it.
    A cluster: Delves–Lyness moments and the Hankel eigenvalue problem of Kravanja & Van
    Barel give the starting points, improved together by plain Newton on arrays (one f
-   call per iteration); damped Newton polishes each.  n distinct zeros in a cell that
-   winds n times are simple; otherwise a small circle around each root gives its
-   multiplicity.  A cell whose count is not accounted for is split: no evaluation
-   ever falls outside the cells of the window (issue 14).
+   call per iteration); damped Newton polishes each.  The zeros found are deflated
+   from the moments and the Hankel problem of the rest gives further starting points.
+   n distinct zeros in a cell that winds n times are simple; otherwise a small circle
+   around each root gives its multiplicity.  A cell whose count is not accounted for
+   is split: no evaluation ever falls outside the cells of the window (issue 14).
 
 References
 ----------
@@ -68,6 +69,9 @@ _SPLIT_FRACTIONS = (0.4871, 0.5377, 0.4213, 0.5829, 0.3419, 0.6637, 0.2731, 0.72
 #: one circle per cluster root, one-point Newton): ``benchmarks/bench_survey.py`` sets
 #: it to measure its baseline in the same run.  Never set otherwise.
 _BASELINE = False
+#: A cluster whose estimates lie within this fraction of the cell's half-diagonal of
+#: their centroid gets a circle; any other unresolved cluster splits its cell.
+_TIGHT = 0.05
 #: Most points on a cluster's circle; a circle that needs more makes the cell split.
 _CIRCLE_POINTS = 64
 _CIRCLE_TRIES = 3
@@ -337,8 +341,13 @@ class _Survey:
             return replace(r, verified=True, multiplicity=1, method="moments+newton")
         return None
 
-    def _from_estimates(self, estimates: np.ndarray, box: Box, n: int) -> list[RootResult] | None:
-        found: list[RootResult] = []
+    def _polished(self, estimates: np.ndarray, box: Box,
+                  found: Sequence[RootResult] = ()) -> tuple[list[RootResult], bool]:
+        """Distinct zeros of the cell polished from ``estimates``, none of them near
+        ``found``; and whether an estimate ended on a zero already known (a multiple
+        zero, or moments too crude to tell two zeros apart)."""
+        new: list[RootResult] = []
+        again = False
         region = self._region(box)
         starts = estimates if _BASELINE else newton_starts(
             self.func, np.asarray(estimates, complex), rtol=self.rtol, atol=self.atol,
@@ -350,9 +359,18 @@ class _Survey:
             if not self._acceptable(r, box):
                 continue
             if any(abs(r.value - q.value) <= 1e3 * self._tol(r.value) + 1e-12 * self.diam0
-                   for q in found):
+                   for q in [*found, *new]):
+                again = True
                 continue
-            found.append(r)
+            new.append(r)
+        return new, again
+
+    def _from_estimates(self, estimates: np.ndarray, box: Box, n: int) -> list[RootResult] | None:
+        found, _ = self._polished(estimates, box)
+        return self._verified(found, box, n)
+
+    def _verified(self, found: list[RootResult], box: Box, n: int) -> list[RootResult] | None:
+        """The cell's n zeros from the distinct zeros ``found`` in it, or None."""
         if not found:
             return None
         if len(found) == n and not _BASELINE:
@@ -385,25 +403,48 @@ class _Survey:
 
     def _cluster(self, box: Box, n: int) -> list[RootResult] | None:
         center, rho, s = self._moments(box, 2 * n)
-        zeta = hankel_zeros(s, n)
-        est = center + rho * zeta
-        got = self._from_estimates(est, box, n)
-        if got is not None:
-            return got
+        est = center + rho * hankel_zeros(s, n)
         if _BASELINE:
+            got = self._from_estimates(est, box, n)
+            if got is not None:
+                return got
             mid = center + rho * s[1] / n
             return None if not np.isfinite(mid) else self._cluster_circle_legacy(
                 box, n, mid, est, rho)
-        # The rectangle's moments were too crude: moments on a circle around the
-        # cluster's centroid, whose radius is adjusted until it winds exactly n times.
-        # The circle stays inside the cell (evaluations outside it resolve nothing of
-        # this cell); when it cannot, or does not resolve the cluster, the cell splits.
+        found, again = self._polished(est, box)
+        # Deflation: the moments of the zeros found so far are known exactly, so the
+        # remaining m zeros are the Hankel zeros of s_p − Σ_found ζ_k^p, p < 2m (the
+        # same identity as the moments themselves, Delves & Lyness 1967).  Two close
+        # zeros that crude moments merge into one estimate separate this way.  (Each
+        # found zero counts once here: a multiplicity Newton detects from a crude start
+        # may be spurious; a true multiple zero is confirmed on its circle below.)
+        while found and len(found) < n:
+            m = n - len(found)
+            zeta = np.array([(r.value - center) / rho for r in found])
+            p = np.arange(2 * m)
+            rest = s[: 2 * m] - np.sum(zeta[:, None] ** p[None, :], axis=0)
+            new, dup = self._polished(center + rho * hankel_zeros(rest, m), box, found)
+            again |= dup
+            if not new:
+                break
+            found += new
+        if len(found) == n or any(r.multiplicity > 1 for r in found) or again:
+            got = self._verified(found, box, n)
+            if got is not None:
+                return got
+        # A tight cluster (its estimates within a small fraction of the cell about their
+        # centroid): the rectangle's moments cannot tell its zeros apart, and splitting
+        # would take as many levels as the cell is larger than the cluster.  Moments on
+        # a circle around it, inside the cell, whose radius is adjusted until it winds
+        # exactly n times, can.  Any other unresolved cell splits.
         mid = center + rho * s[1] / n
         if not (np.isfinite(mid) and _inside(mid, box)):
             return None
-        room = min(mid.real - box[0], box[1] - mid.real, mid.imag - box[2], box[3] - mid.imag)
         near = [abs(z - mid) for z in est if _inside(complex(z), box)]
-        radius = min(max(2.0 * max(near, default=0.0), 1e-3 * rho), room)
+        if max(near, default=math.inf) > _TIGHT * rho:
+            return None
+        room = min(mid.real - box[0], box[1] - mid.real, mid.imag - box[2], box[3] - mid.imag)
+        radius = min(max(2.0 * max(near), 1e-3 * rho), room)
         for _ in range(_CIRCLE_TRIES):
             if not 1e-9 * rho < radius <= room:
                 return None
@@ -650,7 +691,7 @@ def find_roots(
         cell left: ``complete`` is false.
     evaluations_per_zero : int
         Budget added per zero counted on the outer boundary (isolating zeros costs about
-        100 evaluations each on the ion-acoustic family of tests/test_survey_many_roots.py).
+        52 evaluations each on the ion-acoustic family of tests/test_survey_many_roots.py).
     max_roots : int or None
         A window counting more zeros than this is not subdivided: the result holds the
         count, a note and one unsolved entry (``complete`` false).  ``None``: no limit.
