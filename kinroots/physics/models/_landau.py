@@ -2,7 +2,8 @@
 
 M_n(ζ) moments of a Maxwellian profile against 1/(x − ζ) (and ∂/∂ζ), continued to the
 lower half-plane by Landau's rule, by the Faddeeva function near the origin, a
-pole-corrected trapezoid rule at intermediate |ζ| and the asymptotic series beyond;
+Taylor table of 1 + ζZ at intermediate |ζ| (:mod:`kinroots.physics.zfunc`) and the
+asymptotic series beyond;
 :func:`first_moment_scalar` is the single-point path.  Both unmagnetized builders
 (:mod:`~kinroots.physics.models.es_unmagnetized`, which re-exports these names, and
 :mod:`~kinroots.physics.models.em_unmagnetized`) and the Krook model are written in them;
