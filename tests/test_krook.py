@@ -326,3 +326,18 @@ def test_casefile_magnetized_collision_errors():
         parse_case({**raw, "wave": {"model": "electromagnetic", "angle": 60.0}}, "x.toml")
     assert any("species[2].collision_frequency" in e and "only for the electrostatic" in e
                for e in exc.value.errors), exc.value.errors
+
+
+def test_casefile_rejects_collisions_beside_non_maxwellian_species():
+    # the collisional form F = (Π Q_s) D is built from Maxwellian susceptibilities: a
+    # kappa or component species beside a collisional one is an input error (it was
+    # silently treated as a Maxwellian: roots with |D| ~ 0.8 of its terms)
+    raw = dict(load_case(ARGON).raw)
+    species = [dict(s) for s in raw["species"]]
+    species[1]["collision_frequency"] = 1e5
+    species[0]["distribution"] = "kappa"
+    species[0]["kappa"] = 3.0
+    with pytest.raises(CaseError) as exc:
+        parse_case({**raw, "species": species}, "x.toml")
+    assert any("species[2].collision_frequency" in e and "species[1] ('e')" in e
+               and "kappa" in e for e in exc.value.errors), exc.value.errors

@@ -611,6 +611,17 @@ def parse_case(data: dict[str, Any], source: str) -> Case:
                 f"Maxwellian); temperature_par = {s.temperature_par!r} and temperature_perp "
                 f"= {s.temperature_perp!r} differ; expected 0 here, or one 'temperature'",
             )
+        elif other := next((j for j, o in enumerate(species, start=1) if o is not None
+                            and (o.distribution == "kappa" or o.components)), None):
+            o = species[other - 1]
+            assert o is not None
+            what = "components" if o.components else 'distribution = "kappa"'
+            chk.error(
+                f"species[{i}].collision_frequency",
+                f"got {s.collision_frequency!r}, but species[{other}] ({o.name!r}) has "
+                f"{what}: with collisional species the dispersion function is formed for "
+                "Maxwellian species only; expected 0 here, or Maxwellian species throughout",
+            )
         elif magnetized and angle is not None and float(angle) == 90.0:
             chk.error(
                 f"species[{i}].collision_frequency",
