@@ -202,10 +202,12 @@ def test_newton_starts_improve_together_and_respect_the_region() -> None:
 
     g, points = _recording(f)
     starts = np.array([1.2 + 0.1j, -0.6 + 0.9j, -0.4 - 0.7j, 5.0 + 5.0j])
-    out = newton_starts(g, starts, rtol=1e-14, atol=0.0, region=(-2, 2, -2, 2))
+    out, step = newton_starts(g, starts, rtol=1e-14, atol=0.0, region=(-2, 2, -2, 2))
     roots = np.exp(2j * np.pi * np.arange(3) / 3)
     assert np.all(_match(out[:3], roots) < 1e-13)
+    assert np.all(step[:3] < 1e-13)  # |f/f'| at the last evaluated point: converged
     assert out[3] == starts[3]  # outside the region: never evaluated, never moved
+    assert np.isnan(step[3])
     z = np.concatenate(points)
     assert not np.any(z == starts[3])
     assert all(p.size <= 3 for p in points)  # one call per iteration for all starts

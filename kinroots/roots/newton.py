@@ -257,18 +257,32 @@ def newton_starts(
     atol: float,
     region: Box | None = None,
     maxiter: int = 12,
-) -> np.ndarray:
+) -> tuple[np.ndarray, np.ndarray]:
     """Improve many starting points at once by plain Newton, one f call per iteration.
 
     Only starting points: every returned value still goes through :func:`polish`, which
     decides convergence, so this changes the cost of a survey, not its answers.  An
     element stops moving when its correction is within ``atol + rtol·|z|``, when f or f'
-    is not finite, or when the step would leave ``region`` (it keeps its last value).
+    is not finite, when the step would leave ``region`` or when its corrections have
+    failed twice in a row to shrink below 0.9 of the one before (no zero near: it keeps
+    its last value).
+
+    Returns
+    -------
+    z : ndarray
+        The improved points.
+    step : ndarray
+        |f/f'| at the last point each was evaluated at (inf where f/f' was not finite,
+        nan where a point was never evaluated): small for a point near a zero (also a
+        multiple one, where plain Newton converges linearly), large for one still
+        wandering.
     """
     z = np.array(z0, dtype=complex).ravel()
+    step = np.full(z.shape, np.nan)
     active = np.isfinite(z)
     if region is not None:
         active &= np.array([_inside(complex(v), region) for v in z], dtype=bool)
+    slow = np.zeros(z.shape, dtype=int)
     for _ in range(maxiter):
         if not np.any(active):
             break
@@ -277,6 +291,12 @@ def newton_starts(
         with np.errstate(all="ignore"):
             corr = fv / dv
         good = np.isfinite(corr)
+        new_step = np.where(good, np.abs(corr), np.inf)
+        # not contracting (a step above 0.9 of the one before) twice in a row: no zero
+        # near (at a zero of multiplicity m plain Newton contracts by (m − 1)/m)
+        slow[idx] = np.where(new_step > 0.9 * step[idx], slow[idx] + 1, 0)
+        step[idx] = new_step
+        good &= slow[idx] < 2
         z_new = z[idx] - np.where(good, corr, 0)
         if region is not None:
             x0, x1, y0, y1 = region
@@ -285,7 +305,7 @@ def newton_starts(
         z[idx[good]] = z_new[good]
         done = ~good | (np.abs(corr) <= 0.1 * (atol + rtol * np.abs(z[idx])))
         active[idx[done]] = False
-    return z
+    return z, step
 
 
 def _verify_counted(f: AnalyticFunction, root: complex, radius: float) -> tuple[int | None, int]:

@@ -11,9 +11,14 @@ Method
    other excluded point); its winding number (−order for a pole, +multiplicity for a
    known spurious zero) is subtracted from every count, its contribution ``c_e ζ_e^p``
    from every moment, and no root is reported inside that disk.
-3. Recursive subdivision: a cell is split across its longer side (at the middle or,
-   if that line passes near an excluded point or cannot be resolved, at one of a few
-   off-centre positions) until it holds one zero, or at most ``cluster_size`` zeros.
+3. Recursive subdivision until a cell holds one zero, or at most ``cluster_size``
+   zeros.  The cell's moments s_1, s_2 give the centroid of its zeros and the
+   direction in which they spread most (Re(s_2/n − (s_1/n)²) > 0: along Re z); the cut
+   goes across that direction (unless the halves would exceed an aspect ratio of 4),
+   in the widest balanced gap between the Hankel estimates of its zeros when it holds
+   at most 8, else next to the centroid, so that both halves hold zeros and the new
+   line keeps away from them (fewer samples).  If such a line passes near an excluded
+   point or cannot be resolved, a few off-centre positions are tried.
 4. One zero: the first contour moment gives the starting point; Newton polishes it.
    A cluster: Delves–Lyness moments and the Hankel eigenvalue problem of Kravanja & Van
    Barel give the starting points, improved together by plain Newton on arrays (one f
@@ -65,6 +70,15 @@ _N_INIT_LINE = 6  # initial intervals per subdivision line
 #: windows are often symmetric about a line that holds roots (purely growing modes on
 #: Re ω = 0, real roots on Im z = 0), and a cut through a zero cannot be resolved.
 _SPLIT_FRACTIONS = (0.4871, 0.5377, 0.4213, 0.5829, 0.3419, 0.6637, 0.2731, 0.7269)
+#: A start whose last array-Newton step exceeds this fraction of its cell's diameter is
+#: not polished (:meth:`_Survey._polished`).
+_WANDER = 1e-3
+#: Largest aspect ratio of the halves when a cell is cut across its shorter side.
+_MAX_ASPECT = 4.0
+#: Cells with at most this many zeros are cut in a gap between their Hankel estimates.
+_GAP_MAX = 8
+#: Offsets (fractions of the side) of the first cuts from the zeros' centroid.
+_CENTROID_OFFSETS = (0.0123, -0.0377)
 #: The survey as it was before issue 14 (a cluster circle growing up to twice its cell,
 #: one circle per cluster root, one-point Newton): ``benchmarks/bench_survey.py`` sets
 #: it to measure its baseline in the same run.  Never set otherwise.
@@ -231,21 +245,58 @@ class _Survey:
         self.notes.append("outer boundary could not be resolved after three outward shifts")
         return None
 
-    def _split(self, box: Box) -> list[tuple[Box, int]] | None:
+    def _cuts(self, box: Box, n: int) -> list[tuple[bool, float]]:
+        """Cut lines of ``box`` to try, in order: (vertical, position)."""
         x0, x1, y0, y1 = box
-        vertical = (x1 - x0) >= (y1 - y0)  # split line Re z = const across the width
-        lo, hi = (x0, x1) if vertical else (y0, y1)
-        side = hi - lo
+        w, h = x1 - x0, y1 - y0
         ex = [complex(self.excluded[i]) for i in self._ex_in(box)]
-        ex_pos = [e.real if vertical else e.imag for e in ex]
+        first: list[tuple[bool, float]] = []
+        vertical = w >= h
+        if n >= 2:
+            center, rho, s = self._moments(box, 3)
+            mid = center + rho * s[1] / n
+            spread = rho * rho * (s[2] / n - (s[1] / n) ** 2)
+            if np.isfinite(mid) and np.isfinite(spread) and _inside(mid, box):
+                v = bool(spread.real >= 0)
+                side, length = (w, h) if v else (h, w)
+                if side >= length or length / side <= 0.5 * _MAX_ASPECT:
+                    vertical = v
+                lo, side = (x0, w) if vertical else (y0, h)
+                f0 = ((mid.real if vertical else mid.imag) - lo) / side
+                first = [(vertical, lo + min(max(f0 + d, 0.2), 0.8) * side)
+                         for d in _CENTROID_OFFSETS]
+                if n <= _GAP_MAX:
+                    gap = self._gap_cut(box, n, vertical)
+                    if gap is not None:
+                        first.insert(0, (vertical, gap))
+        lo, side = (x0, w) if vertical else (y0, h)
+        out = first + [(vertical, lo + fr * side) for fr in _SPLIT_FRACTIONS]
 
-        def clearance(frac: float) -> float:
-            c = lo + frac * side
-            return min((abs(c - p) for p in ex_pos), default=math.inf) / side
+        def clear(cut: tuple[bool, float]) -> bool:
+            v, c = cut
+            return all(abs(c - (e.real if v else e.imag)) >= 0.05 * (w if v else h) for e in ex)
 
-        fracs = sorted(_SPLIT_FRACTIONS, key=lambda fr: clearance(fr) < 0.05)
-        for frac in fracs:
-            c = lo + frac * side
+        return sorted(out, key=lambda cut: not clear(cut))
+
+    def _gap_cut(self, box: Box, n: int, vertical: bool) -> float | None:
+        """A cut position in a wide gap between the cell's zero estimates (Hankel zeros
+        of its moments), with estimates on both sides; None if there is none."""
+        center, rho, s = self._moments(box, 2 * n)
+        est = center + rho * hankel_zeros(s, n)
+        est = np.array([z for z in est if _inside(complex(z), box)], dtype=complex)
+        lo, side = (box[0], box[1] - box[0]) if vertical else (box[2], box[3] - box[2])
+        p = np.sort((est.real if vertical else est.imag) - lo) / side
+        best, where = 0.0, None
+        for k in range(1, p.size):
+            c = 0.5 * (p[k - 1] + p[k])
+            score = (p[k] - p[k - 1]) * min(k, p.size - k)
+            if 0.15 <= c <= 0.85 and score > best:
+                best, where = score, lo + c * side
+        return where
+
+    def _split(self, box: Box, n: int) -> list[tuple[Box, int]] | None:
+        x0, x1, y0, y1 = box
+        for vertical, c in self._cuts(box, n):
             if vertical:
                 line = Edge(("v", c), y0, y1)
                 kids = [(x0, c, y0, y1), (c, x1, y0, y1)]
@@ -349,11 +400,19 @@ class _Survey:
         new: list[RootResult] = []
         again = False
         region = self._region(box)
-        starts = estimates if _BASELINE else newton_starts(
-            self.func, np.asarray(estimates, complex), rtol=self.rtol, atol=self.atol,
-            region=region)
-        for z0 in starts:
-            if not _inside(complex(z0), region):
+        if _BASELINE:
+            starts, step = np.asarray(estimates, complex), np.zeros(len(estimates))
+        else:
+            starts, step = newton_starts(
+                self.func, np.asarray(estimates, complex), rtol=self.rtol, atol=self.atol,
+                region=region)
+        # a start still wandering after the array Newton steps (its last |f/f'| beyond
+        # a thousandth of the cell) is not polished: the damped Newton of polish would
+        # spend up to 40 steps on it; the deflated moments, or the cell's halves, give
+        # better ones.  Linear convergence to a multiple zero is far below that bound.
+        wander = _WANDER * _diameter(box)
+        for z0, st in zip(starts, step, strict=True):
+            if not _inside(complex(z0), region) or st > wander:
                 continue
             r = self._polish(complex(z0), box)
             if not self._acceptable(r, box):
@@ -444,7 +503,9 @@ class _Survey:
         if max(near, default=math.inf) > _TIGHT * rho:
             return None
         room = min(mid.real - box[0], box[1] - mid.real, mid.imag - box[2], box[3] - mid.imag)
-        radius = min(max(2.0 * max(near), 1e-3 * rho), room)
+        radius = max(2.0 * max(near), 1e-3 * rho)
+        if radius > 0.5 * room:  # next to the cell's edge: its halves do better
+            return None
         for _ in range(_CIRCLE_TRIES):
             if not 1e-9 * rho < radius <= room:
                 return None
@@ -547,7 +608,7 @@ class _Survey:
                 self.notes.append(f"maximum depth reached in cell {box} with {n} zero(s)")
                 roots.append(self._unsolved(box, n, "maximum subdivision depth reached"))
                 continue
-            kids = self._split(box)
+            kids = self._split(box, n)
             if kids is None:
                 if self._out_of_budget():
                     roots.append(self._unsolved(box, n, "evaluation budget exhausted"))
