@@ -292,7 +292,7 @@ def test_oblique_em_window_beyond_double_precision(oblique) -> None:
     # near 1e470 at the best point; that check passed only by chance.)
     disp = function_at(oblique, k).dispersion
     r = min(deep, key=lambda q: q.value.imag)
-    mp.mp.dps = 30
+    mp.mp.dps = 60
     try:
         def stix(w: mp.mpc) -> mp.mpc:
             return _stix_d(oblique, disp, w)

@@ -166,6 +166,60 @@ def _scaled_det_and_derivative(
     return d, np.sum(cof * (dm * scale), axis=(-2, -1)), np.sum(e, axis=-1)
 
 
+def _cofactors_polar(m: np.ndarray, dm: np.ndarray) -> np.ndarray:
+    """The derivative of the cofactor matrix of stacked 3×3 ``m`` in the direction ``dm``
+    (the polarization of :func:`_det_and_cofactors`, bilinear, formed directly)."""
+    a = m[..., _I1, _J1] * dm[..., _I2, _J2] + dm[..., _I1, _J1] * m[..., _I2, _J2]
+    a -= m[..., _I1, _J2] * dm[..., _I2, _J1] + dm[..., _I1, _J2] * m[..., _I2, _J1]
+    return a
+
+
+def _rank_two_det(a: np.ndarray, da: np.ndarray, t: Any
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    r"""det(A + S_E) and its ω-derivative as mantissas times 2^P, S_E = c·L g Rᵀ of rank
+    two (a :class:`~kinroots.physics.models.em_magnetized.ResonantTerm` ``t``).
+
+    For 3×3 matrices det(A + X) = det A + tr(adj(A) X) + tr(A adj(X)) + det X (the
+    characteristic expansion of a sum; e.g. R. A. Horn and C. R. Johnson, *Matrix
+    Analysis*, 2nd ed., 2013, sec. 0.8). With X = c L g Rᵀ of rank two, det X = 0 and
+    adj(X) = c² det(g) (R₁ × R₂)(L₁ × L₂)ᵀ (its columns span the kernel of X, its rows
+    the left kernel; L_i, R_i the columns of L, R), so::
+
+        D = det A + c tr(adj(A) L g Rᵀ) + c² det(g) (L₁ × L₂)·A(R₁ × R₂).
+
+    Every term is formed from well-conditioned factors and the accurate det g: the
+    cubic term that swamps a plain determinant (ε|X|³ in double, although det X = 0)
+    is absent and the quadratic one keeps its digits when g is nearly singular. The
+    three terms carry 2^0, 2^p, 2^2p (c = mantissa·2^p) and are added at a common P.
+    """
+    det_a, cof = _det_and_cofactors(a)
+    ddet_a = np.sum(cof * da, axis=(-2, -1))
+    y = np.einsum("mik,mkl,mjl->mij", t.L, t.g, t.R)
+    dy = (np.einsum("mik,mkl,mjl->mij", t.dL, t.g, t.R)
+          + np.einsum("mik,mkl,mjl->mij", t.L, t.g, t.dR))
+    t1 = np.sum(cof * y, axis=(-2, -1))
+    dt1 = np.sum(cof * dy + _cofactors_polar(a, da) * y, axis=(-2, -1))
+    L0, L1, R0, R1 = t.L[..., 0], t.L[..., 1], t.R[..., 0], t.R[..., 1]
+    lc = np.cross(L0, L1)
+    rc = np.cross(R0, R1)
+    dlc = np.cross(t.dL[..., 0], L1) + np.cross(L0, t.dL[..., 1])
+    drc = np.cross(t.dR[..., 0], R1) + np.cross(R0, t.dR[..., 1])
+    ar = np.einsum("mij,mj->mi", a, rc)
+    t2 = np.sum(lc * ar, axis=-1)
+    dt2 = (np.sum(dlc * ar, axis=-1) + np.einsum("mi,mij,mj->m", lc, da, rc)
+           + np.einsum("mi,mij,mj->m", lc, a, drc))
+    c, dc, p = t.coef, t.dcoef, t.exponent
+    q = c * t.det_g
+    values = (det_a, c * t1, c * q * t2)
+    derivs = (ddet_a, dc * t1 + c * dt1, q * (2.0 * dc * t2 + c * dt2))
+    shifts = (np.zeros_like(p), p, 2 * p)
+    top = np.max([_exponent(v) + e for v, e in zip(values + derivs, shifts + shifts,
+                                                    strict=True)], axis=0)
+    d = sum(_ldexp_complex(v, e - top) for v, e in zip(values, shifts, strict=True))
+    dd = sum(_ldexp_complex(v, e - top) for v, e in zip(derivs, shifts, strict=True))
+    return np.asarray(d), np.asarray(dd), top
+
+
 
 
 def _combine_scaled(
@@ -513,7 +567,44 @@ class Dispersion:
 
     def _d_em(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """D = det S and dD/dω = Σ C_ij dS_ij/dω (C: cofactors of S), any finite ω."""
-        return _det_and_derivative(*self._scaled(omega))
+        split = self._resonant_split(omega)
+        if split is None:
+            return _det_and_derivative(*self._scaled(omega))
+        d, dd, p = split
+        return _ldexp_complex(d, p), _ldexp_complex(dd, p)
+
+    def _resonant_split(self, om: np.ndarray
+                        ) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+        """D and dD/dω as mantissas times 2^p where a species-harmonic's Landau
+        exponential dominates (None where no ω of the block has one, or the plasma has
+        no fixed-k sum).
+
+        Below the real axis near ω = nΩ + k∥V the term exp(−ζ_n²) is huge and its share
+        S_E of S has rank two (nearly one at small k⊥ρ): det S formed in double then
+        holds rounding noise of order ε|S_E|³ that can exceed D by many decades. There
+        S is split as A + S_E (:meth:`~kinroots.physics.models.em_magnetized.ScaledSum.
+        resonant_term`) and D formed by :func:`_rank_two_det`; other ω as before.
+        """
+        ss = self._scaled_sum
+        columns = getattr(ss, "resonant_columns", None)
+        parts = getattr(ss, "resonant_parts", None)
+        if columns is None or parts is None:
+            return None
+        flat = om.ravel()
+        cols = columns(flat)
+        hit = cols >= 0
+        if not hit.any():
+            return None
+        d = np.empty(flat.shape, dtype=complex)
+        dd = np.empty(flat.shape, dtype=complex)
+        p = np.zeros(flat.shape, dtype=np.int64)
+        if not hit.all():
+            d[~hit], dd[~hit], p[~hit] = _scaled_det_and_derivative(*self._scaled(flat[~hit]))
+        sub = flat[hit]
+        a, da, term = parts(sub, cols[hit])
+        _add_vacuum(a, da, sub, self.k, self.omega_ref)
+        d[hit], dd[hit], p[hit] = _rank_two_det(a, da, term)
+        return d.reshape(om.shape), dd.reshape(om.shape), p.reshape(om.shape)
 
     def _landau_bits(self, om: np.ndarray) -> np.ndarray:
         """Per ω, an estimate of the largest log₂|exp(−ζ²)| over the Landau exponentials
@@ -565,7 +656,9 @@ class Dispersion:
     def _scaled_block(self, om: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """:meth:`scaled` for one block of ω (complex array, errstate set by the caller)."""
         if self.electromagnetic:
-            d, dd, p = _scaled_det_and_derivative(*self._scaled(om))
+            split = self._resonant_split(om)
+            d, dd, p = (_scaled_det_and_derivative(*self._scaled(om)) if split is None
+                        else split)
         else:
             chi, dchi = self._chi(om)
             d, dd, p = 1.0 + chi, dchi, np.zeros(om.shape, dtype=int)

@@ -253,7 +253,10 @@ def feature_params(edge: Edge, features: Sequence[tuple[complex, float]], spacin
     most about 0.64 rad between neighbours (< π/4, the phase step of
     :func:`segment_ok`, which refines the rest); uniform samples alone can step over the
     feature and miss whole windings.  Features with s ≥ ``spacing``/:data:`FEATURE_RATIO`
-    are seen by the uniform samples and get none.
+    are seen by the uniform samples and get none, except one sample at t₀ on a
+    horizontal line below the feature by more than its width: there a Landau resonance
+    behaves like exp(−ζ²), ζ ≈ (z − c)/w, which is large only within
+    about d of t₀ and turns by ~2d²/w² radians across that stretch (not like a pole).
     """
     kind, c_line = edge.key
     lo, hi = min(edge.t0, edge.t1), max(edge.t0, edge.t1)
@@ -261,7 +264,13 @@ def feature_params(edge: Edge, features: Sequence[tuple[complex, float]], spacin
     for c, w in features:
         t0, d = (c.real, abs(c_line - c.imag)) if kind == "h" else (c.imag, abs(c_line - c.real))
         s = 0.5 * max(w, d)
-        if not s < spacing / FEATURE_RATIO:  # uniform samples see it: nothing to add
+        if not s < spacing / FEATURE_RATIO:  # uniform samples see it as a pole would be seen
+            if kind == "h" and c_line < c.imag - w and lo < t0 < hi:
+                # below the feature a Landau resonance grows like exp(−ζ²) within about
+                # d of t₀ (|Re ζ| < |Im ζ|) and turns ever faster there: uniform samples
+                # on both sides can step over it while f'/f at both ends is small; one
+                # sample at t₀ sees the fast turning and the segment tests refine it
+                out.append(np.array([t0]))
             continue
         if t0 + spacing < lo or t0 - spacing > hi:
             continue

@@ -720,8 +720,11 @@ _NOISE_NOTE = (
     "near a cyclotron harmonic n*Omega + k_par*V, below the real axis by more than a few "
     "k_par*w_par of that species, its resonant term exp(-zeta^2) grows so large that the "
     "3x3 determinant cancels far below its terms (at small k_perp*rho that term is nearly "
-    "of rank one); keep the window's lower edge within about 2 k_par*w_par of the real "
-    "axis near those harmonics, or away from them (README, limits)"
+    "of rank one); that term is kept apart, and D stays accurate, for a species given as "
+    "one drifting bi-Maxwellian where one species-harmonic dominates, not for species "
+    "given as components or where two such terms are both that large; keep the window's "
+    "lower edge within about 2 k_par*w_par of the real axis near those harmonics, or "
+    "away from them (README, limits)"
 )
 
 

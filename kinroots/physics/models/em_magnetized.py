@@ -7,6 +7,8 @@ index order x, y, z. SI throughout (ω in rad/s, k in 1/m, B in T, temperatures 
 
 from __future__ import annotations
 
+import math
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -18,6 +20,7 @@ from kinroots.physics.models._harmonics import (
     evaluate,
     fixed_k_sum,
     gamma0_slope,
+    gamma_table,
     harmonic_sums,
     landau_sign,
     landau_z,
@@ -624,6 +627,70 @@ def _perpendicular_assemble(
     return t, dt, h, dh, s33, ds33
 
 
+#: :meth:`ScaledSum.resonant_columns`: a species-harmonic's Landau exponential is kept
+#: apart from the sum where Re(−ζ_n²) exceeds this (|exp(−ζ_n²)| > e² ≈ 7.4).
+RESONANT_MIN = 2.0
+
+#: ln 2 in two parts (Cody–Waite; as in :mod:`kinroots.physics.zfunc`): p·_LN2_HI is
+#: exact for integer |p| < 2^20.
+_LN2_HI = 0.693145751953125
+_LN2_LO = 1.4286068203094173e-06
+
+
+@dataclass(frozen=True)
+class ResonantTerm:
+    """S_E = c·L g Rᵀ, one species-harmonic's exponential part of S, per ω
+    (:meth:`ScaledSum.resonant_term`); c = ``coef``·2^``exponent``.
+
+    Attributes
+    ----------
+    coef, dcoef : ndarray of complex, shape (m,)
+        Mantissas of c and dc/dω (the same power 2^``exponent``).
+    exponent : ndarray of int, shape (m,)
+        Binary exponent p of c.
+    L, dL, R, dR : ndarray of complex, shape (m, 3, 2)
+        The factors and their ω-derivatives.
+    g : ndarray of complex, shape (m, 2, 2)
+        The symmetric 2×2 Gram matrix (constant in ω).
+    det_g : ndarray of complex, shape (m,)
+        det g, formed without cancellation.
+    """
+
+    coef: np.ndarray
+    dcoef: np.ndarray
+    exponent: np.ndarray
+    L: np.ndarray
+    dL: np.ndarray
+    R: np.ndarray
+    dR: np.ndarray
+    g: np.ndarray
+    det_g: np.ndarray
+
+
+def _resonant_constants(setup: SpeciesSetup, tau: float, wp2: float) -> np.ndarray:
+    """Per harmonic of one species, the constants of :meth:`ScaledSum.resonant_term`:
+    rows n, nΩ, k∥V, k∥w∥, τ, ω_p², e_x, e_z, g₁₁, g₁₂, g₂₂, det g."""
+    w = setup.weights
+    n = w.n
+    lam = setup.lam
+    kpar, kperp, wperp, om_c = setup.k_par, setup.k_perp, setup.w_perp, setup.omega_c
+    gam = gamma_table(lam, w.harmonics + 2)  # Γ_0 … Γ_{N+2}
+    m = np.abs(n).astype(int)
+    g_m, g_m1, g_m2 = gam[m], gam[m + 1], gam[m + 2]
+    zero = n == 0
+    mm = np.maximum(m, 1)
+    detg = np.where(zero, lam * (g_m - g_m1) * (g_m + g_m1),
+                    (g_m - g_m1) * (g_m + g_m1) - (m / (mm + 1.0)) * g_m * (g_m - g_m2))
+    ez = np.where(zero, math.sqrt(2.0) / (kpar * wperp), kperp / (kpar * om_c))
+    g11 = np.where(zero, w.gamma, w.g / np.where(zero, 1.0, n))
+    g12 = np.where(zero, -(kperp * wperp / (math.sqrt(2.0) * om_c)) * w.dgamma, -w.dgamma)
+    g22 = n * w.g - 2.0 * lam * w.dgamma
+    size = n.size
+    return np.array([n, n * om_c, np.full(size, kpar * setup.drift),
+                     np.full(size, kpar * setup.w_par), np.full(size, tau), np.full(size, wp2),
+                     n, ez, g11, g12, g22, detg], dtype=complex)
+
+
 #: Values per species of the contracted rows of :class:`ScaledSum`: Z_eff, Z', F' against
 #: the 7 weight columns (21), c Z', c F' against (g, Γ', Γ) (6), c̃ Z', c̃ F' against Γ (2).
 _PER_SPECIES = 29
@@ -673,6 +740,7 @@ class ScaledSum:
         shift_all = []
         inv_sa_all = []
         self.harmonics: dict[str, int] = {}
+        resonant: list[np.ndarray] = []
         sign = landau_sign(kpar)
         for s in species:
             setup = species_setup(s, k_par=kpar, k_perp=kperp, B=B, tol=tol,
@@ -695,6 +763,7 @@ class ScaledSum:
             inv_sa_all.append(np.full(size, 1.0 / (sign * a)))
             consts.append((tau, a, setup.drift / setup.w_par, omega_c, kpar * setup.drift,
                            setup.w_par**2, s.plasma_frequency**2))
+            resonant.append(_resonant_constants(setup, tau, s.plasma_frequency**2))
         self._cols = cols
         self._slices = slices
         self._nw = np.concatenate(nw_all)
@@ -702,12 +771,15 @@ class ScaledSum:
         self._shift = np.concatenate(shift_all)
         self._inv_sa = np.concatenate(inv_sa_all)
         self._sign = sign
+        #: per column (species and harmonic): the constants of :meth:`resonant_term`
+        self._res = np.concatenate(resonant, axis=1)
         self._c = tuple(np.array(c, dtype=complex) for c in zip(*consts, strict=True))
         k, cth, sth = _frame(kpar, kperp)
         self._frame = (k, cth, sth)
         self._kperp = kperp
         self._kpar = kpar
         self._scale = (1.0 / omega_ref**2, 1.0 / (omega_ref * k), 1.0 / (k * k))
+        self._omega_ref = float(omega_ref)
         # the linear maps: outputs (value, derivative: 18) from the 29 sums per species
         n_in = _PER_SPECIES * len(species)
         basis = np.eye(n_in, dtype=complex)
@@ -729,16 +801,31 @@ class ScaledSum:
 
     def constant_arrays(self) -> tuple[np.ndarray, ...]:
         """The per-k arrays (checked finite by ``fixed_k_sum``)."""
-        return (self._nw, self._nwt, self._inv_sa, self._fixed, self._slope)
+        return (self._nw, self._nwt, self._inv_sa, self._fixed, self._slope, self._res)
 
-    def __call__(self, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def __call__(self, omega: np.ndarray, remove: np.ndarray | None = None
+                 ) -> tuple[np.ndarray, np.ndarray]:
         """Σ_s S_s and Σ_s dS_s/dω, shaped ``omega.shape + (3, 3)`` (call under
-        ``np.errstate(all="ignore")``; non-finite ω give non-finite entries)."""
+        ``np.errstate(all="ignore")``; non-finite ω give non-finite entries).
+
+        With ``remove`` (one column index per ω, flattened; −1 for none, see
+        :meth:`resonant_columns`), the Landau exponential of that species-harmonic is
+        left out: its Z(sζ) and Z'(sζ) are replaced by the regular parts −Z(−sζ) and
+        Z'(−sζ) of the reflection Z(ζ) = 2i√π exp(−ζ²) − Z(−ζ) (NIST DLMF 7.4.3), which
+        satisfy the same equation Z' = −2(1 + ζZ), so every rewriting of the sum holds
+        for them. The sum is then S − S_E, S_E the part given by :meth:`resonant_term`.
+        """
         om = np.asarray(omega, dtype=complex)
         w = om.reshape(-1, 1)
         cn = w - self._nw
         zt = (cn - self._shift) * self._inv_sa
         zf, zp = plasma_z_and_prime(zt)
+        if remove is not None:
+            rows_r = np.flatnonzero(remove >= 0)
+            cols_r = remove[rows_r]
+            zr, zpr = plasma_z_and_prime(-zt[rows_r, cols_r])
+            zf[rows_r, cols_r] = -zr
+            zp[rows_r, cols_r] = zpr
         m = w.shape[0]
         rows = np.empty((m, 7, zt.shape[1]), dtype=complex)
         if self._sign < 0:
@@ -762,6 +849,94 @@ class ScaledSum:
         out = np.vecdot(self._fixed, x) + w * np.vecdot(self._slope, x)
         shape = om.shape + (3, 3)
         return out[:, :9].reshape(shape), out[:, 9:].reshape(shape)
+
+    def resonant_columns(self, omega: np.ndarray) -> np.ndarray:
+        """Per ω (flattened), the column (species and harmonic) whose Landau exponential
+        |exp(−ζ_n²)| is the largest, where it exceeds exp(:data:`RESONANT_MIN`); −1
+        elsewhere (and at ω = 0 or non-finite ω).
+
+        Only exponentials that the reflection of :meth:`__call__` carries count: those
+        with Im(sζ_n) < 0 (below the real axis for Re k∥ > 0). Call under
+        ``np.errstate(all="ignore")``.
+        """
+        w = np.asarray(omega, dtype=complex).reshape(-1, 1)
+        zt = (w - self._nw - self._shift) * self._inv_sa
+        x = np.where(zt.imag < 0.0, (zt.imag - zt.real) * (zt.imag + zt.real), -np.inf)
+        col = np.argmax(x, axis=1)
+        best = x[np.arange(w.shape[0]), col]
+        ok = (best > RESONANT_MIN) & np.isfinite(w[:, 0]) & (w[:, 0] != 0)
+        return np.where(ok, col, -1)
+
+    def resonant_parts(self, omega: np.ndarray, cols: np.ndarray
+                       ) -> tuple[np.ndarray, np.ndarray, ResonantTerm]:
+        """S − S_E, its ω-derivative (vacuum not added) and S_E (:meth:`resonant_term`)
+        at the flattened ``omega``, one column ≥ 0 per ω (:meth:`resonant_columns`)."""
+        a, da = self(omega, remove=cols)
+        return a.reshape(-1, 3, 3), da.reshape(-1, 3, 3), self.resonant_term(omega, cols)
+
+    def resonant_term(self, omega: np.ndarray, cols: np.ndarray) -> ResonantTerm:
+        r"""The part S_E of Σ_s S_s carried by the Landau exponential of column ``cols``
+        (one column ≥ 0 per ω of the flattened ``omega``), in factored form.
+
+        Notes
+        -----
+        With E = s·2i√π exp(−ζ²) the exponential part of Z_eff(ζ_n) (s the Landau sign),
+        the formulas of :func:`susceptibility` give for one harmonic n, since F = 1 + ζZ
+        carries ζE, Φ_n → −φE, φ = nΩ/a + τζ_n, and (this module's algebra)
+        Y_n → c_n φE and M_n → c_n² φE/τ::
+
+            χ_E = (ω_p²/ω²) φ E · H G Hᴴ,   H = diag(1, i, 1),
+            G = g₁₁ e eᵀ + g₁₂ (e fᵀ + f eᵀ) + g₂₂ f fᵀ,   f = ŷ,
+
+        with, for n ≠ 0, e = (n, 0, κc_n), κ = k⊥/(k∥Ω), g₁₁ = Γ_n/λ, g₁₂ = −Γ_n',
+        g₂₂ = n²Γ_n/λ − 2λΓ_n', and for n = 0, e = (0, 0, √2 c_n/(k∥w⊥)), g₁₁ = Γ₀,
+        g₁₂ = −(k⊥w⊥/(√2Ω))Γ₀', g₂₂ = −2λΓ₀'. This is the v⊥-average of the rank-one
+        matrices of the resonant particles (Stix 1992, eq. 10-57, from memory): G is a
+        Gram matrix of J_n and v⊥J_n', so the three-by-three χ_E has rank two
+        (det χ_E = 0) and, at small λ, nearly rank one. Its one small invariant is
+        det g, formed without cancellation from I_n' = I_{n+1} + (n/λ)I_n and
+        2nI_n/λ = I_{n−1} − I_{n+1} (Abramowitz & Stegun 1964, eq. 9.6.26)::
+
+            det g = (Γ_m − Γ_{m+1})(Γ_m + Γ_{m+1}) − (m/(m+1)) Γ_m (Γ_m − Γ_{m+2}),
+                    m = |n| ≥ 1,
+            det g = λ (Γ₀ − Γ₁)(Γ₀ + Γ₁),   n = 0.
+
+        In the wave frame S_E = Q χ_E Qᵀ, Q = diag(w, w, 1)·(rows e₁, e₂, k̂), so
+        S_E = c · L g Rᵀ with c = (ω_p²/ω²)φE and the 3×2 matrices L = Q[e, iŷ],
+        R = Q[e, −iŷ]. E is returned as a mantissa times 2^p (never overflowing).
+        """
+        om = np.asarray(omega, dtype=complex).ravel()
+        n, nw, kv, a, tau, wp2, ex, ez, g11, g12, g22, detg = self._res[:, cols]
+        cn = om - nw
+        zeta = (cn - kv) / a
+        x = ((zeta.imag - zeta.real) * (zeta.imag + zeta.real)).real  # Re(−ζ²)
+        p = np.floor(x / math.log(2.0))
+        # Cody–Waite: p·ln 2 in two parts, so that x − p ln 2 keeps its digits
+        mant = np.exp((x - p * _LN2_HI - p * _LN2_LO) - 2j * (zeta.real * zeta.imag).real)
+        ee = (self._sign * 2j * math.sqrt(math.pi)) * mant
+        pw = wp2 / (om * om)
+        phi = nw / a + tau * zeta
+        coef = ee * pw * phi
+        dcoef = coef * (-2.0 * zeta / a) + ee * pw * (tau / a - 2.0 * phi / om)
+        _, cth, sth = self._frame
+        ref = self._omega_ref
+        wr = om / ref
+        u = cth * ex - sth * ez * cn
+        m = om.size
+        L = np.zeros((m, 3, 2), dtype=complex)
+        dL = np.zeros((m, 3, 2), dtype=complex)
+        L[:, 0, 0] = wr * u
+        L[:, 2, 0] = sth * ex + cth * ez * cn
+        L[:, 1, 1] = 1j * wr
+        dL[:, 0, 0] = u / ref - wr * sth * ez
+        dL[:, 2, 0] = cth * ez
+        dL[:, 1, 1] = 1j / ref
+        R = L.copy()
+        dR = dL.copy()
+        R[:, 1, 1] = -L[:, 1, 1]
+        dR[:, 1, 1] = -dL[:, 1, 1]
+        g = np.stack([np.stack([g11, g12], axis=-1), np.stack([g12, g22], axis=-1)], axis=-2)
+        return ResonantTerm(coef, dcoef, p.astype(np.int64), L, dL, R, dR, g, detg)
 
     def _assemble(self, w: np.ndarray, x: np.ndarray,
                   linear: bool) -> tuple[np.ndarray, np.ndarray]:
