@@ -106,6 +106,40 @@ def _diameter(box: Box) -> float:
 _ATOL_FRACTION = 1e-3
 
 
+class _Remembering(CountedFunction):
+    """A :class:`CountedFunction` that answers points it has evaluated before from
+    memory (uncounted): the noise probe of a root repeats the polished value, where
+    Newton evaluated f last.  Keeps at most :data:`_MEMORY` points."""
+
+    def __init__(self, func: AnalyticFunction) -> None:
+        super().__init__(func)
+        self._memory: dict[complex, tuple[complex, complex]] = {}
+
+    def __call__(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        z = np.atleast_1d(np.asarray(z, dtype=complex))
+        keys = z.tolist()
+        known = {k: self._memory[k] for k in keys if k in self._memory}
+        missing = [k for k in dict.fromkeys(keys) if k not in known]
+        if missing:
+            fv, dv = super().__call__(np.array(missing, dtype=complex))
+            new = dict(zip(missing, zip(fv.tolist(), dv.tolist(), strict=True), strict=True))
+            self._remember(new)
+            if len(missing) == len(keys):  # all new, no repeats: f's own arrays
+                return fv, dv
+            known.update(new)
+        return (np.array([known[k][0] for k in keys], dtype=complex),
+                np.array([known[k][1] for k in keys], dtype=complex))
+
+    def _remember(self, new: dict[complex, tuple[complex, complex]]) -> None:
+        if len(self._memory) + len(new) > _MEMORY:
+            self._memory.clear()
+        self._memory.update(new)
+
+
+#: Most points a survey's function remembers (:class:`_Remembering`).
+_MEMORY = 1 << 16
+
+
 class _Survey:
     def __init__(
         self,
@@ -124,7 +158,7 @@ class _Survey:
         max_roots: int | None = None,
     ) -> None:
         self.f_user = f
-        self.func = CountedFunction(f)
+        self.func = _Remembering(f)
         self.sampler = BoundarySampler(self.func, max_evaluations=max_evaluations,
                                        features=features)
         self.box = box
