@@ -9,14 +9,30 @@ boundary only:
   so the midpoint of two neighbours lies on the boundary);
 * every p starts from the loop that resolved the previous p, evaluated for a whole batch
   of p in one call of ``pairs(p, z)`` when the family offers it;
-* a segment is refined (bisected) until it passes :func:`kinroots.roots.contour.segment_ok`
+* a segment is refined until it passes :func:`kinroots.roots.contour.segment_ok`
   — the same phase-step test the survey uses, so a count here is as reliable as the
-  survey's outer count; a segment still failing below ``min_fraction`` × the box diameter
+  survey's outer count; it is cut into 2 to ``MAX_PIECES`` equal pieces, as many as the
+  phase turn it shows in units of the phase step (fewer rounds of evaluation where f
+  turns fast); a segment still failing below ``min_fraction`` × the box diameter
   (a zero on or next to an edge), a zero or non-finite sample, or a phase sum more than
   0.1 from an integer gives no count (``None``) with the reason;
 * after a batch, the loop of its last p is thinned where a merged segment still passes
   the test (at most every other sample per batch), so the loop follows f as it becomes
   smoother as well as rougher;
+* the smooth factor: after a batch, a polynomial P (degree ≤ ``SMOOTH_DEGREE``, a least-
+  squares fit of log g and (log g)' on the last resolved loop, g = f divided by the known
+  zeros, refined batch after batch) is learnt, and the next batches take the winding of
+  g·exp(−P).  exp(−P) is entire and never zero, so the winding, hence the count, is the
+  same exactly; what it removes is the phase that turns steadily along the edges (the
+  Landau factors of a dispersion function below the real axis), so far fewer samples
+  pass the test.  It is learnt only from a loop whose g winds 0 times (single-valued
+  log).  The factor must not hide a zero that crosses an edge: P fitted to earlier
+  loops carries the far field of a zero just outside, and a zero that then crosses the
+  edge would meet that imprint as a zero–pole pair, invisible from far away.  So a
+  segment passes only where P is linear to within ``PHASE_STEP/2`` along it (a
+  rigorous bound: Chebyshev coefficients of P minus its chord), i.e. where exp(−P)
+  only removes a linear trend of log g, which no zero produces; near an imprint the
+  segments stay as short as the imprint's distance, where a crossing zero is seen;
 * excluded points (poles, zeros brought in by a scaling) inside the box: their winding
   on a small circle is subtracted, as in :func:`kinroots.roots.find_roots`.  It is measured
   at the first and the last p of a batch and, if the two differ, at every p of it (it is
@@ -25,16 +41,41 @@ boundary only:
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
-from kinroots.roots.contour import circle_contour, feature_params, rectangle_edges, segment_ok
+from kinroots.roots.contour import (
+    PHASE_STEP,
+    circle_contour,
+    feature_params,
+    rectangle_edges,
+    segment_ok,
+)
 from kinroots.roots.result import AnalyticFunction, Box, CountedFunction
 
 __all__ = ["BoundaryCount", "BoundaryCounter"]
+
+#: Degree of the polynomial P of the smooth factor exp(P) (:class:`BoundaryCounter`).
+SMOOTH_DEGREE = 16
+#: Most pieces a failing boundary segment is cut into in one round.
+MAX_PIECES = 4
+
+
+def _fractions(pieces: np.ndarray) -> np.ndarray:
+    """1/n … (n−1)/n for each n of ``pieces``, concatenated."""
+    return np.concatenate([np.arange(1, n) / n for n in pieces.tolist()])
+
+
+@functools.lru_cache(maxsize=8)
+def _lobatto(m: int) -> tuple[np.ndarray, np.ndarray]:
+    """Chebyshev–Lobatto nodes on [0, 1] and the matrix from values there to Chebyshev
+    coefficients (degree m)."""
+    x = -np.cos(np.pi * np.arange(m + 1) / m)
+    return 0.5 * (x + 1.0), np.linalg.inv(np.polynomial.chebyshev.chebvander(x, m))
 
 Family = Callable[[float], AnalyticFunction]
 PairFamily = Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]]
@@ -116,8 +157,16 @@ class BoundaryCounter:
             others = [abs(e - o) for j, o in enumerate(self.excluded) if j != i]
             self._radii.append(min([radius] + [0.1 * d for d in others]))
         self._corner_set = set(_corners(self.box).tolist())
+        self._centre = complex(0.5 * (x0 + x1), 0.5 * (y0 + y1))
         #: Thinning passes after a batch (each drops at most every other sample).
         self.thin_passes = 3
+        #: Most pieces a failing segment is cut into in one round (2: bisection).
+        self.max_pieces = MAX_PIECES
+        #: Largest degree of the smooth factor exp(P) divided out (0: none).
+        self.smooth_degree = SMOOTH_DEGREE
+        # (centre, scale, coefficients of P in ((z − centre)/scale)^j, ascending)
+        self._smooth: tuple[complex, float, np.ndarray] | None = None
+        self._smooth_der = np.zeros(1, complex)
         #: Points evaluated by this counter (boundary and exclusion circles).
         self.evaluations = 0
 
@@ -167,7 +216,7 @@ class BoundaryCounter:
                  for i in range(m)]
 
         def evaluate(idx: list[int], zs: list[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
-            """``raw`` deflated by the known zeros of each p."""
+            """``raw`` deflated by the known zeros of each p and by the smooth factor."""
             out = []
             for i, z, (f, d) in zip(idx, zs, raw(idx, zs), strict=True):
                 if poles[i].size:
@@ -177,7 +226,18 @@ class BoundaryCounter:
                         d = g * (d / f - np.sum(1.0 / diff, axis=1))
                     f = g
                 out.append((f, d))
-            return out
+            if self._smooth is None:
+                return out
+            p_val, p_der = self._smooth_factor(np.concatenate(zs))
+            with np.errstate(all="ignore"):
+                e = np.exp(-p_val)
+            j, scaled = 0, []
+            for f, d in out:
+                sl = slice(j, j + f.size)
+                j += f.size
+                with np.errstate(all="ignore"):
+                    scaled.append((f * e[sl], (d - f * p_der[sl]) * e[sl]))
+            return scaled
 
         loop = self.loop
         if self.features is not None:
@@ -187,6 +247,19 @@ class BoundaryCounter:
         fl = [a for a, _ in fd]
         dl = [b for _, b in fd]
         evals = [z.size for z in zl]
+        # segments (z_j, z_{j+1}) on which the smooth factor is linear enough, by their
+        # ends (the p of a batch share most of their samples)
+        linear: dict[tuple[complex, complex], bool] = {}
+
+        def factor_ok(z: np.ndarray) -> np.ndarray:
+            keys = list(zip(z.tolist(), np.roll(z, -1).tolist(), strict=True))
+            new = [key for key in dict.fromkeys(keys) if key not in linear]
+            if new:
+                flags = self._factor_linear(np.array([a for a, _ in new]),
+                                            np.array([b for _, b in new]))
+                linear.update(zip(new, flags.tolist(), strict=True))
+            return np.array([linear[key] for key in keys], dtype=bool)
+
         result: list[int | None] = [None] * m
         notes = [""] * m
         wheres: list[complex | None] = [None] * m
@@ -204,6 +277,8 @@ class BoundaryCounter:
                                 f"{complex(z[bad_pt][0]):.6g}")
                     continue
                 ok = segment_ok(z, f, d, closed=True)
+                if self._smooth is not None:
+                    ok &= factor_ok(z)
                 if np.all(ok):
                     w = float(np.sum(np.angle(np.roll(f, -1) / f)) / (2 * math.pi))
                     if abs(w - round(w)) > 0.1:
@@ -219,9 +294,12 @@ class BoundaryCounter:
                     notes[i] = (f"boundary unresolved near {where:.6g} (a zero on or next "
                                 "to an edge)")
                     continue
+                pieces = self._pieces(z[bad], z1, f[bad], np.roll(f, -1)[bad], d[bad],
+                                      np.roll(d, -1)[bad])
                 req_i.append(i)
-                req_z.append(0.5 * (z[bad] + z1))
-                req_pos.append(bad + 1)
+                req_z.append(np.repeat(z[bad], pieces - 1) + np.repeat(z1 - z[bad], pieces - 1)
+                             * _fractions(pieces))
+                req_pos.append(np.repeat(bad + 1, pieces - 1))
             if not req_i:
                 break
             for i, zn, pos, (fn, dn) in zip(req_i, req_z, req_pos, evaluate(req_i, req_z),
@@ -242,6 +320,9 @@ class BoundaryCounter:
                     break
                 z, f, d = z[keep], f[keep], d[keep]
             self.loop = z
+            self._fit_smooth(zl[i], fl[i], dl[i], result[i])
+        else:
+            self._smooth = None
         ex, ex_evals = self._exclusions(ps, family, pairs)
         out = []
         for i, p in enumerate(ps):
@@ -257,6 +338,87 @@ class BoundaryCounter:
         return out
 
     # -- internals ----------------------------------------------------------------
+    def _pieces(self, z0: np.ndarray, z1: np.ndarray, f0: np.ndarray, f1: np.ndarray,
+                d0: np.ndarray, d1: np.ndarray) -> np.ndarray:
+        """Pieces to cut each failing segment into: 2 (bisection) up to
+        :data:`MAX_PIECES`, the phase change it shows (between its ends and as f'/f
+        predicts at each end) in units of ``PHASE_STEP``; more samples than a bisection
+        where the phase turns much faster, so fewer rounds of evaluation."""
+        with np.errstate(all="ignore"):
+            dz = z1 - z0
+            turn = np.maximum.reduce([np.abs(np.angle(f1 / f0)), np.abs((d0 / f0 * dz).imag),
+                                      np.abs((d1 / f1 * dz).imag)]) / PHASE_STEP
+        n = np.ceil(np.nan_to_num(turn, nan=2.0, posinf=MAX_PIECES))
+        return np.clip(n, 2, self.max_pieces).astype(int)
+
+    def _smooth_factor(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """P(z) and P'(z) of the smooth factor."""
+        assert self._smooth is not None
+        centre, scale, coef = self._smooth
+        u = (z - centre) / scale
+        value = np.polynomial.polynomial.polyval(u, coef)
+        deriv = np.polynomial.polynomial.polyval(u, self._smooth_der) / scale
+        return value, deriv
+
+    def _fit_smooth(self, z: np.ndarray, f: np.ndarray, d: np.ndarray,
+                    winding: int | None) -> None:
+        """Improve P from the resolved loop of the last p (``f`` = g/exp(P) there).
+
+        A least-squares polynomial Q of log f and of its derivative on the loop is added
+        to P (a correction, so a sparse loop keeps what earlier loops taught). Only when f
+        winds 0 times (a single-valued log along the loop); otherwise P is kept as it is.
+        """
+        m = min(self.smooth_degree, z.size - 2)
+        if winding != 0 or m < 1:
+            return
+        with np.errstate(all="ignore"):
+            ratio = np.roll(f, -1) / f
+            step = np.log(np.abs(ratio)) + 1j * np.angle(ratio)
+            log_f = np.concatenate(([0j], np.cumsum(step[:-1])))
+            dlog = d / f
+        centre, scale = self._centre, 0.5 * self.diameter
+        u = (z - centre) / scale
+        basis = np.vander(u, m + 1, increasing=True)
+        # rows for log f and for its derivative times the local spacing
+        h = 0.5 * (np.abs(np.roll(z, -1) - z) + np.abs(z - np.roll(z, 1)))
+        dbasis = np.zeros_like(basis)
+        dbasis[:, 1:] = basis[:, :-1] * np.arange(1, m + 1) / scale
+        a = np.concatenate([basis, h[:, None] * dbasis])
+        b = np.concatenate([log_f, h * dlog])
+        if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b))):
+            return
+        coef, *_ = np.linalg.lstsq(a, b, rcond=None)
+        coef[0] = 0.0  # the constant of log f is arbitrary: leave the scale of f alone
+        old = self._smooth[2] if self._smooth is not None else np.zeros(1, complex)
+        new = np.zeros(max(old.size, coef.size), complex)
+        new[:old.size] += old
+        new[:coef.size] += coef
+        if np.all(np.isfinite(new)):
+            self._smooth = (centre, scale, new)
+            self._smooth_der = np.polynomial.polynomial.polyder(new)
+
+    def _factor_linear(self, za: np.ndarray, zb: np.ndarray) -> np.ndarray:
+        """Whether P is linear to within ``PHASE_STEP/2`` on each segment [za, zb].
+
+        P restricted to a segment is a polynomial of its degree in the segment
+        parameter t; minus the chord through its ends, its Chebyshev coefficients on
+        [0, 1] (exact from that many Chebyshev–Lobatto nodes) bound the deviation by
+        their absolute sum.
+        """
+        if self._smooth is None or za.size == 0:
+            return np.ones(za.shape, dtype=bool)
+        m = self._smooth[2].size - 1
+        if m <= 1:
+            return np.ones(za.shape, dtype=bool)
+        t, inv = _lobatto(m)
+        zz = za[:, None] + t[None, :] * (zb - za)[:, None]
+        centre, scale, coef = self._smooth
+        pv = np.polynomial.polynomial.polyval((zz - centre) / scale, coef)
+        dev = pv - (pv[:, :1] + t[None, :] * (pv[:, -1:] - pv[:, :1]))
+        with np.errstate(all="ignore"):
+            bound = np.sum(np.abs(dev @ inv.T), axis=1)
+        return bound <= 0.5 * PHASE_STEP
+
     def _perimeter(self, z: np.ndarray) -> np.ndarray:
         """Position of boundary points along the loop: edge index + fraction (0 … 4)."""
         x0, x1, y0, y1 = self.box
@@ -293,7 +455,7 @@ class BoundaryCounter:
         zz = np.stack([z[j - 1], z[nxt]], axis=1).ravel()
         ff = np.stack([f[j - 1], f[nxt]], axis=1).ravel()
         dd = np.stack([d[j - 1], d[nxt]], axis=1).ravel()
-        merged = segment_ok(zz, ff, dd)[::2]
+        merged = segment_ok(zz, ff, dd)[::2] & self._factor_linear(z[j - 1], z[nxt])
         corner = np.isin(z[1:], np.array(list(self._corner_set)))
         can = (merged & ~corner).tolist()
         i = 0
