@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 
 from kinroots.physics.models.base import Builder, Susceptibility
+from kinroots.physics.models.krook_dispersion import scaled_cauchy_derivative
 from kinroots.physics.models.species_models import (
     builder_for_plasma,
     kappa_poles,
@@ -38,8 +39,10 @@ __all__ = [
     "MODELS",
     "builder_for",
     "dispersion_in_k",
+    "dispersion_in_k_scaled",
     "dispersion_pairs",
     "in_blocks",
+    "landau_bits_unmagnetized",
     "scaled_builder_for",
 ]
 
@@ -611,12 +614,14 @@ class Dispersion:
         that are evaluated (Maxwellian parts, Im ζ < 0; 0 where there is none).
 
         ζ = (ω − k∥V)/κ, κ² = k⊥²w⊥² + k∥²w∥² unmagnetized; ζ_n = (ω − k∥V − nΩ)/(k∥w∥)
-        for the kept harmonics |n| ≤ N nearest to ω when magnetized (the arguments of
+        for the kept harmonics |n| ≤ N that make it largest when magnetized (the arguments of
         the builders; D. G. Swanson, *Plasma Waves*, 2nd ed., 2003, ch. 4, from memory).
         """
-        best = np.zeros(om.shape)
         kpar, kperp = complex(self.k_par), complex(self.k_perp)
-        if self.magnetized and kpar == 0:
+        if not self.magnetized:
+            return landau_bits_unmagnetized(self.plasma, om, kpar, kperp)
+        best = np.zeros(om.shape)
+        if kpar == 0:
             return best
         for s in self.plasma.species:
             if s.distribution != "maxwellian" or s.collision_frequency > 0.0:
@@ -624,21 +629,21 @@ class Dispersion:
             n_max = self.harmonics.get(s.name, 0)
             for _, part in s.component_species():
                 wpar2 = 2.0 * part.temperature_par * EV / part.mass
-                wperp2 = 2.0 * part.temperature_perp * EV / part.mass
                 x = om - kpar * part.drift
                 zetas = []
-                if self.magnetized:
-                    width = kpar * math.sqrt(wpar2)
-                    om_c = part.cyclotron_frequency(self.plasma.B)
-                    if om_c != 0 and n_max > 0:
-                        n0 = np.rint(x.real / om_c)
-                        for dn in (-1.0, 0.0, 1.0):
-                            n = np.clip(n0 + dn, -n_max, n_max)
-                            zetas.append((x - n * om_c) / width)
-                    else:
-                        zetas.append(x / width)
+                width = kpar * math.sqrt(wpar2)
+                om_c = part.cyclotron_frequency(self.plasma.B)
+                if om_c != 0 and n_max > 0:
+                    # Re(−ζ_n²) = −Re(c (x − nΩ)²), c = 1/width², is quadratic in n: its
+                    # largest value over |n| ≤ N is near n* = Re(c x)/(Ω Re c) (Re c > 0)
+                    # or at an end (Re c < 0, complex k∥ beyond 45°)
+                    c = 1.0 / (width * width)
+                    n0 = np.rint(np.clip((c * x).real / (om_c * c.real) if c.real else 0.0,
+                                         -n_max, n_max))
+                    for n in (n0 - 1.0, n0, n0 + 1.0, -n_max, n_max):
+                        zetas.append((x - np.clip(n, -n_max, n_max) * om_c) / width)
                 else:
-                    zetas.append(x / cmath.sqrt(kperp * kperp * wperp2 + kpar * kpar * wpar2))
+                    zetas.append(x / width)
                 for z in zetas:
                     a = np.where(z.imag < 0.0, (z.imag - z.real) * (z.imag + z.real), 0.0)
                     best = np.fmax(best, a)
@@ -1174,7 +1179,11 @@ def dispersion_in_k(
     dD/dk = (1/m) Σ_j D(k + r e^{iφ_j}) e^{−iφ_j} / r, φ_j = 2π(j + 1/2)/m, m = 32,
     r = 1e-3 |k| (Cauchy's formula for the derivative, trapezoid rule on the circle: error
     of order (r/R)^m for D analytic within R of k; any numerical-analysis text, from
-    memory); every k and every circle point in one :func:`dispersion_pairs` call.
+    memory); every k and every circle point in one :func:`dispersion_pairs` call.  NaN
+    where |arg k∥| > 45°: at real ω a Landau term of harmonic n grows like
+    exp(−n²Ω² Re(1/(k∥w∥)²)), faster than the Bessel weights fall, so the harmonic sum
+    diverges and D has no value there (a truncated sum would give one that depends on
+    the truncation).
     """
     kk = np.asarray(k, dtype=complex)
     om = float(omega)
@@ -1183,6 +1192,9 @@ def dispersion_in_k(
     cos, sin = _cos_sin_deg(angle_deg)
     canonical = _canonical_model(model)
     bad = ~np.isfinite(kk) | (kk == 0)
+    if plasma.magnetized:  # |arg k∥| > 45°: the harmonic sum diverges (Notes)
+        with np.errstate(invalid="ignore"):
+            bad |= ((kk * cos) ** 2).real < 0.0
     ksafe = np.where(bad, 1.0, kk)
     if plasma.magnetized:
         d, dd = _dispersion_in_k_cauchy(
@@ -1204,6 +1216,25 @@ def _dispersion_in_k_unmagnetized(
     model: str,
     omega_ref: float,
 ) -> tuple[np.ndarray, np.ndarray]:
+    m, dm = _in_k_entries(plasma, omega, k, cos, sin, model, omega_ref)
+    if model == "electrostatic":
+        return m, dm
+    with np.errstate(all="ignore"):
+        return _det_and_derivative(m, dm)
+
+
+def _in_k_entries(
+    plasma: Plasma,
+    omega: float,
+    k: np.ndarray,
+    cos: float,
+    sin: float,
+    model: str,
+    omega_ref: float,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Electrostatic D and dD/dk, or electromagnetic M and dM/dk (:class:`Dispersion`
+    Notes), unmagnetized, at real ω and complex k; every entry is affine in the Landau
+    terms of the species (under the current :func:`~kinroots.physics.zfunc.landau_shift`)."""
     builder = builder_for_plasma(builder_for(model, False), plasma.species, model=model,
                                  magnetized=False)
     om = np.full(k.shape, omega, dtype=complex)
@@ -1235,7 +1266,159 @@ def _dispersion_in_k_unmagnetized(
         dm[..., 1, 1] -= 2.0 * k * (C_LIGHT / omega_ref) ** 2
         m[..., 2, :] = eps[..., 2, :]
         dm[..., 2, :] = deps[..., 2, :]
-        return _det_and_derivative(m, dm)
+        return m, dm
+
+
+def landau_bits_unmagnetized(
+    plasma: Plasma, omega: np.ndarray, k_par: Any, k_perp: Any,
+) -> np.ndarray:
+    """log₂ of the largest Landau term |exp(−ζ²)| (Im ζ < 0; else 0) per point, unmagnetized.
+
+    ζ = (ω − k∥V)/κ, κ² = k⊥²w⊥² + k∥²w∥², for every collisionless Maxwellian part
+    (component species part by part); ``omega``, ``k_par`` and ``k_perp`` broadcast.  A
+    Krook species is skipped: its χ is finite and regular
+    (:func:`kinroots.physics.models.krook.ratio`).
+    """
+    om = np.asarray(omega, dtype=complex)
+    kpar, kperp = np.asarray(k_par, dtype=complex), np.asarray(k_perp, dtype=complex)
+    best = np.zeros(np.broadcast_shapes(om.shape, kpar.shape, kperp.shape))
+    with np.errstate(all="ignore"):
+        for s in plasma.species:
+            if s.distribution != "maxwellian" or s.collision_frequency > 0.0:
+                continue
+            for _, part in s.component_species():
+                wpar2 = 2.0 * part.temperature_par * EV / part.mass
+                wperp2 = 2.0 * part.temperature_perp * EV / part.mass
+                z = (om - kpar * part.drift) / np.sqrt(kperp * kperp * wperp2
+                                                       + kpar * kpar * wpar2)
+                a = np.where(z.imag < 0.0, (z.imag - z.real) * (z.imag + z.real), 0.0)
+                best = np.fmax(best, a)
+    return best / math.log(2.0)
+
+
+def dispersion_in_k_scaled(
+    plasma: Plasma,
+    *,
+    omega: float,
+    k: Any,
+    angle_deg: float,
+    model: str,
+    omega_ref: float,
+    harmonic_tol: float = 1e-14,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """D and dD/dk of :func:`dispersion_in_k` as mantissas times 2^p, never overflowing.
+
+    Parameters
+    ----------
+    plasma, omega, k, angle_deg, model, omega_ref, harmonic_tol
+        As for :func:`dispersion_in_k`.
+
+    Returns
+    -------
+    D_m, dD_dk_m : ndarray of complex
+        D = D_m·2^p and dD/dk = dD_dk_m·2^p (same p), shaped like ``k``; NaN where k is
+        zero or not finite.
+    p : ndarray of int
+        Binary exponent per point (0 where the plain values are finite).
+
+    Notes
+    -----
+    Where :func:`dispersion_in_k` is finite (below 2^880) its values are returned with
+    p = 0.
+    Elsewhere, unmagnetized: the entries (ES: D and dD/dk; EM: M and dM/dk, whose
+    dχ_s/dk = −(2χ_s + ω ∂χ_s/∂ω)/k is affine in the Landau terms like χ_s) are split as
+    R + 2^b X as in :meth:`Dispersion.scaled` (DLMF 7.4.3 reflection; row scaling of the
+    determinant, Golub & Van Loan 2013, sec. 3.5.2).  Magnetized: D at k and on the
+    Cauchy circle of :func:`dispersion_in_k` from :meth:`Dispersion.scaled` at each
+    point, the circle's mantissas brought to the centre's exponent, its radius reduced
+    where |D| changes by more than a factor e around it.  Magnetized, at real ω, a Landau
+    term exp(−ζ_n²), ζ_n = (ω − k∥V − nΩ)/(k∥w∥), grows with n like
+    exp(−n²Ω² Re(1/(k∥w∥)²)): where |arg k∥| > 45° this outgrows the Bessel weights
+    Γ_n ~ (λ/2)^|n|/|n|! and the harmonic sum diverges, so D has no value there: NaN
+    (the survey then names the cause).  Without drift that is the only place where D
+    overflows at real ω, since Re(−ζ_n²) = −(ω − nΩ)² Re(1/(k∥w∥)²).
+    """
+    kk = np.asarray(k, dtype=complex)
+    om = float(omega)
+    canonical = _canonical_model(model)
+    d, dd = dispersion_in_k(plasma, omega=om, k=kk, angle_deg=angle_deg, model=canonical,
+                            omega_ref=omega_ref, harmonic_tol=harmonic_tol)
+    p = np.zeros(kk.shape, dtype=np.int64)
+    ok_k = np.isfinite(kk) & (kk != 0)
+    # finite but near the top of the range counts as overflow too: the caller converts
+    # dD/dk to its units (a factor of up to 2^(1024 − _TOP_BITS))
+    with np.errstate(invalid="ignore"):
+        near = (np.abs(d) > 2.0**_TOP_BITS) | (np.abs(dd) > 2.0**_TOP_BITS)
+    bad = ok_k & (~(np.isfinite(d) & np.isfinite(dd)) | near)
+    if not bad.any():
+        return d, dd, p
+    d, dd = d.copy(), dd.copy()
+    idx = np.flatnonzero(bad)
+    ks = kk.ravel()[idx]
+    if plasma.magnetized:
+        dm, ddm, pm = _in_k_cauchy_scaled(plasma, om, ks, angle_deg, canonical, omega_ref,
+                                          harmonic_tol)
+    else:
+        dm, ddm, pm = _in_k_unmagnetized_scaled(plasma, om, ks, angle_deg, canonical,
+                                                omega_ref)
+    d.ravel()[idx], dd.ravel()[idx], p.ravel()[idx] = dm, ddm, pm
+    return d, dd, p
+
+
+def _in_k_unmagnetized_scaled(
+    plasma: Plasma, omega: float, k: np.ndarray, angle_deg: float, model: str,
+    omega_ref: float,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`dispersion_in_k_scaled` at unmagnetized points where the plain D overflows."""
+    cos, sin = _cos_sin_deg(angle_deg)
+    em = model == "electromagnetic"
+    d = np.full(k.shape, np.nan + 0j)
+    dd = np.full(k.shape, np.nan + 0j)
+    p = np.zeros(k.shape, dtype=np.int64)
+    want = landau_bits_unmagnetized(plasma, np.full(k.shape, omega), k * cos, k * sin)
+    with np.errstate(all="ignore"):
+        groups = np.maximum(_BITS_STEP, _BITS_STEP * np.ceil((want - _TOP_BITS) / _BITS_STEP))
+        for g in np.unique(groups[groups <= _MAX_BITS]):
+            sel = np.flatnonzero(groups == g)
+            sub = k[sel]
+            with landau_shift(math.inf):
+                reg, dreg = _in_k_entries(plasma, omega, sub, cos, sin, model, omega_ref)
+            bits = float(g)
+            for _ in range(_BITS_RETRIES):
+                with landau_shift(bits):
+                    big, dbig = _in_k_entries(plasma, omega, sub, cos, sin, model, omega_ref)
+                dm, ddm, pm = _combine_scaled(reg, dreg, big - reg, dbig - dreg, int(bits), em)
+                if np.all(np.isfinite(dm) & np.isfinite(ddm)):
+                    break
+                bits += 4 * _BITS_STEP
+            d[sel], dd[sel], p[sel] = dm, ddm, pm
+    return d, dd, p
+
+
+def _in_k_cauchy_scaled(
+    plasma: Plasma, omega: float, k: np.ndarray, angle_deg: float, model: str,
+    omega_ref: float, harmonic_tol: float,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`dispersion_in_k_scaled` at magnetized points where the plain D overflows:
+    each k and its Cauchy circle (:func:`~kinroots.physics.models.krook_dispersion.
+    scaled_cauchy_derivative`) through :meth:`Dispersion.scaled`, one k at a time."""
+    d = np.full(k.shape, np.nan + 0j)
+    dd = np.full(k.shape, np.nan + 0j)
+    p = np.zeros(k.shape, dtype=np.int64)
+    om = np.array([complex(omega)])
+    cos, _ = _cos_sin_deg(angle_deg)
+    with np.errstate(all="ignore"):
+        for j, k0 in enumerate(k.tolist()):
+            if ((k0 * cos) ** 2).real < 0.0:
+                continue  # |arg k∥| > 45°: the harmonic sum diverges (NaN, see Notes)
+
+            def at(kj: complex) -> tuple[complex, int]:
+                m, _, e = Dispersion(plasma, k=kj, angle_deg=angle_deg, model=model,
+                                     omega_ref=omega_ref, harmonic_tol=harmonic_tol).scaled(om)
+                return complex(m[0]), int(e[0])
+
+            d[j], dd[j], p[j] = scaled_cauchy_derivative(at, k0, _N_CIRCLE, _K_FRACTION)
+    return d, dd, p
 
 
 def _dispersion_in_k_cauchy(

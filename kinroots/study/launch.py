@@ -143,7 +143,7 @@ def launch(
     freqs = np.asarray(frequencies_hz, dtype=float)
     om = [float(2.0 * math.pi * f / case.units.omega_unit) for f in freqs]
     branches, surveys_w, _, notes, checks = follow_branches(
-        lambda w: SpatialFunction(case, w),
+        lambda w: SpatialFunction(case, w, auto_window=box),
         om,
         box,
         lambda w: spatial_roots(case, w, box),

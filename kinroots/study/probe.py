@@ -436,6 +436,25 @@ def probe_launch(case: Case) -> WindowProbe | None:
         if np.any(bad):
             zb = z[bad]
             edges = sorted({_edge_of(complex(p), box) for p in zb}, key=_EDGES.index)
+            offset, why_scale, span = _log2_offset(g, box)
+            probe.evaluations += z.size
+            on = f"{_join(edges)} edge{'s' if len(edges) > 1 else ''}"
+            if offset:
+                g.log2_offset = offset
+                probe.add("note", f"|D| exceeds double precision on the {on} of the k box "
+                          f"(up to about 1e{_offset_decades(offset)}): the survey divides D "
+                          "by a constant power of two (same roots) and can survey the box",
+                          where)
+                _count(probe, g, box, [], [], where, unit, "k")
+                continue
+            if why_scale == "range" and span <= _MAX_SPAN:
+                probe.add("note", f"|D| exceeds double precision on the {on} of the k box "
+                          f"and spans about {span:.0f} binary orders on it, more than one "
+                          "constant scale holds: the survey splits the box into sub-boxes, "
+                          "each with its own scale (costly; a box whose Im k stays smaller "
+                          "against Re k is cheaper)", where)
+                probe.counts[where] = None
+                continue
             term = _largest_landau_term(case, np.full(zb.shape, om * w_u, dtype=complex),
                                         zb / l_u)
             why = ("a term of the dispersion function exceeds double precision there"

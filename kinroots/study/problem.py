@@ -24,6 +24,7 @@ from kinroots.io.case import Case
 from kinroots.physics.dispersion import (
     Dispersion,
     dispersion_in_k,
+    dispersion_in_k_scaled,
     dispersion_pairs,
     in_blocks,
 )
@@ -397,6 +398,15 @@ class NormalizedDispersion:
         return d, dd * w_u
 
     @property
+    def log2_offset(self) -> int:
+        """The constant scale N of the function handed over (f = D/2^N or F/2^N)."""
+        return self.dispersion.log2_offset
+
+    @log2_offset.setter
+    def log2_offset(self, value: int) -> None:
+        self.dispersion.log2_offset = value
+
+    @property
     def _krook_es(self) -> bool:
         """Electrostatic with Krook species: the function handed over is F = (Π_s Q_s) D."""
         flag = self.__dict__.get("_krook_flag")
@@ -559,7 +569,7 @@ def _offset_decades(offset: int) -> int:
     return round((offset + _LOG2_TOP) * math.log10(2.0))
 
 
-def _boundary_log2(f: NormalizedDispersion, box: tuple[float, float, float, float]
+def _boundary_log2(f: NormalizedDispersion | SpatialFunction, box: tuple[float, float, float, float]
                    ) -> tuple[np.ndarray, np.ndarray]:
     """Probe points on the boundary of ``box`` and log₂|D| there (NaN where undefined).
 
@@ -576,7 +586,7 @@ def _boundary_log2(f: NormalizedDispersion, box: tuple[float, float, float, floa
     return z, f.log2_magnitude(z)
 
 
-def _log2_offset(f: NormalizedDispersion, box: tuple[float, float, float, float]
+def _log2_offset(f: NormalizedDispersion | SpatialFunction, box: tuple[float, float, float, float]
                  ) -> tuple[int, str, float]:
     """A constant scale 2^-N that brings D into double precision on ``box``.
 
@@ -605,9 +615,14 @@ def _log2_offset(f: NormalizedDispersion, box: tuple[float, float, float, float]
     return offset, "", hi - lo
 
 
-def _undefined_note(f: NormalizedDispersion) -> str:
+def _undefined_note(f: NormalizedDispersion | SpatialFunction) -> str:
     """Why D cannot be evaluated on an edge even with the exponent carried apart."""
-    plasma = f.dispersion.plasma
+    plasma = f.case.plasma if isinstance(f, SpatialFunction) else f.dispersion.plasma
+    if isinstance(f, SpatialFunction) and plasma.magnetized:
+        return ("D is not defined there: at real omega and |arg k_par| > 45 degrees the "
+                "Landau terms exp(-zeta_n^2) grow with the harmonic number n faster than "
+                "the Bessel weights fall, so the sum over cyclotron harmonics diverges; "
+                "keep the box's Im k below Re k (README, limits)")
     if any(s.distribution == "kappa" for s in plasma.species):
         return ("D is not defined there: the continued kappa functions have a branch cut "
                 "(Im zeta < -sqrt(kappa) on the imaginary zeta axis) that the edge "
@@ -669,11 +684,11 @@ _SCALE_NOTE = re.compile(r"\|D\| exceeds double precision on this window \(up to
                          r"1e(\d+)\): D was surveyed as D/2\^")
 
 
-def _survey_box(f: NormalizedDispersion, b: tuple[float, float, float, float],
+def _survey_box(f: NormalizedDispersion | SpatialFunction, b: tuple[float, float, float, float],
                 excluded: list[complex], features: list[tuple[complex, float]],
                 rtol: float, splits: int) -> SurveyResult:
     """:func:`survey` on one box: plain D, else a constant scale, else halves."""
-    f.dispersion.log2_offset = 0
+    f.log2_offset = 0
     res = find_roots(f, b, excluded=excluded, rtol=rtol, features=features)
     if not any("is not finite" in n for n in res.notes):
         return res
@@ -681,9 +696,9 @@ def _survey_box(f: NormalizedDispersion, b: tuple[float, float, float, float],
     if offset:
         # |D| exceeds double precision on the box but fits after a constant scale
         # 2^-offset (same zeros, same f'/f): survey that scaled D instead.
-        f.dispersion.log2_offset = offset
+        f.log2_offset = offset
         res = find_roots(f, b, excluded=excluded, rtol=rtol, features=features)
-        f.dispersion.log2_offset = 0
+        f.log2_offset = 0
         top = _offset_decades(offset)
         res.notes.append(
             f"|D| exceeds double precision on this window (up to about 1e{top}): D was "
@@ -770,46 +785,113 @@ _NOISE_WHERE = re.compile(r"f is rounding noise (on the \w+ edge|inside the wind
 
 @dataclass
 class SpatialFunction:
-    """``g(k̂) -> (D, dD/dk̂)`` at one real normalized frequency (spatial problem)."""
+    """``g(k̂) -> (D, dD/dk̂)`` at one real normalized frequency (spatial problem).
+
+    Attributes
+    ----------
+    case : Case
+        The case.
+    omega : float
+        Real normalized frequency.
+    log2_offset : int
+        D and dD/dk̂ are returned times 2^−log2_offset (same zeros and D'/D), for boxes
+        where |D| exceeds double precision (:func:`spatial_roots`).
+    auto_window : tuple of float or None
+        A box (normalized k): the first evaluation that is not finite at a finite k sets
+        :attr:`log2_offset` once from log₂|D| on its boundary (tracing).
+    """
 
     case: Case
     omega: float
+    log2_offset: int = 0
+    auto_window: tuple[float, float, float, float] | None = None
 
     def __call__(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         # overflow far from the window gives non-finite values, reported by the root layer
         with np.errstate(over="ignore", invalid="ignore"):
-            return self._call(k)
+            kk = np.asarray(k, dtype=complex)
+            d, dd = self._call(kk, self.log2_offset)
+            if self.auto_window is not None and not self.__dict__.get("_auto_tried"):
+                bad = np.isfinite(kk) & ~(np.isfinite(d) & np.isfinite(dd))
+                if bad.any():
+                    self.__dict__["_auto_tried"] = True
+                    offset, _, _ = _log2_offset(self, self.auto_window)
+                    if offset:
+                        self.log2_offset = offset
+                        d, dd = self._call(kk, offset)
+            return d, dd
 
-    def _call(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def _call(self, k: np.ndarray, offset: int) -> tuple[np.ndarray, np.ndarray]:
+        if offset:
+            d, dd, p = self._split(k)
+            return ldexp_complex(d, p - offset), ldexp_complex(dd, p - offset)
         units = self.case.units
         L = units.length_unit
         plasma = self.case.plasma
-        if krook.collisional(plasma) and self.case.model == "electrostatic" and plasma.B:
-            theta = math.radians(self.case.angle_deg)
+        theta = math.radians(self.case.angle_deg)
+        ks = k / L
+        if self._krook_es and plasma.B:
             f, fk = krook_dispersion.magnetized_scaled_dispersion_in_k(
-                self.omega * units.omega_unit, plasma.species,
-                k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
-                sin_theta=math.sin(theta), B=plasma.B, tol=self.case.solver.harmonic_tolerance,
+                self.omega * units.omega_unit, plasma.species, k=ks,
+                cos_theta=math.cos(theta), sin_theta=math.sin(theta), B=plasma.B,
+                tol=self.case.solver.harmonic_tolerance,
             )
             return f, fk / L
-        if krook.collisional(plasma) and self.case.model == "electrostatic" and not plasma.B:
-            theta = math.radians(self.case.angle_deg)
+        if self._krook_es:
             f, _, fk = krook.scaled_dispersion(
                 np.asarray(self.omega * units.omega_unit, dtype=complex), plasma.species,
-                k=np.asarray(k, dtype=complex) / L, cos_theta=math.cos(theta),
-                sin_theta=math.sin(theta),
+                k=ks, cos_theta=math.cos(theta), sin_theta=math.sin(theta),
             )
             return f, fk / L
         d, dd = dispersion_in_k(
-            self.case.plasma,
-            omega=self.omega * units.omega_unit,
-            k=np.asarray(k, dtype=complex) / L,
-            angle_deg=self.case.angle_deg,
-            model=self.case.model,
-            omega_ref=units.omega_unit,
+            plasma, omega=self.omega * units.omega_unit, k=ks, angle_deg=self.case.angle_deg,
+            model=self.case.model, omega_ref=units.omega_unit,
             harmonic_tol=self.case.solver.harmonic_tolerance,
         )
         return d, dd / L
+
+    @property
+    def _krook_es(self) -> bool:
+        return krook.collisional(self.case.plasma) and self.case.model == "electrostatic"
+
+    def _split(self, k: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """D (F with Krook species) and its k̂-derivative as mantissas times 2^p."""
+        units = self.case.units
+        L = units.length_unit
+        plasma = self.case.plasma
+        theta = math.radians(self.case.angle_deg)
+        ks = np.asarray(k, dtype=complex) / L
+        if self._krook_es and plasma.B:
+            f, fk, p = krook_dispersion.magnetized_split_dispersion_in_k(
+                self.omega * units.omega_unit, plasma.species, k=ks,
+                cos_theta=math.cos(theta), sin_theta=math.sin(theta), B=plasma.B,
+                tol=self.case.solver.harmonic_tolerance,
+            )
+        elif self._krook_es:
+            om = np.full(ks.shape, self.omega * units.omega_unit, dtype=complex)
+            f, _, fk, p = krook.split_dispersion(om, plasma.species, k=ks,
+                                                 cos_theta=math.cos(theta),
+                                                 sin_theta=math.sin(theta))
+        else:
+            f, fk, p = dispersion_in_k_scaled(
+                plasma, omega=self.omega * units.omega_unit, k=ks,
+                angle_deg=self.case.angle_deg, model=self.case.model,
+                omega_ref=units.omega_unit, harmonic_tol=self.case.solver.harmonic_tolerance,
+            )
+        return f, fk / L, p
+
+    def log2_magnitude(self, k: np.ndarray) -> np.ndarray:
+        """log₂|D| (|F| with Krook species) at normalized k, overflow-free (NaN where
+        undefined)."""
+        f, _, p = self._split(np.asarray(k, dtype=complex))
+        with np.errstate(all="ignore"):
+            out = np.log2(np.abs(f)) + p
+        out[~np.isfinite(out)] = np.nan
+        return out
+
+    def features(self, box: tuple[float, float, float, float]) -> list[tuple[complex, float]]:
+        """No resonance list in k (the boundary is sampled uniformly)."""
+        return []
 
 
 def spatial_roots(case: Case, omega: float, box: tuple[float, float, float, float]
@@ -820,7 +902,16 @@ def spatial_roots(case: Case, omega: float, box: tuple[float, float, float, floa
     """
     if box[0] <= 0:
         raise ValueError("the spatial search box must lie in Re k > 0")
-    return find_roots(SpatialFunction(case, float(omega)), box, rtol=case.solver.tolerance)
+    res = _survey_box(SpatialFunction(case, float(omega)), box, [], [], case.solver.tolerance,
+                      0)
+    # the notes speak of ω windows; in k the Landau term grows toward large Im k / Re k
+    res.notes = [n.replace("raise the window's lower edge toward the real axis",
+                           "keep the box's Im k small against Re k (Landau damping "
+                           "lengths far shorter than a wavelength)")
+                 .replace("; raise the window's lower edge toward the real axis there",
+                          "; keep the box's Im k smaller against Re k there")
+                 for n in res.notes]
+    return res
 
 
 def trace_spatial(case: Case, omegas: np.ndarray, box: tuple[float, float, float, float]
@@ -828,7 +919,7 @@ def trace_spatial(case: Case, omegas: np.ndarray, box: tuple[float, float, float
     """Survey complex k at the first frequency and trace each root across ``omegas``."""
     om = [float(w) for w in omegas]
     s = spatial_roots(case, om[0], box)
-    tracer = Tracer(lambda w: SpatialFunction(case, w), box=box, param=om[0],
+    tracer = Tracer(lambda w: SpatialFunction(case, w, auto_window=box), box=box, param=om[0],
                     rtol=case.solver.tolerance)
     for r in s.roots:
         if r.converged:

@@ -10,6 +10,9 @@ P. L. Bhatnagar, E. P. Gross and M. Krook, Phys. Rev. 94, 511 (1954).
 
 from __future__ import annotations
 
+import math
+from collections.abc import Callable
+
 import numpy as np
 
 from kinroots.physics.models import es_magnetized, krook
@@ -19,6 +22,8 @@ __all__ = [
     "magnetized_scaled_dispersion",
     "magnetized_scaled_dispersion_in_k",
     "magnetized_split_dispersion",
+    "magnetized_split_dispersion_in_k",
+    "scaled_cauchy_derivative",
 ]
 
 
@@ -171,6 +176,8 @@ def magnetized_scaled_dispersion_in_k(
     Cauchy's formula on a circle (Ω_s fixed: no homogeneity in (ω, k)),
     ∂F/∂k = (1/(m r)) Σ_j F(k + r e^{iφ_j}) e^{−iφ_j}, φ_j = 2π(j + 1/2)/m, m = 16,
     r = 1e-3|k| (error of order (r/R)^16, R the distance to the nearest singularity).
+    NaN where |arg k∥| > 45°, where the harmonic sum diverges at real ω
+    (:func:`kinroots.physics.dispersion.dispersion_in_k`).
     """
     kk = np.asarray(k, dtype=complex)
     f = np.full(kk.shape, np.nan + 0j)
@@ -182,6 +189,8 @@ def magnetized_scaled_dispersion_in_k(
         k0 = complex(kk[idx])
         if not (np.isfinite(k0.real) and np.isfinite(k0.imag)) or k0 == 0:
             continue
+        if ((k0 * cos_theta) ** 2).real < 0.0:
+            continue  # |arg k∥| > 45°: the harmonic sum diverges (NaN)
         f[idx] = magnetized_scaled_dispersion(om, species, k_par=k0 * cos_theta,
                                               k_perp=k0 * sin_theta, B=B, tol=tol)[0][0]
         r = _CAUCHY_RADIUS * abs(k0)
@@ -192,3 +201,107 @@ def magnetized_scaled_dispersion_in_k(
                                                 k_perp=kj * sin_theta, B=B, tol=tol)[0][0] / e
         fk[idx] = acc / (_CAUCHY_POINTS * r)
     return f, fk
+
+
+def magnetized_split_dispersion_in_k(
+    omega: float,
+    species: tuple[Species, ...],
+    /,
+    *,
+    k: np.ndarray,
+    cos_theta: float,
+    sin_theta: float,
+    B: float,
+    tol: float = 1e-14,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    r"""F and ∂F/∂k of :func:`magnetized_scaled_dispersion_in_k` as mantissas times 2^P.
+
+    Parameters
+    ----------
+    omega, species, k, cos_theta, sin_theta, B, tol
+        As for :func:`magnetized_scaled_dispersion_in_k`.
+
+    Returns
+    -------
+    F_m, dF_dk_m : ndarray of complex
+        F = F_m·2^P and ∂F/∂k = dF_dk_m·2^P; NaN where k is zero or not finite.
+    P : ndarray of int
+        Binary exponent per point.
+
+    Notes
+    -----
+    F from :func:`magnetized_split_dispersion` at k and on a Cauchy circle
+    (:func:`scaled_cauchy_derivative`: radius 1e-3 |k|, smaller where |F| changes fast).
+    NaN where |arg k∥| > 45°: at real ω the harmonic sum diverges there (see
+    :func:`kinroots.physics.dispersion.dispersion_in_k_scaled`).
+    """
+    kk = np.asarray(k, dtype=complex)
+    f = np.full(kk.shape, np.nan + 0j)
+    fk = np.full(kk.shape, np.nan + 0j)
+    pp = np.zeros(kk.shape, dtype=np.int64)
+    om = np.array([complex(omega)])
+    for idx in np.ndindex(kk.shape):
+        k0 = complex(kk[idx])
+        if not (np.isfinite(k0.real) and np.isfinite(k0.imag)) or k0 == 0:
+            continue
+        if ((k0 * cos_theta) ** 2).real < 0.0:
+            continue  # |arg k∥| > 45°: the harmonic sum diverges (NaN)
+
+        def at(kj: complex) -> tuple[complex, int]:
+            m, _, p = magnetized_split_dispersion(om, species, k_par=kj * cos_theta,
+                                                  k_perp=kj * sin_theta, B=B, tol=tol)
+            return complex(m[0]), int(p[0])
+
+        f[idx], fk[idx], pp[idx] = scaled_cauchy_derivative(at, k0, _CAUCHY_POINTS,
+                                                            _CAUCHY_RADIUS)
+    return f, fk, pp
+
+
+def scaled_cauchy_derivative(
+    evaluate: Callable[[complex], tuple[complex, int]], k0: complex, points: int,
+    radius: float,
+) -> tuple[complex, complex, int]:
+    """f(k0) and f′(k0) as mantissas times 2^p, from a function given as mantissa and exponent.
+
+    Parameters
+    ----------
+    evaluate : callable
+        ``evaluate(k) -> (m, p)`` with f(k) = m·2^p.
+    k0 : complex
+        The point.
+    points : int
+        Points on the circle.
+    radius : float
+        First radius, relative to |k0|.
+
+    Returns
+    -------
+    f_m, df_m : complex
+        f(k0) = f_m·2^p and f′(k0) = df_m·2^p.
+    p : int
+
+    Notes
+    -----
+    Cauchy's formula on a circle of radius r, trapezoid rule:
+    f′(k0) ≈ (1/(m r)) Σ_j f(k0 + r e^{iφ_j}) e^{−iφ_j}, φ_j = 2π(j + 1/2)/m.  Its error is
+    set by the Taylor coefficients of f beyond order m, which are small only while f
+    changes by a moderate factor around the circle; where ln|f| varies by more than 1
+    across it (a large Landau term grows like exp(−ζ²)), r is reduced in proportion and
+    the sum repeated (up to 8 times).  The circle's mantissas are brought to the centre's
+    exponent (exact powers of two).
+    """
+    m0, p0 = evaluate(k0)
+    ring = np.exp(2j * np.pi * (np.arange(points) + 0.5) / points)
+    r = radius * abs(k0)
+    acc = complex("nan")
+    for _ in range(8):
+        vals = [evaluate(k0 + r * e) for e in ring.tolist()]
+        lg = np.array([math.log(abs(m)) + (p - p0) * math.log(2.0) if m else -math.inf
+                       for m, p in vals]) - math.log(abs(m0)) if m0 else np.zeros(points)
+        acc = sum(math.ldexp(1.0, p - p0) * m / e
+                  for (m, p), e in zip(vals, ring.tolist(), strict=True)) / (points * r)
+        spread = float(np.max(np.abs(lg))) if np.all(np.isfinite(lg)) else math.inf
+        if spread <= 1.0:
+            break
+        r *= 0.5 / spread if math.isfinite(spread) else 0.1
+    return complex(m0), complex(acc), int(p0)
