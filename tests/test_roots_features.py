@@ -83,6 +83,48 @@ def test_feature_params_are_geometric_about_the_projection():
     assert feature_params(edge, [(complex(5.0, 0.0), 0.4)], spacing=1.25).size == 0
 
 
+def _landau_zeros(c: complex, w: float, low: float, high: float) -> list[complex]:
+    """Zeros of f = 1 + exp(−ζ²), ζ = (z − c)/w, with −low < Im ζ < high: exp(−ζ²) = −1
+    where ζ² = −iπ(2m + 1), m integer, so ζ = ±√(π|2m + 1|) e^{∓iπ/4} (m ≥ 0) or
+    e^{±iπ/4} (m < 0): the pair x = ±|y|, |y| = √(π|2m + 1|/2), for each m ≥ 0 below
+    the axis and each m < 0 above it."""
+    out = []
+    m = 0
+    while (y := math.sqrt(math.pi * (2 * m + 1) / 2)) < max(low, high):
+        if y < low:
+            out += [c + w * complex(y, -y), c + w * complex(-y, -y)]
+        if y < high:
+            out += [c + w * complex(y, y), c + w * complex(-y, y)]
+        m += 1
+    return out
+
+
+@pytest.mark.parametrize(("w", "low"), [(0.006, 5.5), (0.005, 7.0), (0.004, 8.0)])
+def test_zeros_of_a_landau_exponential_hidden_between_uniform_samples(w, low):
+    # f = 1 + exp(−ζ²) models the Landau term of a resonance taking over D below the
+    # axis (Fried & Conte 1961, eq. 7): its zeros (derived in _landau_zeros) crowd
+    # along Re ζ = ±Im ζ.  The centre lies midway between the first uniform samples of
+    # the bottom edge (0.5 and 0.625), over 10 widths from each, where exp(−ζ²) is
+    # negligible and f'/f shows nothing, and seen from the edge the feature is too wide
+    # for geometric samples; between those samples the exponential winds about 2y²/π
+    # times (y = `low`).  Found only because a sample is placed below the centre
+    # (feature_params), where the term is largest on the line: without it the survey
+    # reports 2 zeros (those above the axis), complete.
+    c = 0.5625
+    expected = _landau_zeros(c, w, low, 2.0)
+    assert len(expected) >= 12
+
+    def f(z):
+        e = np.exp(-(((z - c) / w) ** 2))
+        return 1.0 + e, -2.0 * (z - c) / w**2 * e
+
+    box = (0.0, 1.0, -low * w, 2.0 * w)  # (higher, this model's exp(−ζ²) overflows)
+    res = find_roots(f, box, features=[(complex(c), w)], rtol=1e-10)
+    assert res.complete and res.count == len(expected), res.notes
+    for z in expected:
+        assert min(abs(v - z) for v in res.values) <= 1e-9 * abs(z)
+
+
 def test_boundary_counts_see_zeros_next_to_a_resonance():
     h, c = 1e-3, 5.1234
     box = (0.0, 10.0, -0.5 * h * math.sqrt(8.0), 1.0)

@@ -526,7 +526,7 @@ def pair_function(case: Case) -> PairFunction | None:
                 case.plasma, k=kk / l_u, omega=om * w_u, angle_deg=case.angle_deg,
                 model=case.model, omega_ref=w_u, harmonic_tol=case.solver.harmonic_tolerance,
             )
-        dd = dd * w_u
+            dd = dd * w_u  # may overflow: such k are evaluated again below, scaled
         bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
         todo = {float(v) for v in np.unique(kk[bad])} | {
             float(v) for v in np.unique(kk) if float(v) in scaled}
