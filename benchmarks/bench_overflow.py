@@ -10,6 +10,10 @@ Plain script (not collected by pytest): ``.venv/bin/python benchmarks/bench_over
 2. Overhead of :meth:`Dispersion.scaled` (mantissa and binary exponent per point) and of
    a survey's scaled call (``log2_offset`` set) against the plain ``Dispersion(ω)`` at
    points where double D is finite, 1000 ω per call, four models; floor ≤ 1.5×.
+3. Cost of keeping a cyclotron harmonic's resonant term apart (``_rank_two_det``, the
+   route ``Dispersion(ω)`` takes below a harmonic) against the plain determinant of the
+   same summed tensor at the same points (noise there, but the cost the route replaces),
+   1000 ω per call below the proton harmonics of the hydrogen window.
 Ratios are meaningful only within one run; on a loaded machine they move by tens of
 percent.
 """
@@ -23,7 +27,7 @@ from pathlib import Path
 import numpy as np
 
 from kinroots.io.case import load_case
-from kinroots.physics.dispersion import Dispersion
+from kinroots.physics.dispersion import Dispersion, _det_and_derivative
 from kinroots.physics.plasma import M_ELECTRON, M_PROTON, Plasma, Species
 from kinroots.study.problem import survey
 
@@ -35,6 +39,7 @@ DATA = Path(__file__).resolve().parents[1] / "tests" / "data"
 _HOT_IONS = DATA / "overflow_hot_ions.toml"
 _WEIBEL = DATA / "overflow_weibel.toml"
 _OBLIQUE = DATA / "overflow_oblique.toml"
+_HYDROGEN = DATA / "harmonic_hydrogen.toml"
 
 #: (name, case file, k, wide window (used to be refused), narrow window (double precision))
 WINDOWS = [
@@ -48,6 +53,8 @@ WINDOWS = [
      (-0.002, 0.002, -0.03, 0.02), (-0.002, 0.002, -0.004, 0.02)),
     ("EM oblique B, 1e535", _OBLIQUE, 0.5,
      (0.2, 0.9, -5.0, 0.2), (0.2, 0.9, -3.0, 0.2)),
+    ("EM 10 widths below nOmega", _HYDROGEN, 1.0,
+     (0.05, 3.0, -0.1, 0.1), (0.05, 3.0, -0.025, 0.1)),
 ]
 
 
@@ -104,9 +111,29 @@ def overhead() -> float:
     return worst
 
 
+def resonant_overhead() -> float:
+    print(f"\n3. resonant term kept apart below the proton harmonics, {N_OMEGA} ω per call")
+    case = load_case(_HYDROGEN)
+    d = Dispersion(case.plasma, k=1.0 / case.units.length_unit, angle_deg=case.angle_deg,
+                   model=case.model, omega_ref=case.units.omega_unit)
+    rng = np.random.default_rng(0)
+    n = rng.integers(0, 4, N_OMEGA)
+    om = (n + rng.uniform(-0.08, 0.08, N_OMEGA) + 1j * rng.uniform(-0.1, -0.03, N_OMEGA))
+    om = om * case.units.omega_unit
+    with np.errstate(all="ignore"):
+        share = float(np.mean(d._scaled_sum.resonant_columns(om) >= 0))
+    t_split = best(lambda: d(om), number=5)
+    t_plain = best(lambda: _det_and_derivative(*d._scaled(om)), number=5)
+    ratio = t_split / t_plain
+    print(f"points kept apart {share:.0%}; split {t_split * 1e3:.3f} ms, plain det "
+          f"{t_plain * 1e3:.3f} ms, ratio {ratio:.2f}")
+    return ratio
+
+
 def main() -> None:
     surveys()
     overhead()
+    resonant_overhead()
 
 
 if __name__ == "__main__":

@@ -4,6 +4,7 @@ found and spent, and a guard that stops it says so and flags the result incomple
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import mpmath as mp
 import numpy as np
@@ -173,41 +174,13 @@ def test_max_roots_stops_after_counting(ion_acoustic) -> None:
 # electromagnetic, θ = 60°, k d_p = 1: k∥ w_i ≈ 0.01 Ω_ci, so each proton cyclotron
 # harmonic is a resonance of width 0.01 Ω_ci.  The window of issue 15, Im ω ∈ [−0.1, 0.1]
 # Ω_ci, reaches 10 widths below the real axis.
-HYDROGEN = """
-title = "Magnetized hydrogen near the proton cyclotron harmonics"
-[magnetic_field]
-B = 0.1
-[[species]]
-name = "e"
-charge = -1
-mass = "electron"
-density = 1.0e18
-temperature = 10.0
-[[species]]
-name = "H+"
-charge = 1
-mass = "proton"
-density = 1.0e18
-temperature = 10.0
-[wave]
-model = "electromagnetic"
-angle = 60.0
-[scan]
-k = { start = 1.0, stop = 1.1, points = 2 }
-[units]
-frequency = "cyclotron:H+"
-length = "inertial:H+"
-[search]
-real = [0.05, 3.0]
-imag = [-0.1, 0.1]
-"""
+HYDROGEN_FILE = Path(__file__).parent / "data" / "harmonic_hydrogen.toml"
+HYDROGEN = HYDROGEN_FILE.read_text(encoding="utf-8")  # also benchmarks/bench_overflow.py
 
 
 @pytest.fixture(scope="module")
-def hydrogen(tmp_path_factory):
-    path = tmp_path_factory.mktemp("h") / "hydrogen.toml"
-    path.write_text(HYDROGEN)
-    return load_case(path)
+def hydrogen():
+    return load_case(HYDROGEN_FILE)
 
 
 def _count_only(f, box) -> int:
