@@ -246,6 +246,31 @@ def test_bessel_weights_array_rows_match_scalar_weights():
     assert np.all(np.isnan(weights.gamma[6:])) and np.all(np.isnan(weights.g[6:]))
 
 
+def test_bessel_weight_rows_from_the_cache_equal_the_scalar_weights():
+    """Rows kept from earlier calls (bessel_weights_array caches them per λ) mixed with new
+    ones and with a larger common N: every row is its scalar weights, zeros beyond them,
+    the same as in a call that computes them all afresh."""
+    tol = 1e-14
+    first = np.array([0.2, 1.5 + 0.1j, 7.0])
+    _harmonics._ROWS.clear()
+    _harmonics.bessel_weights_array(first, tol)
+    assert len(_harmonics._ROWS) == 3
+    lam = np.array([[7.0, 300.0], [0.2, np.nan]])
+    mixed = _harmonics.bessel_weights_array(lam, tol)
+    _harmonics._ROWS.clear()
+    fresh = _harmonics.bessel_weights_array(lam, tol)
+    big = mixed.harmonics
+    assert big == fresh.harmonics == _harmonics.bessel_weights(300.0, tol).harmonics
+    for field in ("gamma", "dgamma", "g"):
+        np.testing.assert_array_equal(getattr(mixed, field), getattr(fresh, field))
+    for (i, j), x in (((0, 0), 7.0), ((0, 1), 300.0), ((1, 0), 0.2)):
+        one = _harmonics.bessel_weights(x, tol)
+        inner = slice(big - one.harmonics, big + one.harmonics + 1)
+        np.testing.assert_array_equal(mixed.g[i, j][inner], one.g)
+        assert not np.any(np.delete(mixed.gamma[i, j], np.arange(2 * big + 1)[inner]))
+    assert np.all(np.isnan(mixed.gamma[1, 1])) and not mixed.converged[1, 1]
+
+
 def test_cached_bessel_weights_are_the_computed_ones_and_read_only():
     """bessel_weights keeps recent results: a hit must equal a fresh computation
     (bit for bit) and must not be writable, so no caller can change another's weights."""

@@ -247,19 +247,9 @@ class BoundaryCounter:
         fl = [a for a, _ in fd]
         dl = [b for _, b in fd]
         evals = [z.size for z in zl]
-        # segments (z_j, z_{j+1}) on which the smooth factor is linear enough, by their
-        # ends (the p of a batch share most of their samples)
-        linear: dict[tuple[complex, complex], bool] = {}
-
-        def factor_ok(z: np.ndarray) -> np.ndarray:
-            keys = list(zip(z.tolist(), np.roll(z, -1).tolist(), strict=True))
-            new = [key for key in dict.fromkeys(keys) if key not in linear]
-            if new:
-                flags = self._factor_linear(np.array([a for a, _ in new]),
-                                            np.array([b for _, b in new]))
-                linear.update(zip(new, flags.tolist(), strict=True))
-            return np.array([linear[key] for key in keys], dtype=bool)
-
+        # segments (z_j, z_{j+1}) of the shared first loop on which the smooth factor is
+        # linear enough (later loops: tested where they pass segment_ok)
+        linear0 = self._factor_linear(loop, np.roll(loop, -1))
         result: list[int | None] = [None] * m
         notes = [""] * m
         wheres: list[complex | None] = [None] * m
@@ -278,7 +268,11 @@ class BoundaryCounter:
                     continue
                 ok = segment_ok(z, f, d, closed=True)
                 if self._smooth is not None:
-                    ok &= factor_ok(z)
+                    if z.size == loop.size:  # nothing inserted yet: the shared loop
+                        ok &= linear0
+                    else:
+                        t = np.flatnonzero(ok)
+                        ok[t] = self._factor_linear(z[t], np.roll(z, -1)[t])
                 if np.all(ok):
                     w = float(np.sum(np.angle(np.roll(f, -1) / f)) / (2 * math.pi))
                     if abs(w - round(w)) > 0.1:

@@ -52,8 +52,8 @@ class BesselWeights:
     gamma, dgamma, g : ndarray of complex
         Γ_n(λ), Γ_n'(λ) and g_n = nΓ_n/λ: shape (2N+1,) for one λ
         (:func:`bessel_weights`), ``lam.shape + (2N+1,)`` for an array of λ
-        (:func:`bessel_weights_array`; rows padded with harmonics below the tolerance up
-        to the common N).
+        (:func:`bessel_weights_array`; each row its element's own weights, zeros beyond
+        them up to the common N).
     harmonics : int
         N, the largest |n| kept (for an array: the largest any element needs).
     converged : bool or ndarray of bool
@@ -217,22 +217,84 @@ def bessel_weights_array(lam: np.ndarray, tol: float) -> BesselWeights:
     Each element's N follows the rule of :func:`bessel_weights`, measured on one table
     for all elements (one ``ive`` evaluation on the (elements × harmonics) grid), started
     at the largest of the elements' initial guesses and doubled while some element's
-    tail is not yet measured. The harmonics an element receives beyond its own N are
-    below its tolerance by that rule.
+    tail is not yet measured. Each row holds its element's weights up to its own N (the
+    truncation a one-k call makes) and zeros beyond, up to the common N.
+
+    The rows of the last :data:`ROW_CACHE` distinct λ are kept (keyed by λ and tol):
+    tracing and the zero counts of ``solve`` evaluate D at the same few k many times,
+    in calls that each cost more in fixed work than in points.  Calls with more
+    than :data:`ROW_CACHE_CALL` distinct λ bypass it.
     """
     lam = np.asarray(lam, dtype=complex)
     flat = lam.ravel()
     tol = max(float(tol), 1e-300)
-    live = np.flatnonzero(np.isfinite(flat))
-    need = np.full(flat.shape, -1)  # each element's N; −1: no converged sum
-    overflow = False
+    keys, inverse = np.unique(flat, return_inverse=True)
+    if keys.size > ROW_CACHE_CALL:
+        rows = _weight_rows(keys, tol)
+    else:
+        rows = [_ROWS.get((x, tol)) for x in keys.tolist()]
+        todo = [j for j, r in enumerate(rows) if r is None]
+        if todo:
+            for j, r in zip(todo, _weight_rows(keys[todo], tol), strict=True):
+                rows[j] = r
+                if np.isfinite(keys[j]):
+                    _ROWS[(complex(keys[j]), tol)] = r
+            while len(_ROWS) > ROW_CACHE:
+                del _ROWS[next(iter(_ROWS))]
+    need = np.array([r[0] for r in rows], dtype=int)
+    converged = need[inverse.ravel()] >= 0
+    if not converged.any():
+        big = any(r[0] == -2 for r in rows)
+        nan = _nan_weights(MAX_HARMONICS if big else 1)
+        table = np.broadcast_to(nan.gamma, lam.shape + nan.gamma.shape)
+        return BesselWeights(nan.n, table.copy(), table.copy(), table.copy(), nan.harmonics,
+                             converged.reshape(lam.shape))
+    N = int(need.max())
+    width = 2 * N + 1
+    # gather every row from one concatenated table per field: column c holds n = c − N,
+    # i.e. entry |n| of its element's table if |n| ≤ its N, else 0 (NaN rows: no sum)
+    n = np.arange(-N, N + 1)
+    size = np.maximum(need, -1) + 1
+    start = np.concatenate(([1], 1 + np.cumsum(size)[:-1]))  # entry 0: the zero
+    inside = np.abs(n)[None, :] <= need[:, None]
+    src = np.where(inside, start[:, None] + np.abs(n)[None, :], 0)
+    fields = []
+    for f in range(1, 4):
+        table = np.concatenate([np.zeros(1, complex), *(r[f] for r in rows)])
+        out = table[src]
+        if f == 3:
+            out = np.where(n < 0, -out, out)  # g_{−n} = −g_n
+        out[need < 0] = np.nan
+        fields.append(out)
+    gamma, dgamma, g = (f[inverse.ravel()].reshape(lam.shape + (width,)) for f in fields)
+    return BesselWeights(np.arange(-N, N + 1, dtype=float), gamma, dgamma, g, harmonics=N,
+                         converged=converged.reshape(lam.shape))
+
+
+#: Distinct (λ, tol) whose weight rows :func:`bessel_weights_array` keeps.
+ROW_CACHE = 4096
+#: Calls of :func:`bessel_weights_array` with more distinct λ than this bypass the cache.
+ROW_CACHE_CALL = 512
+#: λ, tol -> (N, Γ_n, Γ_n', g_n for n = 0 … N); N = −1 not converged, −2 beyond
+#: MAX_HARMONICS. Insertion order is age (oldest dropped first); arrays read-only.
+_ROWS: dict[tuple[complex, float], tuple[int, np.ndarray, np.ndarray, np.ndarray]] = {}
+
+
+def _weight_rows(lam: np.ndarray, tol: float
+                 ) -> list[tuple[int, np.ndarray, np.ndarray, np.ndarray]]:
+    """(N, Γ_n, Γ_n', g_n for n = 0 … N) of each element of the 1-D ``lam``, by the rule
+    of :func:`bessel_weights` measured on one table for all elements."""
+    empty = np.zeros(0, dtype=complex)
+    live = np.flatnonzero(np.isfinite(lam))
+    need = np.full(lam.shape, -1)  # each element's N; −1: no converged sum, −2: too many
+    g0 = dg = gn = np.zeros((0, 0), dtype=complex)
     if live.size:
-        a = np.abs(flat[live])
-        im = np.abs(flat[live].imag)
+        a = np.abs(lam[live])
+        im = np.abs(lam[live].imag)
         guess = 24.0 + 10.0 * np.sqrt(a) + np.where(im > a / 4, im, 0.0)
         nmax = int(min(guess.max(), MAX_HARMONICS))
     while live.size:
-        lam_live = flat[live]
+        lam_live = lam[live]
         # tables with n down the first axis and one column per element
         n, g0, dg, gn, m = _weight_table(gamma_table(lam_live, nmax + 1), lam_live)
         ok, edge_small = _truncation(n, m, tol)
@@ -241,28 +303,23 @@ def bessel_weights_array(lam: np.ndarray, tol: float) -> BesselWeights:
         if np.all(done | ~finite) or nmax >= MAX_HARMONICS:
             first = np.argmax(ok, axis=0)
             fits = done & (first <= MAX_HARMONICS - 2)
-            overflow = bool(np.any(finite & ~fits))
+            need[live[finite & ~fits]] = -2
             need[live[fits]] = first[fits]
             break
         live = live[finite]
         nmax = min(2 * nmax, MAX_HARMONICS)
-    converged = need >= 0
-    if not converged.any():
-        nan = _nan_weights(MAX_HARMONICS if overflow else 1)
-        rows = np.broadcast_to(nan.gamma, lam.shape + nan.gamma.shape)
-        return BesselWeights(nan.n, rows.copy(), rows.copy(), rows.copy(), nan.harmonics,
-                             converged.reshape(lam.shape))
-    N = int(need.max())
-    kept = need[live] >= 0
-    part = _assemble(g0[:, kept], dg[:, kept], gn[:, kept], N, True)
-    fields = []
-    for values in (part.gamma, part.dgamma, part.g):
-        out = np.full((flat.size, 2 * N + 1), np.nan + 0j)
-        out[live[kept]] = values.T
-        fields.append(out.reshape(lam.shape + (2 * N + 1,)))
-    gamma, dgamma, g = fields
-    return BesselWeights(part.n, gamma, dgamma, g, harmonics=N,
-                         converged=converged.reshape(lam.shape))
+    column = {int(e): c for c, e in enumerate(live)}
+    out = []
+    for e, n_e in enumerate(need.tolist()):
+        if n_e < 0:
+            out.append((n_e, empty, empty, empty))
+            continue
+        c = column[e]
+        tabs = [t[:n_e + 1, c].copy() for t in (g0, dg, gn)]
+        for t in tabs:
+            t.setflags(write=False)
+        out.append((n_e, *tabs))
+    return out
 
 
 def _weight_table(
