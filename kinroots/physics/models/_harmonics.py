@@ -232,15 +232,16 @@ def bessel_weights_array(lam: np.ndarray, tol: float) -> BesselWeights:
     if keys.size > ROW_CACHE_CALL:
         rows = _weight_rows(keys, tol)
     else:
-        rows = [_ROWS.get((x, tol)) for x in keys.tolist()]
-        todo = [j for j, r in enumerate(rows) if r is None]
+        found = [_ROWS.get((x, tol)) for x in keys.tolist()]
+        todo = [j for j, r in enumerate(found) if r is None]
         if todo:
             for j, r in zip(todo, _weight_rows(keys[todo], tol), strict=True):
-                rows[j] = r
+                found[j] = r
                 if np.isfinite(keys[j]):
                     _ROWS[(complex(keys[j]), tol)] = r
             while len(_ROWS) > ROW_CACHE:
                 del _ROWS[next(iter(_ROWS))]
+        rows = [r for r in found if r is not None]
     need = np.array([r[0] for r in rows], dtype=int)
     converged = need[inverse.ravel()] >= 0
     if not converged.any():
