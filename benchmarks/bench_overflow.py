@@ -14,6 +14,10 @@ Plain script (not collected by pytest): ``.venv/bin/python benchmarks/bench_over
    route ``Dispersion(ω)`` takes below a harmonic) against the plain determinant of the
    same summed tensor at the same points (noise there, but the cost the route replaces),
    1000 ω per call below the proton harmonics of the hydrogen window.
+4. The same for Krook species: the overflow-free χ_s = N_s/Q_s builder against the plain
+   ratio, the survey's F = (Π Q_s) D as mantissas (``log2_offset`` set) against plain F,
+   unmagnetized and magnetized; and the spatial problem's D(k), dD/dk
+   (``dispersion_in_k_scaled`` against ``dispersion_in_k``), at finite points.
 Ratios are meaningful only within one run; on a loaded machine they move by tens of
 percent.
 """
@@ -22,14 +26,21 @@ from __future__ import annotations
 
 import time
 import timeit
+import tomllib
 from pathlib import Path
 
 import numpy as np
 
-from kinroots.io.case import load_case
-from kinroots.physics.dispersion import Dispersion, _det_and_derivative
+from kinroots.io.case import load_case, parse_case
+from kinroots.physics.dispersion import (
+    Dispersion,
+    _det_and_derivative,
+    dispersion_in_k,
+    dispersion_in_k_scaled,
+)
+from kinroots.physics.models import krook
 from kinroots.physics.plasma import M_ELECTRON, M_PROTON, Plasma, Species
-from kinroots.study.problem import survey
+from kinroots.study.problem import function_at, spatial_roots, survey
 
 FLOOR = 1.5
 N_OMEGA = 1000
@@ -130,10 +141,97 @@ def resonant_overhead() -> float:
     return ratio
 
 
+def _with_nu(case, **nus: float):
+    raw = dict(case.raw)
+    species = [dict(s) for s in raw["species"]]
+    for s in species:
+        if s["name"] in nus:
+            s["collision_frequency"] = nus[s["name"]] * case.units.omega_unit
+    raw["species"] = species
+    return parse_case(raw, "bench")
+
+
+def krook_and_spatial() -> float:
+    print("\n4. Krook species and the spatial problem")
+    hot = _with_nu(load_case(_HOT_IONS), **{"H+": 0.01, "e": 0.001})
+    oblique_text = _OBLIQUE.read_text().replace('"electromagnetic"', '"electrostatic"')
+    raw = tomllib.loads(oblique_text)
+    oblique = _with_nu(parse_case(raw, "oblique es"), **{"H+": 0.05})
+    argon = load_case(Path(__file__).resolve().parents[1] / "cases" / "argon_ion_acoustic.toml")
+    print(f"{'survey (used to be refused)':34s} {'evals':>7s} {'time [s]':>9s} {'roots':>6s} "
+          f"| {'narrow evals':>12s} {'time [s]':>9s} {'roots':>6s}")
+    rows = [("Krook ES hot ions, |F| 1e312", lambda b: survey(hot, 0.5, box=b),
+             (-0.1, 0.1, -0.45, 0.05), (-0.1, 0.1, -0.2, 0.05)),
+            ("Krook ES oblique B, |F| 1e446", lambda b: survey(oblique, 0.5, box=b),
+             (0.2, 0.9, -8.0, 0.2), (0.2, 0.9, -3.0, 0.2)),
+            ("spatial argon k box, |D| 1e618", lambda b: spatial_roots(argon, 0.3, b),
+             (0.02, 0.0202, 0.0, 0.05), (0.02, 0.0202, 0.0, 0.022))]
+    for name, run, wide, narrow in rows:
+        t0 = time.perf_counter()
+        res = run(wide)
+        t1 = time.perf_counter()
+        ref = run(narrow)
+        t2 = time.perf_counter()
+        print(f"{name:34s} {res.evaluations:7d} {t1 - t0:9.2f} {len(res.roots):6d} | "
+              f"{ref.evaluations:12d} {t2 - t1:9.2f} {len(ref.roots):6d}")
+    rng = np.random.default_rng(1)
+    print(f"\n{'overhead where double is finite':40s} {'plain [ms]':>11s} {'new [ms]':>9s} "
+          f"{'ratio':>6s}")
+    worst = 0.0
+
+    def row(name: str, plain, new) -> None:
+        nonlocal worst
+        # interleaved (plain, new, plain, …) so that load changes hit both alike
+        times: list[list[float]] = [[], []]
+        for _ in range(15):
+            for j, fn in enumerate((plain, new)):
+                times[j].append(best(fn, number=3, repeat=1))
+        t_plain, t_new = min(times[0]), min(times[1])
+        worst = max(worst, t_new / t_plain)
+        print(f"{name:40s} {t_plain * 1e3:11.3f} {t_new * 1e3:9.3f} {t_new / t_plain:6.2f}")
+
+    ion = hot.plasma.species[1]
+    f = function_at(hot, 0.5)
+    d = f.dispersion
+    om = (rng.uniform(-0.1, 0.1, N_OMEGA) + 1j * rng.uniform(-0.2, 0.05, N_OMEGA)) * d.omega_ref
+    kw = dict(k_par=d.k_par, k_perp=d.k_perp)
+
+    def old_chi():
+        n, q, dn, dq = krook.unmagnetized_parts(om, ion, dk=False, **kw)
+        return n / q, (dn * q - n * dq) / (q * q)
+
+    row("Krook chi_s (N/Q from mantissas)", old_chi,
+        lambda: krook.susceptibility(om, ion, **kw))
+    w = om / d.omega_ref
+
+    def offset(fn, pts, value):
+        def call():
+            fn.dispersion.log2_offset = value
+            try:
+                return fn(pts)
+            finally:
+                fn.dispersion.log2_offset = 0
+        return call
+
+    row("survey F, unmagnetized (log2_offset set)", offset(f, w, 0), offset(f, w, 64))
+    fo = function_at(oblique, 0.5)
+    wo = (rng.uniform(0.2, 0.9, N_OMEGA) + 1j * rng.uniform(-3.0, 0.2, N_OMEGA))
+    row("survey F, magnetized (log2_offset set)", offset(fo, wo, 0), offset(fo, wo, 64))
+    ks = (rng.uniform(0.02, 0.6, N_OMEGA) + 1j * rng.uniform(-0.05, 0.02, N_OMEGA))
+    ks = ks / argon.units.length_unit
+    kw2 = dict(omega=0.3 * argon.units.omega_unit, k=ks, angle_deg=0.0, model="es",
+               omega_ref=argon.units.omega_unit)
+    row("spatial D(k), dD/dk (mantissas)", lambda: dispersion_in_k(argon.plasma, **kw2),
+        lambda: dispersion_in_k_scaled(argon.plasma, **kw2))
+    print(f"worst ratio {worst:.2f} (floor {FLOOR}): {'met' if worst <= FLOOR else 'NOT met'}")
+    return worst
+
+
 def main() -> None:
     surveys()
     overhead()
     resonant_overhead()
+    krook_and_spatial()
 
 
 if __name__ == "__main__":

@@ -198,3 +198,15 @@ def test_magnetized_split_equals_plain_where_finite(oblique_es) -> None:
     m, dm, p = krook_dispersion.magnetized_split_dispersion(om, oblique_es.plasma.species, **kw)
     np.testing.assert_allclose(m * 2.0**p, plain, rtol=1e-14)
     np.testing.assert_allclose(dm * 2.0**p, dplain, rtol=1e-14)
+
+
+def test_unmagnetized_split_equals_plain_where_finite(hot_ions) -> None:
+    case = _with_nu(hot_ions, **{"H+": 0.01, "e": 0.001})
+    disp = function_at(case, 0.5).dispersion
+    om = np.array([0.05 - 0.1j, 0.02 + 0.01j, -0.07 - 0.15j]) * disp.omega_ref
+    k = disp.k * np.array([1.0, 1.0 + 0.2j, 0.7])
+    kw = dict(k=k, cos_theta=0.6, sin_theta=0.8)
+    plain = krook.scaled_dispersion(om, case.plasma.species, **kw)
+    *split, p = krook.split_dispersion(om, case.plasma.species, **kw)
+    for a, b in zip(plain, split, strict=True):
+        np.testing.assert_allclose(b * 2.0**p, a, rtol=1e-14)

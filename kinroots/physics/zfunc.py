@@ -143,9 +143,15 @@ def binary_exponent(z: np.ndarray) -> np.ndarray:
 def ldexp_complex(z: np.ndarray, p: np.ndarray | int) -> np.ndarray:
     """``z · 2^p`` for complex ``z`` and integer ``p`` (broadcast), exact unless the result
     over- or underflows (:func:`numpy.ldexp` on both parts)."""
-    out = np.empty(np.broadcast_shapes(np.shape(z), np.shape(p)), dtype=complex)
-    out.real = np.ldexp(np.real(z), p)
-    out.imag = np.ldexp(np.imag(z), p)
+    zz = np.asarray(z, dtype=complex)
+    pp = np.asarray(p)
+    if zz.ndim and pp.shape in ((), zz.shape):  # one ldexp on the (re, im) pairs
+        pairs = np.ascontiguousarray(zz).view(np.float64).reshape(zz.shape + (2,))
+        out: np.ndarray = np.ldexp(pairs, pp[..., None] if pp.ndim else pp)
+        return out.view(complex).reshape(zz.shape)
+    out = np.empty(np.broadcast_shapes(zz.shape, pp.shape), dtype=complex)
+    out.real = np.ldexp(zz.real, pp)
+    out.imag = np.ldexp(zz.imag, pp)
     return out
 
 

@@ -429,7 +429,8 @@ class NormalizedDispersion:
                 om, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
                 B=disp.plasma.B, tol=disp.harmonic_tol)
         f, fw, _, p = krook.split_dispersion(om, disp.plasma.species, k=disp.k,
-                                             cos_theta=disp._cos, sin_theta=disp._sin)
+                                             cos_theta=disp._cos, sin_theta=disp._sin,
+                                             dk=False)
         return f, fw, p
 
     def _krook(self, om: np.ndarray, offset: int) -> tuple[np.ndarray, np.ndarray]:
@@ -447,7 +448,7 @@ class NormalizedDispersion:
                 om, disp.plasma.species, k_par=disp.k_par, k_perp=disp.k_perp,
                 B=disp.plasma.B, tol=disp.harmonic_tol)
         f, fw, _ = krook.scaled_dispersion(om, disp.plasma.species, k=disp.k,
-                                           cos_theta=disp._cos, sin_theta=disp._sin)
+                                           cos_theta=disp._cos, sin_theta=disp._sin, dk=False)
         return f, fw
 
     def log2_magnitude(self, omega: np.ndarray) -> np.ndarray:
@@ -838,11 +839,12 @@ class SpatialFunction:
             )
             return f, fk / L
         if self._krook_es:
-            f, _, fk = krook.scaled_dispersion(
+            f, _, fk_or_none = krook.scaled_dispersion(
                 np.asarray(self.omega * units.omega_unit, dtype=complex), plasma.species,
                 k=ks, cos_theta=math.cos(theta), sin_theta=math.sin(theta),
             )
-            return f, fk / L
+            assert fk_or_none is not None
+            return f, fk_or_none / L
         d, dd = dispersion_in_k(
             plasma, omega=self.omega * units.omega_unit, k=ks, angle_deg=self.case.angle_deg,
             model=self.case.model, omega_ref=units.omega_unit,
@@ -869,9 +871,11 @@ class SpatialFunction:
             )
         elif self._krook_es:
             om = np.full(ks.shape, self.omega * units.omega_unit, dtype=complex)
-            f, _, fk, p = krook.split_dispersion(om, plasma.species, k=ks,
-                                                 cos_theta=math.cos(theta),
-                                                 sin_theta=math.sin(theta))
+            f, _, fk_split, p = krook.split_dispersion(om, plasma.species, k=ks,
+                                                       cos_theta=math.cos(theta),
+                                                       sin_theta=math.sin(theta))
+            assert fk_split is not None
+            fk = fk_split
         else:
             f, fk, p = dispersion_in_k_scaled(
                 plasma, omega=self.omega * units.omega_unit, k=ks,

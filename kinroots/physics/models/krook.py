@@ -272,10 +272,15 @@ def split_parts(
     with landau_shift(0), np.errstate(all="ignore"):
         plain = [np.asarray(x, dtype=complex).ravel() for x in evaluate(None)]
     with np.errstate(all="ignore"):
-        p = np.maximum(binary_exponent(plain[0]), binary_exponent(plain[1]))
-        p = np.where(p == -1100, 0, p)
-        out = [ldexp_complex(x, -p) for x in plain]
-        bad = ~np.all([np.isfinite(x) for x in out], axis=0)
+        n, q = plain[0], plain[1]
+        big = np.maximum(np.maximum(np.abs(n.real), np.abs(n.imag)),
+                         np.maximum(np.abs(q.real), np.abs(q.imag)))
+        ok = np.isfinite(big) & (big > 0)
+        # |p| ≤ 1000 keeps 2^−p a normal number, so the products below are exact
+        p = np.clip(np.where(ok, np.frexp(np.where(ok, big, 1.0))[1], 0), -1000, 1000)
+        scale = np.ldexp(1.0, -p)
+        out = [x * scale for x in plain]
+        bad = ~(ok | (big == 0)) | ~np.isfinite(sum(out[2:], out[0] + out[1]))
         if not bad.any():
             return out, p
         idx = np.flatnonzero(bad)
@@ -392,7 +397,8 @@ def scaled_dispersion(
     k: complex | np.ndarray,
     cos_theta: float,
     sin_theta: float,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    dk: bool = True,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
     """Entire electrostatic dispersion function F = (Π_s Q_s)(1 + Σ_s χ_s) with collisions.
 
     Parameters
@@ -409,6 +415,7 @@ def scaled_dispersion(
     Returns
     -------
     F, dF_domega, dF_dk : ndarray of complex
+        dF_dk is None unless ``dk``.
 
     Notes
     -----
@@ -420,12 +427,12 @@ def scaled_dispersion(
     """
     om, kk = np.broadcast_arrays(np.asarray(omega, dtype=complex), np.asarray(k, dtype=complex))
     with np.errstate(all="ignore"):
-        parts = [unmagnetized_parts(om, s, k_par=kk * cos_theta, k_perp=kk * sin_theta)
-                 for s in species]
+        parts = [unmagnetized_parts(om, s, k_par=kk * cos_theta, k_perp=kk * sin_theta,
+                                    dk=dk) for s in species]
         f, fw = product_sum([x[1] for x in parts], [x[3] for x in parts],
                             [x[0] for x in parts], [x[2] for x in parts], om)
-        _, fk = product_sum([x[1] for x in parts], [x[5] for x in parts],
-                            [x[0] for x in parts], [x[4] for x in parts], om)
+        fk = product_sum([x[1] for x in parts], [x[5] for x in parts],
+                         [x[0] for x in parts], [x[4] for x in parts], om)[1] if dk else None
     return f, fw, fk
 
 
@@ -437,14 +444,15 @@ def split_dispersion(
     k: complex | np.ndarray,
     cos_theta: float,
     sin_theta: float,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    dk: bool = True,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, np.ndarray]:
     """F, ∂F/∂ω, ∂F/∂k of :func:`scaled_dispersion` as mantissas times 2^P, never overflowing.
 
     Returns
     -------
     F_m, dF_domega_m, dF_dk_m : ndarray of complex
         F = F_m·2^P, and the same P for both derivatives (so ratios such as F′/F are
-        those of the mantissas).
+        those of the mantissas); dF_dk_m is None unless ``dk``.
     P : ndarray of int
         The binary exponent per point, Σ_s p_s.
 
@@ -463,23 +471,25 @@ def split_dispersion(
         for s in species:
             def parts(idx: np.ndarray | None, s: Species = s) -> tuple[np.ndarray, ...]:
                 o, kv = (ofl, kfl) if idx is None else (ofl[idx], kfl[idx])
-                return unmagnetized_parts(o, s, k_par=kv * cos_theta, k_perp=kv * sin_theta)
+                return unmagnetized_parts(o, s, k_par=kv * cos_theta, k_perp=kv * sin_theta,
+                                          dk=dk)
 
             def bits(idx: np.ndarray, s: Species = s) -> np.ndarray:
                 return landau_bits(ofl[idx], s, k_par=kfl[idx] * cos_theta,
                                    k_perp=kfl[idx] * sin_theta)
 
-            (n, q, n_w, q_w, n_k, q_k), p = split_parts(parts, bits, ofl.size)
+            (n, q, n_w, q_w, *n_q_k), p = split_parts(parts, bits, ofl.size)
             ns.append(n)
             qs.append(q)
             dnw.append(n_w)
             dqw.append(q_w)
-            dnk.append(n_k)
-            dqk.append(q_k)
+            if dk:
+                dnk.append(n_q_k[0])
+                dqk.append(n_q_k[1])
             total += p
         f, fw = product_sum(qs, dqw, ns, dnw, ofl)
-        _, fk = product_sum(qs, dqk, ns, dnk, ofl)
-    return f.reshape(shape), fw.reshape(shape), fk.reshape(shape), total.reshape(shape)
+        fk = product_sum(qs, dqk, ns, dnk, ofl)[1].reshape(shape) if dk else None
+    return f.reshape(shape), fw.reshape(shape), fk, total.reshape(shape)
 
 
 # ------------------------------------------------------------------ magnetized (B ≠ 0)
