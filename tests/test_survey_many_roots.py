@@ -210,8 +210,8 @@ def test_harmonic_window_surveyed_completely(hydrogen) -> None:
     # below the harmonics the zeros come in families along |Re ζ_n| ≈ |Im ζ_n| (where
     # |exp(−ζ_n²)| takes the values that balance D's terms): hundreds of them
     assert full.count > 200
-    # what it cost: ~80 evaluations per zero today (27,270 for 343); a regression guard
-    assert full.evaluations < 200 * full.count
+    # what it cost: ~50 evaluations per zero today (16,440 for 343); a regression guard
+    assert full.evaluations < 150 * full.count
     # an independent count on eight sub-boxes (cuts between the harmonics and at
     # Im ω = −0.05, each counted on its own boundary) adds up to the window's count
     cuts_re, cuts_im = (0.05, 0.5, 1.5, 2.5, 3.0), (-0.1, -0.05, 0.1)
