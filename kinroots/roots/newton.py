@@ -262,10 +262,10 @@ def newton_starts(
 
     Only starting points: every returned value still goes through :func:`polish`, which
     decides convergence, so this changes the cost of a survey, not its answers.  An
-    element stops when its correction is within a tenth of ``atol + rtol·|z|`` (it keeps
-    the point just evaluated), when f or f' is not finite, when the step would leave
-    ``region`` or when its corrections have failed twice in a row to shrink below 0.9
-    of the one before (no zero near: it keeps its last value).
+    element stops when its correction is within a tenth of ``atol + rtol·|z|`` (after
+    that last step), when f or f' is not finite, when the step would leave ``region``
+    or when its corrections have failed twice in a row to shrink below 0.9 of the one
+    before (no zero near: it keeps its last value).
 
     Returns
     -------
@@ -296,16 +296,17 @@ def newton_starts(
         # near (at a zero of multiplicity m plain Newton contracts by (m − 1)/m)
         slow[idx] = np.where(new_step > 0.9 * step[idx], slow[idx] + 1, 0)
         step[idx] = new_step
-        # converged: stays at the point just evaluated (polish evaluates it again; a
-        # caller that remembers evaluated points pays nothing for that)
-        good &= (slow[idx] < 2) & ~(new_step <= 0.1 * (atol + rtol * np.abs(z[idx])))
+        good &= slow[idx] < 2
         z_new = z[idx] - np.where(good, corr, 0)
         if region is not None:
             x0, x1, y0, y1 = region
             good &= (z_new.real >= x0) & (z_new.real <= x1) & (z_new.imag >= y0) & (
                 z_new.imag <= y1)
         z[idx[good]] = z_new[good]
-        active[idx[~good]] = False
+        # a converged start takes its last step (not evaluated): polish evaluates it,
+        # and the root it reports is then accurate far below the tolerance
+        done = ~good | (new_step <= 0.1 * (atol + rtol * np.abs(z[idx])))
+        active[idx[done]] = False
     return z, step
 
 

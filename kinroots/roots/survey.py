@@ -420,6 +420,15 @@ class _Survey:
             z0 = complex(min(max(z0.real, box[0]), box[1]), min(max(z0.imag, box[2]), box[3]))
             if not np.isfinite(z0):
                 z0 = center
+        if not _BASELINE:
+            # plain Newton first, as for clusters: a start it brings to a tenth of the
+            # tolerance is polished with one more evaluation, and the root reported is
+            # then accurate far below the tolerance (damped Newton from the estimate
+            # stops as soon as its correction is within it)
+            (z1,), (st,) = newton_starts(self.func, np.array([z0]), rtol=self.rtol,
+                                         atol=self.atol, region=self._region(box))
+            if st <= _WANDER * _diameter(box):
+                z0 = complex(z1)
         r = self._polish(z0, box)
         if self._acceptable(r, box):
             # the cell's own boundary winds once around it: that is the verification
