@@ -385,16 +385,9 @@ class NormalizedDispersion:
         disp = self.dispersion
         w_u = disp.omega_ref
         om = np.asarray(omega, dtype=complex)
-        d, dd = self._krook(om * w_u, disp.log2_offset) if self._krook_es else disp(om * w_u)
-        if self.auto_window is not None and not self.__dict__.get("_auto_tried"):
-            bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
-            if bad.any():
-                self.__dict__["_auto_tried"] = True
-                offset, _, _ = _log2_offset(self, self.auto_window)
-                if offset:
-                    disp.log2_offset = offset
-                    d, dd = (self._krook(om * w_u, offset) if self._krook_es
-                             else disp(om * w_u))
+        d, dd = _auto_scaled(
+            self, om, lambda offset: (self._krook(om * w_u, offset) if self._krook_es
+                                      else disp(om * w_u)))
         return d, dd * w_u
 
     @property
@@ -616,6 +609,24 @@ def _log2_offset(f: NormalizedDispersion | SpatialFunction, box: tuple[float, fl
     return offset, "", hi - lo
 
 
+def _auto_scaled(f: NormalizedDispersion | SpatialFunction, z: np.ndarray,
+                 evaluate: Callable[[int], tuple[np.ndarray, np.ndarray]]
+                 ) -> tuple[np.ndarray, np.ndarray]:
+    """``evaluate(f.log2_offset)``; with ``f.auto_window`` set, the first evaluation that
+    is not finite at a finite point sets ``f.log2_offset`` once from log₂|f| on that box
+    (:func:`_log2_offset`) and evaluates again, so every later call sees the same f/2^N."""
+    d, dd = evaluate(f.log2_offset)
+    if f.auto_window is not None and not f.__dict__.get("_auto_tried"):
+        bad = np.isfinite(z) & ~(np.isfinite(d) & np.isfinite(dd))
+        if bad.any():
+            f.__dict__["_auto_tried"] = True
+            offset, _, _ = _log2_offset(f, f.auto_window)
+            if offset:
+                f.log2_offset = offset
+                d, dd = evaluate(offset)
+    return d, dd
+
+
 def _undefined_note(f: NormalizedDispersion | SpatialFunction) -> str:
     """Why D cannot be evaluated on an edge even with the exponent carried apart."""
     plasma = f.case.plasma if isinstance(f, SpatialFunction) else f.dispersion.plasma
@@ -811,16 +822,7 @@ class SpatialFunction:
         # overflow far from the window gives non-finite values, reported by the root layer
         with np.errstate(over="ignore", invalid="ignore"):
             kk = np.asarray(k, dtype=complex)
-            d, dd = self._call(kk, self.log2_offset)
-            if self.auto_window is not None and not self.__dict__.get("_auto_tried"):
-                bad = np.isfinite(kk) & ~(np.isfinite(d) & np.isfinite(dd))
-                if bad.any():
-                    self.__dict__["_auto_tried"] = True
-                    offset, _, _ = _log2_offset(self, self.auto_window)
-                    if offset:
-                        self.log2_offset = offset
-                        d, dd = self._call(kk, offset)
-            return d, dd
+            return _auto_scaled(self, kk, lambda offset: self._call(kk, offset))
 
     def _call(self, k: np.ndarray, offset: int) -> tuple[np.ndarray, np.ndarray]:
         if offset:

@@ -93,23 +93,8 @@ def denominator(
     Q is entire in ω (Z is), equals 1 at ν = 0, and its zeros are the poles of the
     Krook χ_s (e.g. the diffusive pole ω ≈ −i k²T/(mν) for ν ≫ k w).
     """
-    om, kpar, kperp = np.broadcast_arrays(
-        np.asarray(omega, dtype=complex),
-        np.asarray(k_par, dtype=complex),
-        np.asarray(k_perp, dtype=complex),
-    )
-    nu = float(species.collision_frequency)
-    with np.errstate(all="ignore"):
-        kappa = _kappa(species, kpar, kperp)
-        k = np.sqrt(kpar * kpar + kperp * kperp)
-        zeta = (om - kpar * species.drift + 1j * nu) / kappa
-        ms, dms = landau_moments(zeta, order=0)
-        a = 1j * nu / kappa
-        q = 1.0 - a * ms[0]
-        dq_dw = -a * dms[0] / kappa
-        dzeta_dk = -(kpar / k) * species.drift / kappa - zeta / k
-        dq_dk = a * ms[0] / k - a * dms[0] * dzeta_dk
-    return q, dq_dw, dq_dk
+    parts = unmagnetized_parts(omega, species, k_par=k_par, k_perp=k_perp)
+    return parts[1], parts[3], parts[5]
 
 
 def susceptibility(
