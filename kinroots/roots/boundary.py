@@ -255,47 +255,72 @@ class BoundaryCounter:
         wheres: list[complex | None] = [None] * m
         todo = list(range(m))
         while todo:
-            req_i: list[int] = []
-            req_z: list[np.ndarray] = []
-            req_pos: list[np.ndarray] = []
-            for i in todo:
-                z, f, d = zl[i], fl[i], dl[i]
+            # the loops of every p still to resolve, checked together (one flat array)
+            sizes = np.array([zl[i].size for i in todo])
+            start = np.concatenate(([0], np.cumsum(sizes)[:-1]))
+            owner = np.repeat(np.arange(len(todo)), sizes)
+            local = np.arange(owner.size) - start[owner]
+            z = np.concatenate([zl[i] for i in todo])
+            f = np.concatenate([fl[i] for i in todo])
+            d = np.concatenate([dl[i] for i in todo])
+            nxt = np.arange(1, z.size + 1)
+            nxt[start + sizes - 1] = start  # each loop is closed
+            with np.errstate(all="ignore"):
                 bad_pt = ~np.isfinite(f) | ~np.isfinite(d) | (f == 0)
-                if np.any(bad_pt):
-                    wheres[i] = complex(z[bad_pt][0])
-                    notes[i] = (f"f is zero or not finite on the boundary near "
-                                f"{complex(z[bad_pt][0]):.6g}")
-                    continue
-                ok = segment_ok(z, f, d, closed=True)
-                if self._smooth is not None:
-                    if z.size == loop.size:  # nothing inserted yet: the shared loop
-                        ok &= linear0
-                    else:
-                        t = np.flatnonzero(ok)
-                        ok[t] = self._factor_linear(z[t], np.roll(z, -1)[t])
-                if np.all(ok):
-                    w = float(np.sum(np.angle(np.roll(f, -1) / f)) / (2 * math.pi))
+            pairs_z = np.stack([z, z[nxt]], axis=1).ravel()
+            pairs_f = np.stack([f, f[nxt]], axis=1).ravel()
+            pairs_d = np.stack([d, d[nxt]], axis=1).ravel()
+            ok = segment_ok(pairs_z, pairs_f, pairs_d)[::2]
+            if self._smooth is not None:
+                shared = (sizes == loop.size)[owner]  # nothing inserted yet: the first loop
+                ok[shared] &= linear0[local[shared]]
+                t = np.flatnonzero(ok & ~shared)
+                if t.size:  # the loops share most segments: each distinct one once
+                    ends, back = np.unique(np.stack([z[t], z[nxt[t]]], axis=1), axis=0,
+                                           return_inverse=True)
+                    ok[t] = self._factor_linear(ends[:, 0], ends[:, 1])[back.ravel()]
+            with np.errstate(all="ignore"):
+                turn = np.angle(f[nxt] / f)
+            winding = np.bincount(owner, weights=turn, minlength=len(todo)) / (2 * math.pi)
+            n_bad_pt = np.bincount(owner, weights=bad_pt, minlength=len(todo))
+            failing = ~ok
+            n_fail = np.bincount(owner, weights=failing, minlength=len(todo))
+            seg = np.abs(z[nxt] - z)
+            short = np.bincount(owner, weights=failing & (seg <= self.min_len),
+                                minlength=len(todo))
+            split = failing.copy()
+            for j, i in enumerate(todo):
+                if n_bad_pt[j]:
+                    at = complex(z[start[j] + np.flatnonzero(bad_pt[owner == j])[0]])
+                    wheres[i] = at
+                    notes[i] = f"f is zero or not finite on the boundary near {at:.6g}"
+                elif not n_fail[j]:
+                    w = float(winding[j])
                     if abs(w - round(w)) > 0.1:
                         notes[i] = f"phase sum {w:.3f}·2π is not an integer"
                     else:
                         result[i] = round(w)
-                    continue
-                bad = np.flatnonzero(~ok)
-                z1 = np.roll(z, -1)[bad]
-                seg = np.abs(z1 - z[bad])
-                if np.any(seg <= self.min_len) or z.size + bad.size > self.max_points:
-                    where = wheres[i] = complex(0.5 * (z[bad[0]] + z1[0]))
+                elif short[j] or sizes[j] + n_fail[j] > self.max_points:
+                    e = start[j] + np.flatnonzero(failing[owner == j])[0]
+                    where = wheres[i] = complex(0.5 * (z[e] + z[nxt[e]]))
                     notes[i] = (f"boundary unresolved near {where:.6g} (a zero on or next "
                                 "to an edge)")
+                else:
                     continue
-                pieces = self._pieces(z[bad], z1, f[bad], np.roll(f, -1)[bad], d[bad],
-                                      np.roll(d, -1)[bad])
-                req_i.append(i)
-                req_z.append(np.repeat(z[bad], pieces - 1) + np.repeat(z1 - z[bad], pieces - 1)
-                             * _fractions(pieces))
-                req_pos.append(np.repeat(bad + 1, pieces - 1))
-            if not req_i:
+                split[owner == j] = False
+            bad = np.flatnonzero(split)
+            if not bad.size:
                 break
+            pieces = self._pieces(z[bad], z[nxt[bad]], f[bad], f[nxt[bad]], d[bad],
+                                  d[nxt[bad]])
+            new_z = (np.repeat(z[bad], pieces - 1)
+                     + np.repeat(z[nxt[bad]] - z[bad], pieces - 1) * _fractions(pieces))
+            new_owner = np.repeat(owner[bad], pieces - 1)
+            new_pos = np.repeat(local[bad] + 1, pieces - 1)
+            req_j = np.unique(new_owner)
+            req_i = [todo[j] for j in req_j.tolist()]
+            req_z = [new_z[new_owner == j] for j in req_j]
+            req_pos = [new_pos[new_owner == j] for j in req_j]
             for i, zn, pos, (fn, dn) in zip(req_i, req_z, req_pos, evaluate(req_i, req_z),
                                             strict=True):
                 zl[i] = np.insert(zl[i], pos, zn)
