@@ -773,6 +773,12 @@ class ScaledSum:
         self._sign = sign
         #: per column (species and harmonic): the constants of :meth:`resonant_term`
         self._res = np.concatenate(resonant, axis=1)
+        # real k: no column can be picked unless s·Im ω < −√RESONANT_MIN·min|k∥w∥| (then
+        # (Im sζ)² > RESONANT_MIN), a test that spares the tracer's single-ω calls the
+        # (ω, column) array; complex k: 0, always the full test
+        real_k = not (np.any(self._res[3].imag) or np.any(self._res[2].imag))
+        self._gate = (math.sqrt(RESONANT_MIN) * float(np.min(np.abs(self._res[3].real)))
+                      if real_k else 0.0)
         self._c = tuple(np.array(c, dtype=complex) for c in zip(*consts, strict=True))
         k, cth, sth = _frame(kpar, kperp)
         self._frame = (k, cth, sth)
@@ -860,6 +866,8 @@ class ScaledSum:
         ``np.errstate(all="ignore")``.
         """
         w = np.asarray(omega, dtype=complex).reshape(-1, 1)
+        if self._gate > 0 and not np.any(self._sign * w.imag < -self._gate):
+            return np.full(w.shape[0], -1)
         zt = (w - self._nw - self._shift) * self._inv_sa
         x = np.where(zt.imag < 0.0, (zt.imag - zt.real) * (zt.imag + zt.real), -np.inf)
         col = np.argmax(x, axis=1)
