@@ -116,6 +116,8 @@ class _Remembering(CountedFunction):
         self._memory: dict[complex, tuple[complex, complex]] = {}
 
     def __call__(self, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        if _BASELINE:
+            return super().__call__(z)
         z = np.atleast_1d(np.asarray(z, dtype=complex))
         keys = z.tolist()
         known = {k: self._memory[k] for k in keys if k in self._memory}
@@ -286,7 +288,7 @@ class _Survey:
         ex = [complex(self.excluded[i]) for i in self._ex_in(box)]
         first: list[tuple[bool, float]] = []
         vertical = w >= h
-        if n >= 2:
+        if n >= 2 and not _BASELINE:
             center, rho, s = self._moments(box, 3)
             mid = center + rho * s[1] / n
             spread = rho * rho * (s[2] / n - (s[1] / n) ** 2)
