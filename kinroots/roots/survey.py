@@ -554,24 +554,33 @@ class _Survey:
         for _ in range(_CIRCLE_TRIES):
             if not 1e-9 * rho < radius <= room:
                 return None
-            c = circle_contour(self.func, mid, radius, n0=16, n_max=_CIRCLE_POINTS)
-            expected = n + sum((self._ex_contribution(i) or 0)
-                               for i, e in enumerate(self.excluded)
-                               if abs(complex(e) - mid) < radius)
-            if c.winding is None or c.winding < expected:
+            w, expected, got, smaller = self._on_circle(box, n, mid, radius, _CIRCLE_POINTS)
+            if w is None or w < expected:
                 radius = min(4.0 * radius, room) if radius < room else 2 * room
-            elif c.winding > expected:
+            elif w > expected:
                 radius /= 4.0
+            elif got is not None:
+                return got
             else:
-                sc = self._remove_excluded(c.moments(2 * n), box, mid, radius,
-                                           circle=(mid, radius))
-                est2 = mid + radius * hankel_zeros(sc, n)
-                got = self._from_estimates(est2, box, n)
-                if got is not None:
-                    return got
-                near = [abs(z - mid) for z in est2 if abs(z - mid) < radius]
-                radius = min(2.0 * max(near, default=0.0), 0.25 * radius)
+                radius = smaller
         return None
+
+    def _on_circle(self, box: Box, n: int, mid: complex, radius: float, n_max: int
+                   ) -> tuple[int | None, int, list[RootResult] | None, float]:
+        """Winding of f on a circle about ``mid``, the winding n zeros would give (with
+        the excluded points inside), the cell's zeros from the circle's moments when the
+        two agree (None if not found), and a smaller radius to try if they are not."""
+        c = circle_contour(self.func, mid, radius, n0=16, n_max=n_max)
+        expected = n + sum((self._ex_contribution(i) or 0)
+                           for i, e in enumerate(self.excluded)
+                           if abs(complex(e) - mid) < radius)
+        if c.winding != expected:
+            return c.winding, expected, None, radius
+        sc = self._remove_excluded(c.moments(2 * n), box, mid, radius, circle=(mid, radius))
+        est = mid + radius * hankel_zeros(sc, n)
+        near = [abs(z - mid) for z in est if abs(z - mid) < radius]
+        return (c.winding, expected, self._from_estimates(est, box, n),
+                min(2.0 * max(near, default=0.0), 0.25 * radius))
 
     def _cluster_circle_legacy(self, box: Box, n: int, mid: complex, est: np.ndarray,
                                rho: float) -> list[RootResult] | None:
@@ -579,25 +588,17 @@ class _Survey:
         near = [abs(z - mid) for z in est if _inside(complex(z), box)]
         radius = min(max(2.0 * max(near, default=0.0), 1e-3 * rho), rho)
         for _ in range(8):
-            c = circle_contour(self.func, mid, radius, n0=16, n_max=512)
-            expected = n + sum((self._ex_contribution(i) or 0)
-                               for i, e in enumerate(self.excluded)
-                               if abs(complex(e) - mid) < radius)
-            if c.winding is None:
+            w, expected, got, smaller = self._on_circle(box, n, mid, radius, 512)
+            if w is None:
                 radius *= 1.7
-            elif c.winding < expected:
+            elif w < expected:
                 radius *= 4.0
-            elif c.winding > expected:
+            elif w > expected:
                 radius /= 4.0
+            elif got is not None:
+                return got
             else:
-                sc = self._remove_excluded(c.moments(2 * n), box, mid, radius,
-                                           circle=(mid, radius))
-                est2 = mid + radius * hankel_zeros(sc, n)
-                got = self._from_estimates(est2, box, n)
-                if got is not None:
-                    return got
-                near = [abs(z - mid) for z in est2 if abs(z - mid) < radius]
-                radius = min(2.0 * max(near, default=0.0), 0.25 * radius)
+                radius = smaller
                 if radius < 1e-9 * rho:
                     return None
             if radius > 2.0 * rho:
