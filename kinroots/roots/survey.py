@@ -236,28 +236,21 @@ class _Survey:
                     "the window's boundary before its zeros could be counted")
                 return None
             names = ("bottom", "right", "top", "left")
-            noisy = [i for i in bad if status[i].noisy]
-            if noisy:
-                for i in noisy:
+            for flag, what, why, where_ok in (
+                ("noisy", "rounding noise", "its values between close samples contradict "
+                 "f'/f: precision lost, e.g. by cancellation", "is accurate"),
+                ("nonfinite", "not finite", "it overflows or is undefined there",
+                 "can be evaluated"),
+            ):
+                hit = [i for i in bad if getattr(status[i], flag)]
+                for i in hit:
                     where = ", ".join(f"{z:.6g}" for z in status[i].trouble[:3])
                     self.notes.append(
-                        f"f is rounding noise on the {names[i]} edge near {where} (its "
-                        "values between close samples contradict f'/f: precision lost, "
-                        "e.g. by cancellation): the box cannot be surveyed; choose one "
-                        "that stays where f is accurate")
-                self.box = box
-                return None
-            overflow = [i for i in bad if status[i].nonfinite]
-            if overflow:
-                for i in overflow:
-                    where = ", ".join(f"{z:.6g}" for z in status[i].trouble[:3])
-                    self.notes.append(
-                        f"f is not finite on the {names[i]} edge near {where} (it overflows "
-                        "or is undefined there): the box cannot be surveyed; choose one "
-                        "that stays where f can be evaluated"
-                    )
-                self.box = box
-                return None
+                        f"f is {what} on the {names[i]} edge near {where} ({why}): the box "
+                        f"cannot be surveyed; choose one that stays where f {where_ok}")
+                if hit:
+                    self.box = box
+                    return None
             if attempt == 3:
                 break
             delta = 10.0 ** (attempt - 4) * self.diam0
