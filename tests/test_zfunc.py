@@ -320,3 +320,41 @@ def test_taylor_table_agrees_with_its_trapezoid_source() -> None:
     with np.errstate(all="ignore"):
         trap = zfunc._f_trapezoid(s)
     assert np.max(np.abs(zfunc._f_table(s) - trap) / np.abs(trap)) < 3e-15
+
+
+def test_scalar_series_term_counts_against_mpmath() -> None:
+    # Source: mpmath erfc (DLMF 7.2.3) at 30 digits plus 3 per decade of |ζ| (exp(-ζ²)
+    # erfc(-iζ) loses about 2 digits per decade), F = 1 + ζZ (Fried & Conte 1961); series
+    # coefficients (2n-1)!! of DLMF 7.12.1. The one-point path sums, for |ζ| in [n, n + 1),
+    # the terms the rule of _series_terms keeps at |ζ| = n: F must keep its rounding-level
+    # accuracy just above every integer n (the tightest point of each count), in both
+    # half-planes (below: relative to the larger of F(-ζ) and the Landau term, as in
+    # test_middle_region_z_prime_against_mpmath).
+    rows = zfunc._SERIES_ROWS
+    coef = zfunc._SERIES_COEF
+    for n in range(8, zfunc._SERIES_ROWS_END + 1):
+        count = len(rows[n][1]) + 1
+        u = 0.5 / n**2
+        # the first omitted term is below 1e-17 of the first, and the last kept one is not
+        # (the count is no larger than the rule needs)
+        if count < zfunc._N_SERIES:
+            assert coef[count] * u ** (count + 1) < 1e-17 * u, n
+        assert count == 1 or coef[count - 1] * u**count >= 1e-17 * u, n
+    radii = [n * (1.0 + 1e-13) for n in range(8, 64)] + [100.0, 200.5, 1023.9, 1024.0, 1e6]
+    angles = [0.0, 1e-9, 0.1, 0.25 * math.pi, 0.5 * math.pi, 0.75 * math.pi, math.pi - 0.1,
+              math.pi, -0.01, -0.1, -0.25 * math.pi + 0.05, -0.5 * math.pi + 1.4, -3.0]
+    worst = 0.0
+    for r in radii:
+        for a in angles:
+            zeta = r * complex(math.cos(a), math.sin(a))
+            if zeta.imag**2 - zeta.real**2 > 600.0:  # beyond the Landau term's range
+                continue
+            with mp.workdps(30 + 3 * int(math.log10(r))):
+                t = mp.mpc(zeta)
+                e = 2j * mp.sqrt(mp.pi) * t * mp.exp(-t * t)
+                f_ref = 1 + t * 1j * mp.sqrt(mp.pi) * mp.exp(-t * t) * mp.erfc(-1j * t)
+                scale = abs(f_ref) if a >= 0.0 else max(abs(f_ref - e), abs(e))
+                err = abs(mp.mpc(zfunc.z_and_f_scalar(zeta)[1]) - f_ref) / scale
+            worst = max(worst, float(err))
+            assert err < 1e-15, (zeta, float(err))
+    assert worst > 0.0

@@ -261,6 +261,24 @@ def _series_terms(u_max: float) -> int:
     return _N_SERIES
 
 
+def _series_row(count: int) -> tuple[float, tuple[float, ...]]:
+    """Horner data of the first ``count`` terms of the series of :func:`_f_series`: the
+    highest coefficient, then the others down to (2·1 − 1)!! = 1."""
+    return _SERIES_COEF[count - 1], _SERIES_COEF[count - 2 :: -1]
+
+
+#: |s| from which :data:`_SERIES_ROWS` holds one last entry (4 terms there).
+_SERIES_ROWS_END = 1024
+#: Horner data (:func:`_series_row`) of the one-point series for |s| in [n, n + 1),
+#: n < _SERIES_ROWS_END (rows below _R_SERIES unused), then for |s| ≥ _SERIES_ROWS_END:
+#: the count :func:`_series_terms` gives at the smallest |s| of the interval, which is
+#: enough in all of it (the count never grows with |s|): 20 terms at |s| = 8, 8 at 30,
+#: 5 at 200.
+_SERIES_ROWS = tuple(
+    _series_row(_series_terms(0.5 / max(float(n), _R_SERIES) ** 2))
+    for n in range(_SERIES_ROWS_END + 1))
+
+
 def _f_trapezoid(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
     r"""F(s) = 1 + sZ(s) by the trapezoidal rule with pole correction, ``Im s ≥ 0``.
 
@@ -571,8 +589,9 @@ def z_and_f_scalar(zeta: complex) -> tuple[complex, complex]:
         if r >= _R_SERIES:
             inv = 1.0 / s
             u = 0.5 * inv * inv
-            acc: complex = _SERIES_COEF[-1]
-            for c in _SERIES_COEF[-2::-1]:
+            acc: complex
+            acc, rest = _SERIES_ROWS[int(r) if r < _SERIES_ROWS_END else -1]
+            for c in rest:
                 acc = acc * u + c
             f = -u * acc
         else:
