@@ -14,7 +14,7 @@ from test_overflow_survey import _stix_d  # sibling test module (rootdir import)
 
 from kinroots.io.case import load_case
 from kinroots.roots import find_roots
-from kinroots.roots.survey import noise_error
+from kinroots.roots.survey import hermite_noise_error, noise_error
 from kinroots.study.problem import function_at, survey
 from kinroots.study.rows import relative_error
 
@@ -339,6 +339,84 @@ def test_noise_error_of_a_zero() -> None:
 
     err = noise_error(rough, complex(math.pi), 1e-4)
     assert 1e-9 < err < 3e-8
+
+
+def _smooth(z):
+    return np.sin(z) * np.exp(z), (np.cos(z) + np.sin(z)) * np.exp(z)
+
+
+def test_two_probe_noise_error_against_the_nine_point_one() -> None:
+    # analytic f: what remains is the trapezoid rule's error |f'''|h³/12/|f'|, here
+    # 2h³/12 (f' = (cos z + sin z)e^z, f''' = 2(cos z − sin z)e^z: ratio 2 at π)
+    z0 = complex(math.pi)
+    assert hermite_noise_error(_smooth, z0, 1e-4) == pytest.approx(2e-12 / 12, rel=1e-3)
+    assert noise_error(_smooth, z0, 1e-4) < 1e-13
+
+    # true rounding noise: f formed as (f + B) − B with |B| = 1e8|f'| cancels about
+    # eps·1e8 ≈ 2e-8 of |f'| (B analytic, so the exact difference is f)
+    def cancelled(z):
+        v, d = _smooth(z)
+        big = 1e8 * np.exp(z) * (2 + np.cos(z))
+        dbig = 1e8 * np.exp(z) * (2 + np.cos(z) - np.sin(z))
+        return (v + big) - big, (d + dbig) - dbig
+
+    for h in (1e-4, 1e-5):
+        e9 = noise_error(cancelled, z0, h)
+        e2 = hermite_noise_error(cancelled, z0, h)
+        assert 1e-9 < e9 < 1e-7 and 1e-9 < e2 < 1e-7, (h, e9, e2)
+        assert 0.1 < e2 / e9 < 10, (h, e9, e2)
+
+
+def test_two_probe_noise_error_takes_newton_iterates_as_probes() -> None:
+    # the last Newton iterates toward a zero are probes for free: one fresh evaluation
+    calls = []
+
+    def counted(z):
+        calls.append(len(z))
+        return _smooth(z)
+
+    zs = [complex(math.pi) + 1e-3]
+    for _ in range(4):
+        v, d = _smooth(np.array([zs[-1]]))
+        zs.append(zs[-1] - complex(v[0] / d[0]))
+    pts = np.array(zs)
+    v, d = _smooth(pts)
+    err = hermite_noise_error(counted, zs[-1], 1e-3, known=(pts, v, d))
+    assert calls == [1]  # at z + h, beside the known iterates
+    assert err == pytest.approx(2 * (1e-3) ** 3 / 12, rel=1e-2)
+    calls.clear()
+    # beside its zero and within ~1e4 ulps of it a point is not a probe: two fresh ones
+    err = hermite_noise_error(counted, zs[-1], 2e-3, known=(pts[-2:], v[-2:], d[-2:]))
+    assert calls == [2]
+    assert err == pytest.approx(2 * (2e-3) ** 3 / 12, rel=1e-2)
+
+
+def test_survey_flags_the_zero_where_f_carries_noise() -> None:
+    # f = sin(z)·e^z with a rough term of known size A = 1e-7·|f'(π)| added near z = π
+    # only (it varies on the scale 1e-5, far slower than Newton's last steps, so Newton
+    # converges, to a point within about 1e-7 of π); its zeros −π and 0 are clean
+    amp = 1e-7 * math.exp(math.pi)
+
+    def noisy(z):
+        v, d = _smooth(z)
+        near = np.abs(z - math.pi) < 0.5
+        rough = amp * (np.sin(1e5 * z.real) + 1j * np.cos(1.3e5 * z.real))
+        return v + np.where(near, rough, 0), d
+
+    box = (-4.0, 4.0, -1.0, 1.0)
+    clean = find_roots(_smooth, box, rtol=1e-10)
+    res = find_roots(noisy, box, rtol=1e-10)
+    assert clean.complete and res.complete and res.count == clean.count == 3
+    assert all(r.noise_error == 0 for r in clean.roots)
+    for r in res.roots:
+        assert (r.noise_error > 0) == (abs(r.value - math.pi) < 0.1), r
+    (flagged,) = [r for r in res.roots if r.noise_error > 0]
+    assert "rounding noise" in flagged.reason
+    # the size: about A/|f'| (the root moved by up to that), as the nine-point estimate
+    assert abs(flagged.value - math.pi) < 3e-7
+    assert 1e-8 < flagged.noise_error < 3e-7
+    e9 = noise_error(noisy, flagged.value, 1e-4)
+    assert 0.1 < flagged.noise_error / e9 < 10, (flagged.noise_error, e9)
 
 
 def test_roots_where_d_is_noise_carry_their_accuracy(core_halo) -> None:

@@ -79,7 +79,7 @@ class RootResult:
         to extrapolate.
     noise_error : float
         Absolute uncertainty of ``value`` from rounding noise in f, measured around it by
-        the survey (:func:`kinroots.roots.survey.noise_error`); 0 where f is smooth on the
+        the survey (:func:`kinroots.roots.survey.hermite_noise_error`); 0 where f is smooth on the
         scale of the tolerance.  When it exceeds the stopping test's tolerance the root is
         no more accurate than this (``reason`` says so).
     """

@@ -62,7 +62,7 @@ from kinroots.roots.result import (
     SurveyResult,
 )
 
-__all__ = ["find_roots", "noise_error"]
+__all__ = ["find_roots", "hermite_noise_error", "noise_error"]
 
 _N_INIT_OUTER = 8  # initial intervals per outer edge
 _N_INIT_LINE = 6  # initial intervals per subdivision line
@@ -131,6 +131,12 @@ class _Remembering(CountedFunction):
             known.update(new)
         return (np.array([known[k][0] for k in keys], dtype=complex),
                 np.array([known[k][1] for k in keys], dtype=complex))
+
+    def remembered(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """The points remembered, f and f' there (arrays)."""
+        pts = np.array(list(self._memory), dtype=complex)
+        vals = np.array(list(self._memory.values()), dtype=complex).reshape(-1, 2)
+        return pts, vals[:, 0], vals[:, 1]
 
     def _remember(self, new: dict[complex, tuple[complex, complex]]) -> None:
         if len(self._memory) + len(new) > _MEMORY:
@@ -671,18 +677,26 @@ class _Survey:
     def _out_of_budget(self) -> bool:
         return self.sampler.budget_exhausted or self.func.evaluations > self.max_evaluations
 
-    def _noise_checked(self, r: RootResult, roots: list[RootResult]) -> RootResult:
-        """``r`` with its :func:`noise_error` (simple roots), and a reason when that
-        exceeds the stopping test's tolerance."""
+    def _noise_checked(self, r: RootResult, roots: list[RootResult],
+                       seen: tuple[np.ndarray, np.ndarray, np.ndarray]) -> RootResult:
+        """``r`` with its :func:`hermite_noise_error` (simple roots), and a reason when
+        that exceeds the stopping test's tolerance.  ``seen``: the points evaluated so
+        far, f and f' there (Newton's last iterates serve as probes)."""
         if r.multiplicity != 1:
             return r
         near = [abs(r.value - q.value) for q in roots if q is not r]
         near += [abs(r.value - complex(e)) for e in self.excluded]
-        # probes where the second-order part of f is about the tolerance: third-order
-        # terms are negligible in noise_error, and noise far above it stands out
+        # probes where the second-order part of f is about the tolerance: the third-
+        # order terms are then far below it, and noise far above it stands out
         tol = self._tol(r.value)
         h = math.sqrt(tol * min([self.diam0] + near))
-        err = noise_error(self.func, r.value, h)
+        if _BASELINE:
+            err = noise_error(self.func, r.value, h)
+        else:
+            pts, fv, dv = seen
+            close = np.flatnonzero(np.abs(pts - r.value) <= h)
+            err = hermite_noise_error(self.func, r.value, h,
+                                      known=(pts[close], fv[close], dv[close]))
         if err <= _NOISE_FACTOR * tol:
             return r
         return replace(r, noise_error=err, reason=(
@@ -712,7 +726,8 @@ class _Survey:
                                    reason="duplicate of another cell's zero"))
                 continue
             distinct.append(r)
-        good = [self._noise_checked(r, good) for r in distinct]
+        seen = self.func.remembered()
+        good = [self._noise_checked(r, good, seen) for r in distinct]
         found = sum(r.multiplicity for r in good)
         return SurveyResult(
             roots=good + bad,
@@ -745,6 +760,79 @@ def noise_error(f: AnalyticFunction, z: complex, h: float) -> float:
         r = fv[1:] - fv[0] - dv[0] * (pts[1:] - z)
         noise = float(np.max(np.abs(r[4:] - 0.01 * r[:4])))
         slope = abs(complex(dv[0]))
+    if not (math.isfinite(noise) and slope > 0):
+        return math.inf
+    return noise / slope
+
+
+#: A point nearer a root than this many units in the last place of |z| is not a probe
+#: of :func:`hermite_noise_error`: rounding of f there may be shared with f(z).
+_PROBE_ULPS = 1e4
+#: Probes :func:`hermite_noise_error` wants (fresh ones complete the known ones).
+_PROBES = 2
+
+
+def hermite_noise_error(f: AnalyticFunction, z: complex, h: float, *,
+                        known: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
+                        ) -> float:
+    """Uncertainty of a simple zero ``z`` of f caused by rounding noise in f, from few
+    evaluations.
+
+    At a probe p near z, f(p) − f(z) − (f'(p) + f'(z))(p − z)/2 is the error of the
+    trapezoidal rule for the integral of f' from z to p: −f'''(ξ)(p − z)³/12 for an
+    analytic f (common practice), far below the tolerance at |p − z| ≤ h when h makes
+    the second-order part about that tolerance.  Rounding noise in f or f' adds to it
+    at full size.  Divided by |f'(z)| it is what that noise does to the zero (first-
+    order perturbation of a simple zero, as in :func:`noise_error`, which needs eight
+    probes where this needs two).
+
+    Parameters
+    ----------
+    f : callable
+        ``f(z) -> (f(z), f'(z))`` for a 1-D complex array (f(z) itself is evaluated
+        unless ``known`` holds it).
+    z : complex
+        The zero.
+    h : float
+        Largest distance of a probe.
+    known : tuple of ndarray, optional
+        Points already evaluated (e.g. Newton's last iterates toward z), f and f' there.
+        Those within h of z and farther than 1e4 units in the last place of |z| (the
+        rounding of closer points may be shared with f(z)) serve as probes, beside a
+        fresh one at z + h (and one at z + ih when none is known).
+
+    Returns
+    -------
+    float
+        The largest estimate over the probes (inf where f or f' is not finite).
+    """
+    pts = np.zeros(0, complex)
+    fv = dv = pts
+    fz: complex | None = None
+    dz = 0j
+    if known is not None:
+        kp, kf, kd = (np.asarray(a, dtype=complex).ravel() for a in known)
+        at = np.flatnonzero(kp == z)
+        if at.size:
+            fz, dz = complex(kf[at[0]]), complex(kd[at[0]])
+        dist = np.abs(kp - z)
+        use = (dist <= h) & (dist > _PROBE_ULPS * np.spacing(max(abs(z), 1e-300)))
+        pts, fv, dv = kp[use], kf[use], kd[use]
+    # one fresh probe at distance h always: close points see noise that varies on a
+    # longer scale only in part (a Newton iterate may lie 1e-10 from z)
+    fresh = [z + h * d for d in (1, 1j)][: max(_PROBES - pts.size, 1)]
+    ask = ([] if fz is not None else [z]) + fresh
+    if ask:
+        af, ad = f(np.array(ask, dtype=complex))
+        if fz is None:
+            fz, dz = complex(af[0]), complex(ad[0])
+            af, ad = af[1:], ad[1:]
+        pts = np.concatenate((pts, np.array(fresh, dtype=complex)))
+        fv, dv = np.concatenate((fv, af)), np.concatenate((dv, ad))
+    with np.errstate(all="ignore"):
+        rem = fv - fz - 0.5 * (dv + dz) * (pts - z)
+        noise = float(np.max(np.abs(rem)))
+        slope = abs(dz)
     if not (math.isfinite(noise) and slope > 0):
         return math.inf
     return noise / slope
