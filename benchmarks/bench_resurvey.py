@@ -8,8 +8,9 @@ Printed: wall time of both (min over ``REPEAT`` runs) and their ratio, dispersio
 evaluations per k of both (deterministic), how they split (surveys, boundary counts,
 tracing), the points verified by a count, and the roots lost: traced points of the
 tracing-alone run that are missing from the default run's table (must be 0).  The same
-rows for the counts without their smooth factor (``BoundaryCounter.smooth_degree`` = 0,
-the counts as they were before it) give the before/after comparison in one run.
+rows for the counts without their smooth factor (``boundary.SMOOTH_DEGREE`` = 0) and for
+loops thinned after each batch instead of respaced (``boundary.RESPACE`` = False), the
+counts as they were before each of those, give the before/after comparisons in one run.
 
 Run: ``.venv/bin/python benchmarks/bench_resurvey.py`` (on a quiet machine: with other
 work on the two cores wall-time ratios move by factors of 2–3; evaluation counts do not).
@@ -72,12 +73,15 @@ def main() -> int:
     points = int(sys.argv[1]) if len(sys.argv) > 1 else 1000
     c = case(points)
     t_off, off = timed(c, False)
-    degree = boundary.SMOOTH_DEGREE
-    boundary.SMOOTH_DEGREE = 0
-    try:
-        t_plain, plain = timed(c, True)
-    finally:
-        boundary.SMOOTH_DEGREE = degree
+    variants = {}
+    for name, setting in (("counts without the smooth factor", ("SMOOTH_DEGREE", 0)),
+                          ("loops thinned, not respaced", ("RESPACE", False))):
+        was = getattr(boundary, setting[0])
+        setattr(boundary, setting[0], setting[1])
+        try:
+            variants[name] = timed(c, True)
+        finally:
+            setattr(boundary, setting[0], was)
     t_on, on = timed(c, True)
     n = len(c.k_values)
     surveys = sum(s.evaluations for _, s in on.surveys)
@@ -96,13 +100,13 @@ def main() -> int:
           f"{sum(1 for ch in off.point_checks if ch.verified)}/{n}")
     n_lost = lost(off, on, 1e-8)
     print(f"  roots lost (traced alone, missing with checks): {n_lost}")
-    n_lost_plain = lost(off, plain, 1e-8)
-    print(f"  counts without the smooth factor: wall {t_plain[0]:.2f} s, ratio "
-          f"{t_plain[0] / t_off[0]:.2f}, CPU ratio {t_plain[1] / t_off[1]:.2f}, evaluations "
-          f"per k {plain.evaluations / n:.1f}, verified "
-          f"{sum(1 for ch in plain.point_checks if ch.verified)}/{n}")
-    print(f"    roots lost: {n_lost_plain}")
-    n_lost += n_lost_plain
+    for name, (t_v, v) in variants.items():
+        n_lost_v = lost(off, v, 1e-8)
+        print(f"  {name}: wall {t_v[0]:.2f} s, ratio {t_v[0] / t_off[0]:.2f}, CPU ratio "
+              f"{t_v[1] / t_off[1]:.2f}, evaluations per k {v.evaluations / n:.1f}, verified "
+              f"{sum(1 for ch in v.point_checks if ch.verified)}/{n}")
+        print(f"    roots lost: {n_lost_v}")
+        n_lost += n_lost_v
     return 1 if n_lost else 0
 
 

@@ -16,9 +16,12 @@ boundary only:
   turns fast); a segment still failing below ``min_fraction`` × the box diameter
   (a zero on or next to an edge), a zero or non-finite sample, or a phase sum more than
   0.1 from an integer gives no count (``None``) with the reason;
-* after a batch, the loop of its last p is thinned where a merged segment still passes
-  the test (at most every other sample per batch), so the loop follows f as it becomes
-  smoother as well as rougher;
+* after a batch, the loop of its last p is respaced: on each edge the points are spread
+  so that each segment uses about one allowance of the tests (``RESPACE_FILL``), judged
+  from the share each resolved segment used of it (each measure brought to the first power
+  of the length: phase steps 1, trapezoidal remainder 3, P minus its chord 2); so the loop
+  follows f as it becomes smoother as well as rougher (without ``respace``: thinned where
+  a merged segment still passes, at most every other sample per batch);
 * the smooth factor: after a batch, a polynomial P (degree ≤ ``SMOOTH_DEGREE``, a least-
   squares fit of log g and (log g)' on the last resolved loop, g = f divided by the known
   zeros, refined batch after batch) is learnt, and the next batches take the winding of
@@ -63,6 +66,12 @@ __all__ = ["BoundaryCount", "BoundaryCounter"]
 SMOOTH_DEGREE = 16
 #: Most pieces a failing boundary segment is cut into in one round.
 MAX_PIECES = 4
+#: Whether a batch's loop is respaced for the next one (else only thinned).
+RESPACE = True
+#: Share of one segment test's allowance a respaced segment is given (bench_resurvey:
+#: 0.8, 0.9, 1.0, 1.1, 1.25 give 44.2, 41.5, 40.3, 45.2, 47.7 evaluations per k; above 1
+#: more k need refinement rounds).
+RESPACE_FILL = 1.0
 
 
 def _fractions(pieces: np.ndarray) -> np.ndarray:
@@ -158,6 +167,10 @@ class BoundaryCounter:
             self._radii.append(min([radius] + [0.1 * d for d in others]))
         self._corner_set = set(_corners(self.box).tolist())
         self._centre = complex(0.5 * (x0 + x1), 0.5 * (y0 + y1))
+        #: Respace the loop after a batch (:meth:`_respaced`); otherwise thin it.
+        self.respace = RESPACE
+        #: Share of one test's allowance each respaced segment is given.
+        self.respace_fill = RESPACE_FILL
         #: Thinning passes after a batch (each drops at most every other sample).
         self.thin_passes = 3
         #: Most pieces a failing segment is cut into in one round (2: bisection).
@@ -328,18 +341,23 @@ class BoundaryCounter:
                 dl[i] = np.insert(dl[i], pos, dn)
                 evals[i] += zn.size
             todo = req_i
-        # next batch starts from the last resolved loop, thinned where it can be
+        # next batch starts from the last resolved loop, respaced (or thinned)
         good = [i for i in range(m) if result[i] is not None]
         if good:
             i = good[-1]
             z, f, d = zl[i], fl[i], dl[i]
-            for _ in range(self.thin_passes):
-                keep = self._thin(z, f, d)
-                if keep.all():
-                    break
-                z, f, d = z[keep], f[keep], d[keep]
-            self.loop = z
-            self._fit_smooth(zl[i], fl[i], dl[i], result[i])
+            if self.respace:
+                before = self._smooth
+                self._fit_smooth(z, f, d, result[i])
+                self.loop = self._respaced(z, *self._refactored(z, f, d, before))
+            else:
+                for _ in range(self.thin_passes):
+                    keep = self._thin(z, f, d)
+                    if keep.all():
+                        break
+                    z, f, d = z[keep], f[keep], d[keep]
+                self.loop = z
+                self._fit_smooth(zl[i], fl[i], dl[i], result[i])
         else:
             self._smooth = None
         ex, ex_evals = self._exclusions(ps, family, pairs)
@@ -424,19 +442,86 @@ class BoundaryCounter:
         [0, 1] (exact from that many Chebyshev–Lobatto nodes) bound the deviation by
         their absolute sum.
         """
-        if self._smooth is None or za.size == 0:
-            return np.ones(za.shape, dtype=bool)
+        return self._chord_deviation(za, zb) <= 0.5 * PHASE_STEP
+
+    def _chord_deviation(self, za: np.ndarray, zb: np.ndarray) -> np.ndarray:
+        """Upper bound of |P − its chord| on each segment [za, zb] (0 without a factor):
+        the absolute sum of the Chebyshev coefficients on [0, 1] of P minus the chord."""
+        if self._smooth is None or za.size == 0 or self._smooth[2].size <= 2:
+            return np.zeros(za.shape)
         m = self._smooth[2].size - 1
-        if m <= 1:
-            return np.ones(za.shape, dtype=bool)
         t, inv = _lobatto(m)
         zz = za[:, None] + t[None, :] * (zb - za)[:, None]
         centre, scale, coef = self._smooth
         pv = np.polynomial.polynomial.polyval((zz - centre) / scale, coef)
         dev = pv - (pv[:, :1] + t[None, :] * (pv[:, -1:] - pv[:, :1]))
         with np.errstate(all="ignore"):
-            bound = np.sum(np.abs(dev @ inv.T), axis=1)
-        return bound <= 0.5 * PHASE_STEP
+            return np.sum(np.abs(dev @ inv.T), axis=1)
+
+    def _refactored(self, z: np.ndarray, f: np.ndarray, d: np.ndarray,
+                    before: tuple[complex, float, np.ndarray] | None
+                    ) -> tuple[np.ndarray, np.ndarray]:
+        """``f`` = g·exp(−P_before) and its derivative, given as g·exp(−P) for the current P."""
+        if self._smooth is before:
+            return f, d
+        p_new, d_new = self._smooth_factor(z)
+        if before is not None:
+            centre, scale, coef = before
+            u = (z - centre) / scale
+            p_new = p_new - np.polynomial.polynomial.polyval(u, coef)
+            d_new = d_new - np.polynomial.polynomial.polyval(
+                u, np.polynomial.polynomial.polyder(coef)) / scale
+        with np.errstate(all="ignore"):
+            e = np.exp(-p_new)
+            return f * e, (d - f * d_new) * e
+
+    def _needs(self, z: np.ndarray, f: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """For each segment (z_j, z_{j+1}) of the closed loop, the number of pieces of the
+        test's size it is worth: the largest of the ratios of each quantity that
+        :func:`segment_ok` and :meth:`_factor_linear` bound to its bound, each brought to
+        the first power of the length by the power at which it grows with it (phase steps
+        and f'/f·Δz: 1; the trapezoidal remainder of log f: 3; P minus its chord: 2)."""
+        nxt = np.roll(np.arange(z.size), -1)
+        with np.errstate(all="ignore"):
+            g = d / f
+            dz = z[nxt] - z
+            ratio = f[nxt] / f
+            dphi = np.angle(ratio)
+            dlog = np.log(np.abs(ratio)) + 1j * dphi
+            p0, p1 = g * dz, g[nxt] * dz
+            phase = np.maximum.reduce([np.abs(dphi), np.abs(p0.imag), np.abs(p1.imag)])
+            trap = np.abs(dlog - 0.5 * (p0 + p1))
+            need = np.maximum.reduce([
+                phase / PHASE_STEP,
+                np.cbrt(trap / (0.5 * PHASE_STEP)),
+                np.sqrt(self._chord_deviation(z, z[nxt]) / (0.5 * PHASE_STEP)),
+            ])
+        return np.where(np.isfinite(need), need, np.inf)
+
+    def _respaced(self, z: np.ndarray, f: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """A loop for the next batch: on each edge, points spread so that every piece is
+        worth the same share of :meth:`_needs` of the resolved loop (``z``, ``f`` = g·exp(−P)
+        with the current P), about ``RESPACE_FILL`` of one test's allowance each; the
+        corners stay.  Segments that the tests passed with room to spare get merged, those
+        that only just passed get more points, so the loop needs less refinement at the
+        next p and holds fewer points than one thinned by dropping samples."""
+        need = self._needs(z, f, d)
+        s = self._perimeter(z)
+        s_next = np.append(s[1:], 4.0)
+        corners = _corners(self.box)
+        pieces = []
+        for e in range(4):
+            on = (s >= e) & (s < e + 1)
+            if not np.all(np.isfinite(need[on])):
+                pieces.append(z[on])  # keep a loop whose needs are not known as it is
+                continue
+            total = np.concatenate(([0.0], np.cumsum(need[on])))
+            n = max(1, math.ceil(total[-1] / self.respace_fill - 1e-9))
+            at = np.interp(total[-1] * np.arange(n) / n, total,
+                           np.concatenate((s[on], [min(s_next[on][-1], e + 1.0)])))
+            at[0] = e
+            pieces.append(corners[e] + (corners[(e + 1) % 4] - corners[e]) * (at - e))
+        return np.concatenate(pieces)
 
     def _perimeter(self, z: np.ndarray) -> np.ndarray:
         """Position of boundary points along the loop: edge index + fraction (0 … 4)."""
