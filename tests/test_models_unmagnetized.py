@@ -543,3 +543,95 @@ def test_species_sum_equals_builder_sum(n_omega: int) -> None:
     collisional = Species("c", -1, M_ELECTRON, 1e16, 2.0, 2.0, collision_frequency=1e6)
     assert es_unmagnetized.SpeciesSum.for_species(
         (*species, collisional), k_par=k_par, k_perp=k_perp) is None
+
+
+# Species of one shift k∥V (no drift), of very different temperatures: the one-point path
+# sums the cold ones (|ζ| ≥ 7) as one series; plus a drifting species, its own shift.
+SHIFT_GROUP = (electron(), proton(), Species("ar", 1, 40 * M_PROTON, 2e15, 0.05, 0.05),
+               Species("b", 1, M_PROTON, 1e15, 0.3, 0.3, drift=2e5))
+K_GROUP = (2.0e3, 1.1e3)
+
+
+def _group_points(target: int, radii: list[float], angles: list[float]) -> list[complex]:
+    """ω with |ζ| = r of species ``target`` of SHIFT_GROUP, at angles arg ζ, where the
+    Landau term of every species stays representable (y² − x² < 600 for each ζ)."""
+    kappas = [kappa_of(s, *K_GROUP) for s in SHIFT_GROUP]
+    shift = K_GROUP[0] * SHIFT_GROUP[target].drift
+    out = []
+    for r in radii:
+        for a in angles:
+            w = shift + r * kappas[target] * complex(np.cos(a), np.sin(a))
+            zetas = [(w - K_GROUP[0] * s.drift) / kp
+                     for s, kp in zip(SHIFT_GROUP, kappas, strict=True)]
+            if all(z.imag**2 - z.real**2 < 600.0 for z in zetas):
+                out.append(w)
+    return out
+
+
+def test_species_sum_one_point_series_of_a_shift_group_against_mpmath() -> None:
+    # Source: M_1 = -(1 + ζZ), dM_1/dζ = -Z - 2ζM_1 (Fried & Conte 1961), Z from mpmath
+    # erfc (DLMF 7.2.3) at 30 digits plus 3 per decade of |ζ|. χ_s = c_s M_1(ζ_s) with
+    # c_s = -2ω_ps²/κ_s² (see susceptibility()). The one-point path sums the protons and
+    # the argon ions (|ζ| ≥ 7, same shift) as one series whose term count comes from the
+    # protons' |ζ|: checked just above the integers where that count changes (its
+    # tightest points), across the series region's edge (|ζ_p| = 7) and far beyond, in
+    # both half-planes, with the Landau terms of every species.
+    summed = es_unmagnetized.SpeciesSum.for_species(SHIFT_GROUP, k_par=K_GROUP[0],
+                                                    k_perp=K_GROUP[1])
+    assert summed is not None
+    radii = [6.999, 7.0 * (1 + 1e-13), 8.0 * (1 + 1e-13), 9.5, 10.0 * (1 + 1e-13),
+             13.0 * (1 + 1e-13), 21.0 * (1 + 1e-13), 40.0, 1023.9, 1024.0 * (1 + 1e-13), 5e3]
+    angles = [0.0, 0.3, 0.5 * np.pi, np.pi - 0.05, -1e-3, -0.1, -0.6, -np.pi + 0.2]
+    points = _group_points(1, radii, angles)
+    assert len(points) > 60
+    kappas = [kappa_of(s, *K_GROUP) for s in SHIFT_GROUP]
+    for w in points:
+        got_v, got_d = summed.scalar_sum(np.array([w]))
+        terms_v = []
+        terms_d = []
+        with mp.workdps(30 + 3 * int(np.log10(abs(w) / abs(kappas[2]) + 1.0))):
+            for s, kp in zip(SHIFT_GROUP, kappas, strict=True):
+                coef = -2.0 * mp.mpf(s.plasma_frequency) ** 2 / mp.mpc(kp) ** 2
+                # ζ rounded to double as the code forms it (the functions are compared
+                # at the same argument; χ is well conditioned in ζ)
+                zeta = mp.mpc((w - K_GROUP[0] * s.drift) / kp)
+                zf = z_mpmath(zeta)
+                m1 = -(1 + zeta * zf)
+                terms_v.append(coef * m1)
+                terms_d.append(coef / mp.mpc(kp) * (-zf - 2 * zeta * m1))
+            ref_v, ref_d = sum(terms_v), sum(terms_d)
+            scale_v = max(abs(t) for t in terms_v)
+            scale_d = max(abs(t) for t in terms_d)
+            assert abs(mp.mpc(got_v[0]) - ref_v) <= 1e-14 * scale_v, (w, float(
+                abs(mp.mpc(got_v[0]) - ref_v) / scale_v))
+            assert abs(mp.mpc(got_d[0]) - ref_d) <= 1e-13 * scale_d, w
+
+
+@pytest.mark.parametrize("bits", [0.0, 300.0, float("inf")])
+def test_species_sum_one_point_series_equals_the_species_by_species_sum(bits: float) -> None:
+    # Identity: merging the series of the species of one shift reorders the sum of each
+    # species' series (first_moment_scalar, checked against mpmath above) and leaves
+    # their Landau terms (under any landau_shift, dropped at inf) as they were. Points
+    # where the electrons, the protons or only the argon ions head the merged series;
+    # complex k (κ complex: no merging) as well.
+    from kinroots.physics.zfunc import landau_shift
+
+    points = (_group_points(0, [7.0 * (1 + 1e-13), 9.0, 30.0], [0.2, -0.02, -0.5])
+              + _group_points(1, [3.0, 7.5, 60.0], [0.0, -0.05, 2.0, -2.9])
+              + _group_points(2, [7.2, 100.0], [0.1, -0.1]))
+    for k_par, k_perp in (K_GROUP, (2.0e3 + 30.0j, 1.1e3 - 5.0j)):
+        summed = es_unmagnetized.SpeciesSum.for_species(SHIFT_GROUP, k_par=k_par,
+                                                        k_perp=k_perp)
+        assert summed is not None
+        constants = summed._scalar_constants
+        with landau_shift(bits):
+            for w in points:
+                got_v, got_d = summed.scalar_sum(np.array([w]))
+                parts = [es_unmagnetized.first_moment_scalar((w - shift) / kappa)
+                         for shift, kappa, _, _ in constants]
+                ref_v = sum(c[2] * p[0] for c, p in zip(constants, parts, strict=True))
+                ref_d = sum(c[3] * p[1] for c, p in zip(constants, parts, strict=True))
+                scale_v = max(abs(c[2] * p[0]) for c, p in zip(constants, parts, strict=True))
+                scale_d = max(abs(c[3] * p[1]) for c, p in zip(constants, parts, strict=True))
+                assert abs(got_v[0] - ref_v) <= 2e-15 * scale_v, (w, bits)
+                assert abs(got_d[0] - ref_d) <= 2e-15 * scale_d, (w, bits)

@@ -23,7 +23,12 @@ import numpy as np
 from scipy.special import wofz
 
 from kinroots.physics.plasma import EV, Species
-from kinroots.physics.zfunc import plasma_z_and_prime, shift_exponent, z_and_f_scalar
+from kinroots.physics.zfunc import (
+    _exp_term_scalar,
+    plasma_z_and_prime,
+    shift_exponent,
+    z_and_f_scalar,
+)
 
 __all__ = ["first_moment", "first_moment_scalar", "landau_moments", "thermal_speeds_squared"]
 
@@ -32,6 +37,8 @@ _ZETA_FADDEEVA = 2.0
 #: |ζ| from which the moments are summed from their asymptotic series (plus the exact
 #: Landau exponential) instead of from Z: there the direct form 1 + ζZ loses ~|ζ|² ulp.
 _ZETA_SERIES = 7.0
+#: Re ζ² beyond which exp(−ζ²) (times any Landau shift 2^−b, b ≥ 0) underflows to zero.
+_EXP_UNDERFLOW = 760.0
 #: Terms kept in the asymptotic series; the last one is < 1e-18 of the first at |ζ| = 7
 #: and the omitted remainder is of order exp(−|ζ|²) < 1e-21.
 _N_TERMS = 27
@@ -299,13 +306,16 @@ def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
     m1 = u * acc
     dm1 = -(u / zeta) * dacc
     if zeta.imag <= 0.0:
-        sh_hi, sh_lo = shift_exponent()
-        if math.isinf(sh_hi):
+        zz = zeta * zeta
+        if zz.real > _EXP_UNDERFLOW:  # exp(−ζ²) is below the smallest double: no term
             return m1, dm1
-        e = (1.0 if zeta.imag == 0.0 else 2.0) * (1j * _SQRT_PI) * cmath.exp(
-            -(zeta * zeta) - sh_hi - sh_lo)
+        # σ i√π exp(−ζ²), σ = 1 on the real axis, 2 below, with the exponent split
+        # exactly (relative error of a few ulp however large Im ζ² is)
+        e = _exp_term_scalar(zeta)
+        if zeta.imag == 0.0:
+            e *= 0.5
         m1 -= zeta * e
-        dm1 += (2.0 * zeta * zeta - 1.0) * e
+        dm1 += (2.0 * zz - 1.0) * e
     return m1, dm1
 
 
@@ -424,3 +434,62 @@ def thermal_speeds_squared(species: Species) -> tuple[float, float]:
         2.0 * species.temperature_par * EV / species.mass,
         2.0 * species.temperature_perp * EV / species.mass,
     )
+#: Terms of the series per entry of :data:`_SCALAR_ROWS` (index int(|ζ|), last entry for
+#: |ζ| ≥ _COUNT_TABLE_END).
+_SCALAR_COUNTS = tuple(len(rest) + 2 for _, _, rest in _SCALAR_ROWS)
+
+#: Horner data of one merged series: highest coefficient of the value and of the
+#: derivative polynomial, then the pairs of the lower ones (see :func:`merged_series`).
+MergedRow = tuple[complex, complex, tuple[tuple[complex, complex], ...]]
+
+
+def merged_series(kappas: tuple[float, ...], coefficients: tuple[complex, ...]
+                  ) -> tuple[MergedRow, ...] | None:
+    """Σ_s c_s M_1(ζ_s) for species of one resonance shift, in one series.
+
+    Parameters
+    ----------
+    kappas : tuple of float
+        κ_s > 0 of each species, largest first (ζ_s = W/κ_s, W = ω − k∥V the shared
+        shifted frequency).
+    coefficients : tuple of complex
+        c_s of each species (the χ_s coefficient −2ω_ps²/κ_s²).
+
+    Returns
+    -------
+    tuple or None
+        Indexed as :data:`_SCALAR_ROWS` (int(|ζ_0|), the last entry for |ζ_0| ≥
+        _COUNT_TABLE_END), with the term count n_t of :data:`_SCALAR_COUNTS` there: the
+        Horner data (B_{n_t−1}, (n_t−1)B_{n_t−1}, ((B_n, n·B_n) for n = n_t − 2 … 1)) of
+
+            Σ_s c_s M_1(ζ_s) = P(X) = Σ_{n≥1} B_n X^n,
+            Σ_s (c_s/κ_s) dM_1/dζ(ζ_s) = −(2/W) Σ_{n≥1} n B_n X^n,
+
+        X = (κ_0/W)², B_n = a_n Σ_s c_s (κ_s/κ_0)^{2n}, without the Landau terms (added
+        per species by the caller); None if a coefficient is not finite.
+
+    Notes
+    -----
+    From the series of :func:`first_moment_scalar`, M_1 = Σ_{n≥1} a_n ζ^{−2n},
+    dM_1/dζ = −(2/ζ) Σ_{n≥1} n a_n ζ^{−2n} (a_n = (2n − 1)!!/2^n, Fried & Conte 1961):
+    ζ_s^{−2} = (κ_s/κ_0)² X and ζ_s κ_s = W. The count where |ζ_0| = |W|/κ_0 ≥ 7 (the
+    warmest species) serves every species, since the n-th term of each, relative to
+    its first, a_n ζ_s^{2−2n}, is at most that of species 0; the first terms c_s/ζ_s² =
+    −2ω_ps²/W² share one phase, so the sum does not cancel.
+    """
+    top = max(_SCALAR_COUNTS)
+    b = [0j] * top
+    for kappa, c in zip(kappas, coefficients, strict=True):
+        ratio = (kappa / kappas[0]) ** 2
+        power = 1.0
+        for n in range(1, top):
+            power *= ratio  # underflows to 0 for a much colder species: its term is below
+            b[n] += c * (_A_LIST[n] * power)  # 1e-300 of its first
+    if not all(cmath.isfinite(v) for v in b):
+        return None
+    rows: dict[int, MergedRow] = {}
+    for count in set(_SCALAR_COUNTS):
+        last = count - 1
+        rows[count] = (b[last], last * b[last],
+                       tuple((b[n], n * b[n]) for n in range(last - 1, 0, -1)))
+    return tuple(rows[count] for count in _SCALAR_COUNTS)
