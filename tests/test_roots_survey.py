@@ -202,12 +202,15 @@ def test_newton_starts_improve_together_and_respect_the_region() -> None:
 
     g, points = _recording(f)
     starts = np.array([1.2 + 0.1j, -0.6 + 0.9j, -0.4 - 0.7j, 5.0 + 5.0j])
-    out, step = newton_starts(g, starts, rtol=1e-14, atol=0.0, region=(-2, 2, -2, 2))
+    out, step, last = newton_starts(g, starts, rtol=1e-14, atol=0.0, region=(-2, 2, -2, 2))
     roots = np.exp(2j * np.pi * np.arange(3) / 3)
     assert np.all(_match(out[:3], roots) < 1e-13)
     assert np.all(step[:3] < 1e-13)  # |f/f'| at the last evaluated point: converged
+    # that point was evaluated, and the start returned is one step beyond it
+    assert np.all(np.isin(last[:3], np.concatenate(points)))
+    assert np.all(np.abs(out[:3] - last[:3]) <= step[:3] + 1e-15)
     assert out[3] == starts[3]  # outside the region: never evaluated, never moved
-    assert np.isnan(step[3])
+    assert np.isnan(step[3]) and np.isnan(last[3])
     z = np.concatenate(points)
     assert not np.any(z == starts[3])
     assert all(p.size <= 3 for p in points)  # one call per iteration for all starts

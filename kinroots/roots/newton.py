@@ -257,7 +257,7 @@ def newton_starts(
     atol: float,
     region: Box | None = None,
     maxiter: int = 12,
-) -> tuple[np.ndarray, np.ndarray]:
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Improve many starting points at once by plain Newton, one f call per iteration.
 
     Only starting points: every returned value still goes through :func:`polish`, which
@@ -276,9 +276,13 @@ def newton_starts(
         nan where a point was never evaluated): small for a point near a zero (also a
         multiple one, where plain Newton converges linearly), large for one still
         wandering.
+    evaluated : ndarray
+        That last point evaluated (nan where none was): ``z`` is it minus its
+        correction where the step was taken.
     """
     z = np.array(z0, dtype=complex).ravel()
     step = np.full(z.shape, np.nan)
+    evaluated = np.full(z.shape, complex("nan"))
     active = np.isfinite(z)
     if region is not None:
         active &= np.array([_inside(complex(v), region) for v in z], dtype=bool)
@@ -288,6 +292,7 @@ def newton_starts(
             break
         idx = np.flatnonzero(active)
         fv, dv = f(z[idx])
+        evaluated[idx] = z[idx]
         with np.errstate(all="ignore"):
             corr = fv / dv
         good = np.isfinite(corr)
@@ -307,7 +312,7 @@ def newton_starts(
         # and the root it reports is then accurate far below the tolerance
         done = ~good | (new_step <= 0.1 * (atol + rtol * np.abs(z[idx])))
         active[idx[done]] = False
-    return z, step
+    return z, step, evaluated
 
 
 def _verify_counted(f: AnalyticFunction, root: complex, radius: float) -> tuple[int | None, int]:

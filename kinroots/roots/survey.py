@@ -37,6 +37,7 @@ LNM 1727 (2000).
 
 from __future__ import annotations
 
+import cmath
 import math
 from collections import deque
 from collections.abc import Sequence
@@ -52,7 +53,7 @@ from kinroots.roots.contour import (
     hankel_zeros,
     rectangle_edges,
 )
-from kinroots.roots.newton import newton_starts, polish
+from kinroots.roots.newton import newton_starts, polish, relative_size
 from kinroots.roots.result import (
     AnalyticFunction,
     Box,
@@ -102,6 +103,9 @@ def _diameter(box: Box) -> float:
     return math.hypot(box[1] - box[0], box[3] - box[2])
 
 
+#: An array-Newton start whose correction is below this many tolerances is reported as
+#: it stands (:meth:`_Survey._converged_start`), without one more evaluation.
+_SETTLED = 1e-4
 #: Absolute floor of the Newton stopping test, as a fraction of rtol × box diameter.
 _ATOL_FRACTION = 1e-3
 
@@ -131,6 +135,10 @@ class _Remembering(CountedFunction):
             known.update(new)
         return (np.array([known[k][0] for k in keys], dtype=complex),
                 np.array([known[k][1] for k in keys], dtype=complex))
+
+    def known(self, z: complex) -> tuple[complex, complex] | None:
+        """f and f' at ``z`` if remembered (uncounted), else None."""
+        return self._memory.get(z)
 
     def remembered(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """The points remembered, f and f' there (arrays)."""
@@ -407,6 +415,26 @@ class _Survey:
         return polish(self.func, z0, rtol=self.rtol, atol=self.atol, maxiter=40,
                       multiplicity=multiplicity, region=region, method="survey")
 
+    def _converged_start(self, z: complex, step: float, box: Box) -> RootResult | None:
+        """The root at ``z``, the last point the array Newton evaluated, when its
+        correction there (``step``) is below :data:`_SETTLED` tolerances: converged as
+        :func:`~kinroots.roots.newton.polish` would report it one evaluation later, and
+        as accurate (the value differs by that correction, near rounding; a larger one
+        would raise the residuals the README states).  None otherwise."""
+        if not (cmath.isfinite(z) and step <= _SETTLED * self._tol(z)):
+            return None
+        known = self.func.known(z)
+        if known is None or not _inside(z, self._region(box)):
+            return None
+        fz, dz = known
+        with np.errstate(all="ignore"):
+            corr = fz / dz
+        if not (cmath.isfinite(corr) and abs(corr) <= self._tol(z)):
+            return None
+        return RootResult(value=z, converged=True, status=Status.CONVERGED, residual=abs(fz),
+                          step=relative_size(corr, z), iterations=0, evaluations=1,
+                          method="survey", refined=z - corr)
+
     def _acceptable(self, r: RootResult, box: Box) -> bool:
         return (
             r.converged
@@ -421,16 +449,18 @@ class _Survey:
             z0 = complex(min(max(z0.real, box[0]), box[1]), min(max(z0.imag, box[2]), box[3]))
             if not np.isfinite(z0):
                 z0 = center
+        r = None
         if not _BASELINE:
             # plain Newton first, as for clusters: a start it brings to a tenth of the
-            # tolerance is polished with one more evaluation, and the root reported is
-            # then accurate far below the tolerance (damped Newton from the estimate
-            # stops as soon as its correction is within it)
-            (z1,), (st,) = newton_starts(self.func, np.array([z0]), rtol=self.rtol,
-                                         atol=self.atol, region=self._region(box))
+            # tolerance is a root as it stands (damped Newton from the estimate stops
+            # as soon as its correction is within the tolerance)
+            (z1,), (st,), (ze,) = newton_starts(self.func, np.array([z0]), rtol=self.rtol,
+                                                atol=self.atol, region=self._region(box))
+            r = self._converged_start(complex(ze), float(st), box)
             if st <= _WANDER * _diameter(box):
                 z0 = complex(z1)
-        r = self._polish(z0, box)
+        if r is None:
+            r = self._polish(z0, box)
         if self._acceptable(r, box):
             # the cell's own boundary winds once around it: that is the verification
             return replace(r, verified=True, multiplicity=1, method="moments+newton")
@@ -446,8 +476,9 @@ class _Survey:
         region = self._region(box)
         if _BASELINE:
             starts, step = np.asarray(estimates, complex), np.zeros(len(estimates))
+            last = np.full(len(estimates), complex("nan"))
         else:
-            starts, step = newton_starts(
+            starts, step, last = newton_starts(
                 self.func, np.asarray(estimates, complex), rtol=self.rtol, atol=self.atol,
                 region=region)
         # a start still wandering after the array Newton steps (its last |f/f'| beyond
@@ -455,10 +486,11 @@ class _Survey:
         # spend up to 40 steps on it; the deflated moments, or the cell's halves, give
         # better ones.  Linear convergence to a multiple zero is far below that bound.
         wander = _WANDER * _diameter(box)
-        for z0, st in zip(starts, step, strict=True):
+        for z0, st, ze in zip(starts, step, last, strict=True):
             if not _inside(complex(z0), region) or st > wander:
                 continue
-            r = self._polish(complex(z0), box)
+            r = self._converged_start(complex(ze), float(st), box) or self._polish(
+                complex(z0), box)
             if not self._acceptable(r, box):
                 continue
             if any(abs(r.value - q.value) <= 1e3 * self._tol(r.value) + 1e-12 * self.diam0
