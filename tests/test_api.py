@@ -357,3 +357,12 @@ def test_spectrum_to_dataframe():
     assert sp.alpha == pytest.approx(1 / (sp.k_per_m * case.plasma.electron_debye_length),
                                      rel=1e-9)
     assert (df["spectral_density_s"] >= 0).all()
+
+
+@pytest.mark.parametrize("freqs", [[3e6, 1e6], [2e6, 2e6], [], [math.nan], [1e25], "abc",
+                                   [[1e6, 2e6]]])
+def test_launch_refuses_bad_frequencies(freqs):
+    # the limits of the case file's launch.frequency, named in the message
+    case = kinroots.load_case(REPO / "cases" / "lab_launched_ion_acoustic.toml")
+    with pytest.raises(ValueError, match="frequencies_hz: got .*expected"):
+        kinroots.launch(case, frequencies_hz=freqs)

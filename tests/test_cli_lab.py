@@ -81,3 +81,15 @@ def test_roots_table_carries_mode_identity(tmp_path):
     assert rows[0]["electrostatic_fraction"] == "1.0"
     assert rows[0]["db_c_over_de"] == "0.0"
     assert float(rows[0]["density_abs_e"]) > 0.9
+
+
+@pytest.mark.parametrize("wavelength", ["1e-300", "1e300", "10"])
+def test_scatter_refuses_probes_outside_the_model(tmp_path, wavelength):
+    # 1e-300 m overflowed (internal error) and 1e300 m / 10 m wrote NaN or a clipped
+    # spectrum: the probe does not propagate in this plasma
+    out = tmp_path / "o"
+    res = runner.invoke(app, ["scatter", str(CASE), "--laser-wavelength", wavelength,
+                              "-o", str(out)])
+    assert res.exit_code == 2, res.output
+    assert "--laser-wavelength" in res.output and "expected" in res.output
+    assert "Traceback" not in res.output and not out.exists()

@@ -147,3 +147,29 @@ def test_sum_rule_check_in_equilibrium():
     res = scattered_spectrum(p, laser_wavelength=532e-9, scattering_angle_deg=90.0)
     rule = sum_rule_check(p, res)
     assert rule["applies"] == "yes" and rule["relative_difference"] < 0.02
+
+
+def test_probe_below_the_cutoff_is_refused():
+    # ω² = ω_pe² + k²c² (Chen, Introduction to Plasma Physics and Controlled Fusion, 3rd
+    # ed. 2016, sec. 4.16): a probe at 0.9 ω_pe does not propagate; ω_pe from
+    # scipy.constants, independently of kinroots' own plasma frequency
+    from scipy import constants as sc
+
+    from kinroots.physics.spectrum import probe_problems
+
+    p = _plasma(10.0, 1.0)
+    wpe = math.sqrt(1e19 * sc.e**2 / (sc.epsilon_0 * sc.m_e))
+    below = 2 * math.pi * sc.c / (0.9 * wpe)
+    assert "propagate" in probe_problems(p, below, 90.0)["laser_wavelength"]
+    with pytest.raises(ValueError, match="propagate"):
+        scattered_spectrum(p, laser_wavelength=below, scattering_angle_deg=90.0)
+    assert probe_problems(p, 532e-9, 90.0) == {}
+    # shorter than 10 pm (Compton recoil), or not a number: refused before any arithmetic
+    for bad in (1e-300, 0.0, -1.0, math.nan, math.inf, "a"):
+        assert "expected a wavelength" in probe_problems(p, bad, 90.0)["laser_wavelength"]
+    for bad in (0.0, 181.0, math.nan):
+        assert "(0, 180]" in probe_problems(p, 532e-9, bad)["scattering_angle"]
+    for bad in (0, 10, 2.5, True):
+        with pytest.raises(ValueError, match="points"):
+            scattered_spectrum(p, laser_wavelength=532e-9, scattering_angle_deg=90.0,
+                               points=bad)

@@ -183,12 +183,9 @@ def scatter_command(
     from kinroots.physics.plasma import CONVENTIONS, derived_quantities
 
     loaded = load_case_or_exit(case, default)
-    problems = []
-    if not (math.isfinite(laser_wavelength) and laser_wavelength > 0):
-        problems.append(f"option --laser-wavelength: {laser_wavelength!r}: expected a "
-                        "wavelength > 0 in metres")
-    if not (math.isfinite(angle) and 0 < angle <= 180):
-        problems.append(f"option --angle: {angle!r}: expected degrees in (0, 180]")
+    option = {"laser_wavelength": "--laser-wavelength", "scattering_angle": "--angle"}
+    problems = [f"option {option[key]}: {why}" for key, why in spectrum.probe_problems(
+        loaded.plasma, laser_wavelength, angle, loaded.angle_deg).items()]
     if points < 11:
         problems.append(f"option --points: {points!r}: expected an integer >= 11")
     name = _case_name(loaded, case)

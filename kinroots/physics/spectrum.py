@@ -151,6 +151,68 @@ def bragg_wavenumber(laser_wavelength: float, scattering_angle_deg: float) -> fl
     return 4.0 * math.pi / laser_wavelength * math.sin(math.radians(scattering_angle_deg) / 2)
 
 
+#: Shortest probe wavelength [m] :func:`scattered_spectrum` accepts: 10 pm, a photon energy
+#: of 124 keV, where Compton recoil (neglected here) starts to matter (common practice).
+SHORTEST_PROBE_M: float = 1e-11
+
+
+def probe_problems(plasma: Plasma, laser_wavelength: Any, scattering_angle_deg: Any,
+                   k_angle_deg: float = 0.0) -> dict[str, str]:
+    """What makes a probe unusable for :func:`scattered_spectrum` (empty list: usable).
+
+    The probe and the scattered light are taken as vacuum waves (k = ω/c), and the
+    spectrum spans |ω_s − ω_i| ≤ ω_max (the electron plasma wave and the electron thermal
+    width at the Bragg k, :func:`_default_window`). Both waves propagate only above the
+    cutoff ω_pe, and the vacuum form needs ω_i ≫ ω_pe; the check asks ω_i > 2 ω_max
+    (ω_max > ω_pe), so that every scattered frequency ω_i + ω stays above ω_max > ω_pe
+    (cutoff of an unmagnetized plasma, ω² = ω_pe² + k²c²: Chen, *Introduction to Plasma
+    Physics and Controlled Fusion*, 3rd ed. 2016, sec. 4.16).
+
+    Parameters
+    ----------
+    plasma : Plasma
+    laser_wavelength : float
+        Probe wavelength λ_i [m].
+    scattering_angle_deg : float
+        Scattering angle θ_s [degrees].
+    k_angle_deg : float
+        Angle between k and z [degrees].
+
+    Returns
+    -------
+    dict
+        ``{"laser_wavelength" or "scattering_angle": "got ..., expected ..."}``, one
+        entry per unusable parameter.
+    """
+    out: dict[str, str] = {}
+    try:
+        lam = float(laser_wavelength)
+    except (TypeError, ValueError):
+        lam = math.nan
+    try:
+        theta = float(scattering_angle_deg)
+    except (TypeError, ValueError):
+        theta = math.nan
+    if not (math.isfinite(lam) and lam >= SHORTEST_PROBE_M):
+        out["laser_wavelength"] = (
+            f"got {laser_wavelength!r}, expected a wavelength >= {SHORTEST_PROBE_M:g} m "
+            "(shorter probes recoil: Compton, not Thomson)")
+    if not (math.isfinite(theta) and 0 < theta <= 180):
+        out["scattering_angle"] = f"got {scattering_angle_deg!r}, expected degrees in (0, 180]"
+    if out or not any(s.is_electron for s in plasma.species):
+        return out
+    full, _ = _default_window(plasma, bragg_wavenumber(lam, theta), k_angle_deg)
+    w_i = 2.0 * math.pi * C_LIGHT / lam
+    if not w_i > 2.0 * full:
+        longest = math.pi * C_LIGHT / full
+        out["laser_wavelength"] = (
+            f"got {lam!r} m, a probe at {w_i:.4g} rad/s, but the spectrum spans "
+            f"|omega_s - omega_i| up to {full:.4g} rad/s (above omega_pe): the scattered "
+            f"light would not propagate; expected a wavelength shorter than about "
+            f"{longest:.4g} m")
+    return out
+
+
 @dataclass
 class ScatteredSpectrum:
     """Spectrum against scattered wavelength (arrays of equal length, λ_s increasing)."""
@@ -284,10 +346,11 @@ def scattered_spectrum(
     -------
     ScatteredSpectrum
     """
-    if not (laser_wavelength > 0 and math.isfinite(laser_wavelength)):
-        raise ValueError(f"laser wavelength must be > 0, got {laser_wavelength!r}")
-    if not 0 < scattering_angle_deg <= 180:
-        raise ValueError(f"scattering angle must be in (0, 180], got {scattering_angle_deg!r}")
+    problems = probe_problems(plasma, laser_wavelength, scattering_angle_deg, k_angle_deg)
+    if isinstance(points, bool) or not isinstance(points, int | np.integer) or points < 11:
+        problems["points"] = f"got {points!r}, expected an integer >= 11"
+    if problems:
+        raise ValueError("; ".join(f"{k}: {v}" for k, v in problems.items()))
     _check_plasma(plasma)
     w_i = 2.0 * math.pi * C_LIGHT / laser_wavelength
     k_i = 2.0 * math.pi / laser_wavelength

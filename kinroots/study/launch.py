@@ -24,6 +24,7 @@ from typing import Any
 import numpy as np
 
 from kinroots.io.case import Case
+from kinroots.io.limits import LIMITS, MAX_LAUNCH_POINTS
 from kinroots.io.tables import RESULT_COLUMNS
 from kinroots.physics import modes
 from kinroots.physics.models.species_models import branch_point_note
@@ -104,6 +105,26 @@ class LaunchResult:
         return n + sum(1 for _, s in self.surveys if not s.complete)
 
 
+def _driving_frequencies(values: Any) -> np.ndarray:
+    """``values`` as an array of driving frequencies [Hz], or ValueError naming what is
+    wrong, with the limits of the case file's ``launch.frequency``."""
+    limit = LIMITS["launch.frequency"]
+    got = repr(values)
+    got = got if len(got) <= 80 else got[:77] + "..."
+    try:
+        freqs = np.atleast_1d(np.asarray(values, dtype=float))
+    except (TypeError, ValueError):
+        freqs = np.array([[math.nan]])
+    if not (freqs.ndim == 1 and 0 < freqs.size <= MAX_LAUNCH_POINTS
+            and all(limit(float(f)) for f in freqs)):
+        raise ValueError(f"frequencies_hz: got {got}, expected a sequence of 1 to "
+                         f"{MAX_LAUNCH_POINTS} frequencies, each {limit.expected()}")
+    if np.any(np.diff(freqs) <= 0):
+        raise ValueError(f"frequencies_hz: got {got}, expected frequencies in increasing "
+                         "order")
+    return freqs
+
+
 def launch(
     case: Case,
     /,
@@ -140,7 +161,7 @@ def launch(
         frequencies_hz = spec.frequencies_hz
     if box is None:
         box = (*spec.k_real, *spec.k_imag) if spec is not None else (0.01, 2.0, -0.01, 0.5)
-    freqs = np.asarray(frequencies_hz, dtype=float)
+    freqs = _driving_frequencies(frequencies_hz)
     om = [float(2.0 * math.pi * f / case.units.omega_unit) for f in freqs]
     branches, surveys_w, _, notes, checks = follow_branches(
         lambda w: SpatialFunction(case, w, auto_window=box),
