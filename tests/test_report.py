@@ -211,6 +211,11 @@ def test_at_picks_nearest_values(outputs: dict[str, Path]) -> None:
     ks = sorted({float(c[1]) for c in _md_table(md, "solve: roots")})
     assert ks[-1] == 2.0 and len(ks) == 2
     assert "--at 0.5: nearest k in the table is" in md
+    before = (folder / "report.md").read_text()
+    for bad in ("nan", "inf"):
+        res = runner.invoke(app, ["report", str(folder), "--at", bad])
+        assert res.exit_code == 2 and "expected a finite number" in res.stderr
+    assert (folder / "report.md").read_text() == before  # nothing rewritten
 
 
 def test_failed_points_are_never_numbers(outputs: dict[str, Path], tmp_path: Path) -> None:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 from typing import Annotated
 
@@ -41,6 +42,11 @@ def report_command(
     if at and all_rows:
         err("error: options --at and --all: both given; expected at most one")
         raise typer.Exit(EXIT_BAD_INPUT)
+    for value in at or ():
+        if not math.isfinite(value):
+            err(f"error: option --at: {value!r}: expected a finite number (a value of the "
+                "tables' first column)")
+            raise typer.Exit(EXIT_BAD_INPUT)
     try:
         report = build_report(folder, points=None if all_rows else points, at=at or ())
     except ReportError as exc:
