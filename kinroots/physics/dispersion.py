@@ -802,7 +802,8 @@ class Dispersion:
         same values, since every ω is evaluated independently), which bounds the memory
         of one call (DEVELOPERS.md, "Memory").
         """
-        om = (omega if type(omega) is np.ndarray and omega.dtype == _COMPLEX
+        # (numpy's complex128 dtype is one object; any other dtype goes through asarray)
+        om = (omega if type(omega) is np.ndarray and omega.dtype is _COMPLEX
               else np.asarray(omega, dtype=complex))
         if om.size <= 4 and not self.log2_offset:
             # a few finite ω (survey polish, tracer steps): Python arithmetic, no numpy

@@ -430,11 +430,14 @@ def _f_table(s: NDArray[np.complex128]) -> NDArray[np.complex128]:
 def _f_table_scalar(s: complex) -> complex:
     """:func:`_f_table` at one point, in Python arithmetic (the cell's own row length)."""
     x = s.real
-    table = _TABLE if _TABLE is not None else _taylor_table()
+    y = s.imag
+    rows = (_TABLE if _TABLE is not None else _taylor_table()).rows
     if x < 0.0:
-        s = complex(-x, s.imag)
-    centre, acc, rest = table.rows[int(s.real * _INV_CELL) * _CELLS + int(s.imag * _INV_CELL)]
-    d = s - centre
+        centre, acc, rest = rows[int(-x * _INV_CELL) * _CELLS + int(y * _INV_CELL)]
+        d = complex(-x, y) - centre
+    else:
+        centre, acc, rest = rows[int(x * _INV_CELL) * _CELLS + int(y * _INV_CELL)]
+        d = s - centre
     for c in rest:
         acc = acc * d + c
     return acc.conjugate() if x < 0.0 else acc

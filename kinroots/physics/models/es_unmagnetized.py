@@ -225,49 +225,54 @@ class SpeciesSum:
         arithmetic (raises ValueError for a non-finite ω and OverflowError where an
         exponential overflows; no numpy error state is needed, and the results are finite
         where no exception is raised). ``offset = 1`` gives the dielectric function."""
-        moment = first_moment_scalar
-        isfinite = math.isfinite
-        values = []
-        derivatives = []
-        single = om.size == 1  # the tracer's and the polish's calls
-        for w in (om.item(),) if single else om.ravel().tolist():
-            if not (isfinite(w.real) and isfinite(w.imag)):
-                raise ValueError("non-finite frequency")
-            v = d = 0j
-            for shift, members, merged in self._groups:
-                big = w - shift
-                r = abs(big)
-                for j, (threshold, kappa, coef, dcoef, g) in enumerate(members):
-                    if r >= threshold and (rows := merged[j]) is not None:
-                        # this species and the colder ones after it: one series
-                        x = g / big
-                        x *= x
-                        rz = r / g
-                        acc, dacc, rest = rows[int(rz) if rz < _COUNT_TABLE_END else -1]
-                        for b, nb in rest:
-                            acc = acc * x + b
-                            dacc = dacc * x + nb
-                        v += x * acc
-                        d -= (2.0 * x / big) * dacc
-                        if big.imag <= 0.0:  # Landau terms, as in first_moment_scalar
-                            v, d = _landau_terms(big, members[j:], v, d)
-                        break
-                    m1, dm1 = moment(big / kappa)
-                    v += coef * m1
-                    d += dcoef * dm1
-            values.append(offset + v)
-            derivatives.append(d)
-        if single and om.ndim == 1:  # cheaper than converting a list (0.4 against 0.6 µs)
-            value = np.empty(1, dtype=complex)
-            derivative = np.empty(1, dtype=complex)
-            value[0] = values[0]
-            derivative[0] = derivatives[0]
+        point = self._point
+        if om.shape == (1,):  # the tracer's and the polish's calls: two bare arrays
+            v, d = point(om.item())
+            value = _empty(1, complex)
+            value[0] = offset + v
+            derivative = _empty(1, complex)
+            derivative[0] = d
             return value, derivative
+        pairs = [point(w) for w in om.ravel().tolist()]
         return (
-            np.array(values, dtype=complex).reshape(om.shape),
-            np.array(derivatives, dtype=complex).reshape(om.shape),
+            np.array([offset + v for v, _ in pairs], dtype=complex).reshape(om.shape),
+            np.array([d for _, d in pairs], dtype=complex).reshape(om.shape),
         )
 
+    def _point(self, w: complex) -> tuple[complex, complex]:
+        """Σ_s χ_s and Σ_s ∂χ_s/∂ω at one ω (:meth:`scalar_sum`): species by species
+        (:func:`first_moment_scalar`), except that in each shift group the species
+        whose ζ is in the series region are summed as one series."""
+        if not _isfinite(w):
+            raise ValueError("non-finite frequency")
+        moment = first_moment_scalar
+        v = d = 0j
+        for shift, members, merged in self._groups:
+            big = w - shift
+            r = abs(big)
+            for j, (threshold, kappa, coef, dcoef, g) in enumerate(members):
+                if r >= threshold and (rows := merged[j]) is not None:
+                    # this species and the colder ones after it: one series
+                    x = g / big
+                    x *= x
+                    rz = r / g
+                    acc, dacc, rest = rows[int(rz) if rz < _COUNT_TABLE_END else -1]
+                    for b, nb in rest:
+                        acc = acc * x + b
+                        dacc = dacc * x + nb
+                    v += x * acc
+                    d -= (2.0 * x / big) * dacc
+                    if big.imag <= 0.0:  # Landau terms, as in first_moment_scalar
+                        v, d = _landau_terms(big, members[j:], v, d)
+                    break
+                m1, dm1 = moment(big / kappa)
+                v += coef * m1
+                d += dcoef * dm1
+        return v, d
+
+
+_empty = np.empty
+_isfinite = cmath.isfinite
 
 #: One species of a shift group: 7κ (|ω − k∥V| from which its ζ is in the series region;
 #: inf for complex κ), κ, −2ω_ps²/κ², that over κ, and Re κ.
