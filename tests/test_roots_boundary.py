@@ -33,6 +33,30 @@ def test_counts_of_shifted_sine_match_its_zeros():
     assert all(g.evaluations > 0 for g in got)
 
 
+def test_first_values_handed_in_replace_the_first_call():
+    """``start`` gives the pairs a count evaluates first; handed their values (``first``),
+    the count makes one call fewer and gives the same counts and evaluations."""
+    ps = [float(p) for p in np.linspace(0.0, 3.0, 10)]
+    plain, handed = BoundaryCounter(BOX), BoundaryCounter(BOX)
+    calls: dict[str, list[int]] = {"plain": [], "handed": []}
+
+    def counted(name):
+        def pairs(q, w):
+            calls[name].append(w.size)
+            return sine_pairs(q, w)
+        return pairs
+
+    for batch in (ps[:5], ps[5:]):
+        calls["plain"].clear()
+        calls["handed"].clear()
+        a = plain.count(batch, pairs=counted("plain"))
+        p, z = handed.start(batch)
+        b = handed.count(batch, pairs=counted("handed"), first=sine_pairs(p, z))
+        assert [(x.count, x.evaluations) for x in a] == [(x.count, x.evaluations) for x in b]
+        assert calls["plain"] == [z.size, *calls["handed"]]
+    assert plain.evaluations == handed.evaluations
+
+
 def test_excluded_point_is_not_counted():
     """z² sin(z − 0.5): the double zero at the excluded 0 is subtracted (as in the survey)."""
     def f(z):

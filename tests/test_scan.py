@@ -316,3 +316,46 @@ def test_every_k_counted_in_the_reported_reproduction():
         rows = sorted((b.points[c.param].value for b in sol.branches if c.param in b.points),
                       key=lambda z: z.real)
         assert np.allclose(rows, sorted(s.values, key=lambda z: z.real), rtol=1e-8)
+
+
+def test_counts_carried_on_the_tracers_call_see_what_their_own_call_would():
+    """The tracer's dispersion call also evaluates the start loop of the zero counts
+    (``_Carrier``): the tracer gets the values of its own call, unscaled, even where the
+    counts' points overflow at the same k (that k's constant scale is applied to the
+    counts' values when the counts take them); both equal two separate calls in that order
+    (an identity between code paths, to 1e-12 of the scale of D). No tracer call: the
+    counts get nothing and evaluate themselves."""
+    from kinroots.study.solve import _Carrier
+
+    case = electrons_only(0.3, 0.4, 2, (0.01, 3.0, -0.2, 0.5))
+    data = dict(case.raw)
+    data["species"] = [*data["species"], {"name": "H+", "charge": 1, "mass": "proton",
+                                          "density": 1e18, "temperature": 1.0}]
+    case = parse_case(data, "<cold ions, window into the overflow>")
+    box = window(case)
+    ks, om = np.array([0.3, 0.35]), np.array([1.2 + 0.1j, 1.3 + 0.05j])
+    loop = np.linspace(box[0], box[1], 50) + 1j * box[2]  # bottom edge: D overflows there
+    lk, lz = np.repeat(ks, loop.size), np.tile(loop, ks.size)
+
+    separate = pair_function(case)
+    assert separate is not None
+    want_t = separate(ks, om)
+    assert not separate.scaled  # the tracer's points alone need no scale
+    want_c = separate(lk, lz)
+    assert set(separate.scaled) == {0.3, 0.35}
+
+    pairs = pair_function(case)
+    assert pairs is not None
+    carrier = _Carrier(pairs)
+    assert carrier.take() is None
+    carrier.carry(lk, lz)
+    got_t = carrier(ks, om)
+    assert not pairs.scaled
+    got_c = carrier.take()
+    assert got_c is not None and set(pairs.scaled) == {0.3, 0.35}
+    assert carrier.take() is None
+    for got, want in ((got_t, want_t), (got_c, want_c)):
+        for g, w in zip(got, want, strict=True):
+            fin = np.isfinite(w)
+            assert np.array_equal(fin, np.isfinite(g))
+            assert np.all(np.abs(g[fin] - w[fin]) <= 1e-12 * np.max(np.abs(w[fin])))

@@ -182,11 +182,33 @@ class BoundaryCounter:
         self._smooth_der = np.zeros(1, complex)
         #: Points evaluated by this counter (boundary and exclusion circles).
         self.evaluations = 0
+        self._started: tuple[list[float], np.ndarray] | None = None
 
     # -- public -------------------------------------------------------------------
+    def start(self, params: Sequence[float]) -> tuple[np.ndarray, np.ndarray]:
+        """The (p, z) pairs that :meth:`count` at ``params`` evaluates first: its start loop
+        at each p in turn.  A caller that evaluates them together with other work (one
+        call of the family instead of two) hands their values (f, f') to
+        ``count(params, first=...)``."""
+        ps = [float(p) for p in params]
+        loop = self._start_loop(ps)
+        return np.repeat(np.array(ps), loop.size), np.tile(loop, len(ps))
+
+    def _start_loop(self, ps: list[float]) -> np.ndarray:
+        """The loop a count at ``ps`` starts from (the last one, with the feature points of
+        its first and last p); the same array for the same ``ps`` until the next count."""
+        if self._started is not None and self._started[0] == ps:
+            return self._started[1]
+        loop = self.loop
+        if self.features is not None:
+            loop = self._with_features(loop, [*self.features(ps[0]), *self.features(ps[-1])])
+        self._started = (ps, loop)
+        return loop
+
     def count(self, params: Sequence[float], *, family: Family | None = None,
               pairs: PairFamily | None = None,
-              known: Sequence[Sequence[complex]] | None = None) -> list[BoundaryCount]:
+              known: Sequence[Sequence[complex]] | None = None,
+              first: tuple[np.ndarray, np.ndarray] | None = None) -> list[BoundaryCount]:
         """Counts at each of ``params``: one batch (``pairs``) or one p at a time.
 
         ``known[i]``, optional, lists zeros of f at ``params[i]`` believed to lie inside
@@ -196,6 +218,9 @@ class BoundaryCounter:
         inside are exactly the listed zeros), so the count stays exact whatever the list.
         The listed zeros no longer make the phase turn fast along nearby edges, so far
         fewer samples resolve the boundary.
+
+        ``first``, optional: f and f' at the pairs :meth:`start` gave for these
+        ``params`` (evaluated by the caller), in place of this call's first evaluation.
         """
         ps = [float(p) for p in params]
         if not ps:
@@ -203,13 +228,19 @@ class BoundaryCounter:
         if pairs is None and family is None:
             raise ValueError("give family or pairs")
 
-        def raw(idx: list[int], zs: list[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
+        def raw(idx: list[int], zs: list[np.ndarray], given: tuple[np.ndarray, np.ndarray]
+                | None = None) -> list[tuple[np.ndarray, np.ndarray]]:
             n = sum(z.size for z in zs)
             self.evaluations += n
-            if pairs is not None:
-                pp = np.concatenate([np.full(z.size, ps[i]) for i, z in zip(idx, zs, strict=True)])
-                f, d = pairs(pp, np.concatenate(zs))
-                f, d = np.asarray(f, complex), np.asarray(d, complex)
+            if given is not None or pairs is not None:
+                if given is None:
+                    assert pairs is not None
+                    pp = np.concatenate([np.full(z.size, ps[i])
+                                         for i, z in zip(idx, zs, strict=True)])
+                    given = pairs(pp, np.concatenate(zs))
+                f, d = np.asarray(given[0], complex), np.asarray(given[1], complex)
+                if f.shape != (n,) or d.shape != (n,):
+                    raise ValueError(f"first: {n} values expected, not {f.shape}, {d.shape}")
                 out, j = [], 0
                 for z in zs:
                     out.append((f[j:j + z.size], d[j:j + z.size]))
@@ -228,10 +259,11 @@ class BoundaryCounter:
                            if x0 < z.real < x1 and y0 < z.imag < y1], dtype=complex)
                  for i in range(m)]
 
-        def evaluate(idx: list[int], zs: list[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
+        def evaluate(idx: list[int], zs: list[np.ndarray], given: tuple[np.ndarray, np.ndarray]
+                     | None = None) -> list[tuple[np.ndarray, np.ndarray]]:
             """``raw`` deflated by the known zeros of each p and by the smooth factor."""
             out = []
-            for i, z, (f, d) in zip(idx, zs, raw(idx, zs), strict=True):
+            for i, z, (f, d) in zip(idx, zs, raw(idx, zs, given), strict=True):
                 if poles[i].size:
                     with np.errstate(all="ignore"):
                         diff = z[:, None] - poles[i][None, :]
@@ -252,11 +284,10 @@ class BoundaryCounter:
                     scaled.append((f * e[sl], (d - f * p_der[sl]) * e[sl]))
             return scaled
 
-        loop = self.loop
-        if self.features is not None:
-            loop = self._with_features(loop, [*self.features(ps[0]), *self.features(ps[-1])])
+        loop = self._start_loop(ps)
+        self._started = None
         zl = [loop.copy() for _ in range(m)]
-        fd = evaluate(list(range(m)), zl)
+        fd = evaluate(list(range(m)), zl, first)
         fl = [a for a, _ in fd]
         dl = [b for _, b in fd]
         evals = [z.size for z in zl]

@@ -496,7 +496,7 @@ def function_at(case: Case, k: float, *,
 PairFunction = Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]]
 
 
-def pair_function(case: Case) -> PairFunction | None:
+def pair_function(case: Case) -> CasePairs | None:
     """``f(k̂, ω̂) -> (D, dD/dω̂)`` at arrays of normalized (k, ω) pairs, for batched tracing.
 
     Element by element the same function as :func:`function_at` (k̂_j)(ω̂_j).  ``None`` for
@@ -504,15 +504,31 @@ def pair_function(case: Case) -> PairFunction | None:
     """
     if krook.collisional(case.plasma):
         return None
-    units = case.units
-    w_u, l_u = units.omega_unit, units.length_unit
-    box = window(case)
-    # k values where D overflowed in the window: evaluated one k at a time from then on,
-    # with that k's constant scale (function_at's auto_window), so that every later call
-    # at that k sees the same D/2^N
-    scaled: dict[float, NormalizedDispersion] = {}
+    return CasePairs(case)
 
-    def pairs(k: np.ndarray, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+
+class CasePairs:
+    """The pair function of :func:`pair_function`: a call is :meth:`values` (one dispersion
+    call) then :meth:`finish` (the constant scale of each k where D overflowed), so that
+    several groups of pairs can share one dispersion call and still be finished one group
+    after the other, each as its own call would be."""
+
+    def __init__(self, case: Case) -> None:
+        self.case = case
+        self.box = window(case)
+        # k values where D overflowed in the window: evaluated one k at a time from then
+        # on, with that k's constant scale (function_at's auto_window), so that every
+        # later call at that k sees the same D/2^N
+        self.scaled: dict[float, NormalizedDispersion] = {}
+
+    def __call__(self, k: np.ndarray, omega: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        return self.finish(*self.values(k, omega))
+
+    def values(self, k: np.ndarray, omega: np.ndarray
+               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """k and ω broadcast, D and dD/dω̂ as evaluated (not finite where they overflow)."""
+        case = self.case
+        w_u, l_u = case.units.omega_unit, case.units.length_unit
         kk, om = np.broadcast_arrays(np.asarray(k, dtype=float),
                                      np.asarray(omega, dtype=complex))
         with np.errstate(over="ignore", invalid="ignore"):
@@ -521,18 +537,24 @@ def pair_function(case: Case) -> PairFunction | None:
                 model=case.model, omega_ref=w_u, harmonic_tol=case.solver.harmonic_tolerance,
             )
             dd = dd * w_u  # may overflow: such k are evaluated again below, scaled
+        return kk, om, d, dd
+
+    def finish(self, kk: np.ndarray, om: np.ndarray, d: np.ndarray, dd: np.ndarray
+               ) -> tuple[np.ndarray, np.ndarray]:
+        """The values of :meth:`values` with every k where they overflowed (now or in an
+        earlier call) evaluated again with that k's constant scale."""
         bad = np.isfinite(om) & ~(np.isfinite(d) & np.isfinite(dd))
         todo = {float(v) for v in np.unique(kk[bad])} | {
-            float(v) for v in np.unique(kk) if float(v) in scaled}
+            float(v) for v in np.unique(kk) if float(v) in self.scaled}
+        if todo:
+            d, dd = d.copy(), dd.copy()
         for kv in todo:
-            f = scaled.get(kv)
+            f = self.scaled.get(kv)
             if f is None:
-                f = scaled[kv] = function_at(case, kv, auto_window=box)
+                f = self.scaled[kv] = function_at(self.case, kv, auto_window=self.box)
             sel = kk == kv
             d[sel], dd[sel] = f(om[sel])
         return d, dd
-
-    return pairs
 
 
 #: Largest log₂|D| left on a window's boundary after the constant scale of

@@ -38,6 +38,7 @@ from kinroots.roots import (
 from kinroots.roots.boundary import BoundaryCounter
 from kinroots.study.problem import (
     MATCH_FRACTION,
+    CasePairs,
     PairFunction,
     dispersion_at,
     function_at,
@@ -171,6 +172,49 @@ def _inside(z: complex, box: tuple[float, float, float, float]) -> bool:
     return box[0] <= z.real <= box[1] and box[2] <= z.imag <= box[3]
 
 
+class _Carrier:
+    """The tracer's pair function, whose next call also evaluates the (p, z) pairs of a
+    zero count (:meth:`BoundaryCounter.start`): one dispersion call per batch instead of
+    two.  With a :class:`~kinroots.study.problem.CasePairs` the carried values are finished
+    (per-k scale) only when the count takes them, so the tracer's values are those of its
+    own call.  Without a tracer call the count evaluates them itself (``take`` gives None).
+    """
+
+    def __init__(self, pairs: PairFunction) -> None:
+        self.pairs = pairs
+        self._extra: tuple[np.ndarray, np.ndarray] | None = None
+        self._held: tuple[np.ndarray, ...] | None = None
+
+    def carry(self, p: np.ndarray, z: np.ndarray) -> None:
+        self._extra, self._held = (p, z), None
+
+    def take(self) -> tuple[np.ndarray, np.ndarray] | None:
+        held, self._extra, self._held = self._held, None, None
+        if held is None:
+            return None
+        if isinstance(self.pairs, CasePairs):
+            kk, om, d, dd = held
+            return self.pairs.finish(kk, om, d, dd)
+        return held[0], held[1]
+
+    def __call__(self, p: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        if self._extra is None:
+            return self.pairs(p, z)
+        (ep, ez), self._extra = self._extra, None
+        pb, zb = np.broadcast_arrays(np.asarray(p, dtype=float), np.asarray(z, dtype=complex))
+        n = pb.size
+        pp = np.concatenate([pb.ravel(), ep])
+        zz = np.concatenate([zb.ravel(), ez])
+        if isinstance(self.pairs, CasePairs):
+            kk, om, d, dd = self.pairs.values(pp, zz)
+            self._held = (kk[n:], om[n:], d[n:], dd[n:])
+            f, df = self.pairs.finish(kk[:n], om[:n], d[:n], dd[:n])
+        else:
+            f, df = self.pairs(pp, zz)
+            self._held = (f[n:], df[n:])
+        return f[:n].reshape(pb.shape), df[:n].reshape(pb.shape)
+
+
 def follow_branches(
     family: Callable[[float], AnalyticFunction],
     params: list[float],
@@ -247,7 +291,9 @@ def follow_branches(
         def pairs_back(q: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             return pairs(-np.asarray(q), z)
 
-    tracer = Tracer(family, box=box, param=params[0], rtol=rtol, order=4, pairs=pairs)
+    carrier = _Carrier(pairs) if pairs is not None and count else None
+    tracer = Tracer(family, box=box, param=params[0], rtol=rtol, order=4,
+                    pairs=carrier if carrier is not None else pairs)
     counter = BoundaryCounter(box, excluded=excluded, features=features)
     out: dict[int, TracedBranch] = {}  # tracer branch id -> TracedBranch
     results: list[TracedBranch] = []
@@ -383,6 +429,8 @@ def follow_branches(
             if progress:
                 progress(first + n, len(params))
 
+        if carrier is not None:  # the count's first samples ride on the tracer's call
+            carrier.carry(*counter.start(params[i:j + 1]))
         tracer.advance_through(params[i:j + 1], on_target=done)
         for tid, b in enumerate(tracer.branches):
             tb = out[tid]
@@ -394,7 +442,8 @@ def follow_branches(
             known = [[pt.value for b in results if (pt := b.points.get(q)) is not None
                       and pt.converged for _ in range(pt.multiplicity)]
                      for q in params[i:j + 1]]
-            got = counter.count(params[i:j + 1], pairs=pairs, family=family, known=known)
+            got = counter.count(params[i:j + 1], pairs=pairs, family=family, known=known,
+                                first=carrier.take() if carrier is not None else None)
             for c in got:
                 counts[c.param] = (c.count, c.note)
             for m in range(i, j + 1):
