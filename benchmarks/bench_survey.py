@@ -4,7 +4,9 @@ For every example case (first, middle and last k of its scan, its own window), f
 wider windows that hold many damped roots, and for the shared known-zero problems
 (tests/_problems.py), the survey runs twice: with the baseline switch
 (``kinroots.roots.survey._BASELINE``: the old cluster circle growing to twice its cell,
-one circle per cluster root, one-point Newton) and as it is now.  Printed: evaluations
+one circle per cluster root, one-point Newton, the nine-point noise check; and
+``kinroots.roots.contour._EVEN_SPLIT`` off: failing boundary segments bisected) and as
+it is now.  Printed: evaluations
 (deterministic), wall time, and whether every root of the baseline is found again
 ("lost" counts those that are not; it must be 0) with the same count.
 """
@@ -23,6 +25,7 @@ sys.path.insert(0, str(ROOT / "tests"))
 from _problems import PROBLEMS  # noqa: E402
 
 survey_module = importlib.import_module("kinroots.roots.survey")  # kinroots.roots: the API function
+contour_module = importlib.import_module("kinroots.roots.contour")
 from kinroots.io.case import load_case  # noqa: E402
 from kinroots.roots import find_roots  # noqa: E402
 from kinroots.study.problem import survey  # noqa: E402
@@ -52,12 +55,14 @@ def _jobs():
 
 def _run(job, baseline: bool):
     survey_module._BASELINE = baseline
+    contour_module._EVEN_SPLIT = not baseline
     try:
         t0 = time.perf_counter()
         res = job()
         return res, time.perf_counter() - t0
     finally:
         survey_module._BASELINE = False
+        contour_module._EVEN_SPLIT = True
 
 
 def main() -> None:

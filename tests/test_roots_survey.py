@@ -7,6 +7,8 @@ cross-checks of the polynomial cases.
 
 from __future__ import annotations
 
+import math
+
 import mpmath
 import numpy as np
 import pytest
@@ -214,3 +216,29 @@ def test_newton_starts_improve_together_and_respect_the_region() -> None:
     z = np.concatenate(points)
     assert not np.any(z == starts[3])
     assert all(p.size <= 3 for p in points)  # one call per iteration for all starts
+
+
+def test_boundary_segments_turning_evenly_are_cut_into_passing_pieces(monkeypatch) -> None:
+    # f = e^{40iz} on the real segment [0, 1]: its phase turns at the constant rate 40,
+    # so the π/4 rule needs at least ⌈40/(π/4)⌉ = 51 segments (closed form)
+    from kinroots.roots import contour
+    from kinroots.roots.result import CountedFunction
+
+    def f(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        return np.exp(40j * z), 40j * np.exp(40j * z)
+
+    def sampled() -> int:
+        sampler = contour.BoundarySampler(CountedFunction(f), max_evaluations=10_000)
+        edge = contour.Edge(("h", 0.0), 0.0, 1.0)
+        (status,) = sampler.resolve([edge], n_init=6, min_len=1e-9)
+        z, fv, dv = sampler.samples(edge)
+        assert status.resolved and np.all(contour.segment_ok(z, fv, dv))
+        return z.size
+
+    least = math.ceil(40 / contour.PHASE_STEP)
+    even = sampled()
+    assert least + 1 <= even <= 1.1 * least + 1
+    # bisection alone halves the six first segments (6.7 rad each) to 0.83 rad, still
+    # above π/4, and once more: 96 segments
+    monkeypatch.setattr(contour, "_EVEN_SPLIT", False)
+    assert sampled() == 6 * 16 + 1

@@ -280,6 +280,43 @@ def feature_params(edge: Edge, features: Sequence[tuple[complex, float]], spacin
     return np.concatenate(out) if out else np.zeros(0)
 
 
+#: A failing segment whose predicted phase rates at its two ends agree within this
+#: factor is cut into equal pieces at once (:func:`_split_points`).
+_EVEN_RATES = 2.0
+#: Off: every failing segment is bisected, as before issue 14 (set only by the baseline
+#: of ``benchmarks/bench_survey.py``).
+_EVEN_SPLIT = True
+
+
+def _split_points(t: np.ndarray, z: np.ndarray, f: np.ndarray, d: np.ndarray,
+                  bad: np.ndarray) -> np.ndarray:
+    """New line parameters inside the failing segments ``bad`` (indices into the
+    samples t, z, f, f' of one edge).
+
+    A segment over which f turns evenly (the rates |Im(g Δz)|, g = f'/f, at its two
+    ends within :data:`_EVEN_RATES` of each other) is cut into ⌈Φ/PHASE_STEP⌉ equal
+    pieces, Φ the larger of its measured phase change and the mean of the two rates:
+    each piece is then predicted to pass, where bisection would take ⌈log₂⌉ rounds and
+    up to twice the pieces.  Any other failing segment is bisected.  The pieces are
+    still tested by :func:`segment_ok` (the rule is unchanged, only where the next
+    samples go).
+    """
+    t0, t1 = t[bad], t[bad + 1]
+    with np.errstate(all="ignore"):
+        g = d / f
+        dz = np.diff(z)[bad]
+        a = np.abs((g[bad] * dz).imag)
+        b = np.abs((g[bad + 1] * dz).imag)
+        phase = np.maximum(0.5 * (a + b), np.abs(np.angle(f[bad + 1] / f[bad])))
+        even = (np.minimum(a, b) > 0) & (np.maximum(a, b) <= _EVEN_RATES * np.minimum(a, b))
+        pieces = np.where(even & np.isfinite(phase) & _EVEN_SPLIT,
+                          np.ceil(phase / PHASE_STEP), 2)
+    pieces = np.clip(np.nan_to_num(pieces, nan=2.0), 2, 16).astype(int)
+    return np.concatenate([0.5 * (t0[j] + t1[j:j + 1]) if m == 2 else
+                           t0[j] + (t1[j] - t0[j]) * np.arange(1, m) / m
+                           for j, m in enumerate(pieces)])
+
+
 class BoundarySampler:
     """Adaptive samples of f on axis-parallel lines, shared by all cells of a survey.
 
@@ -392,9 +429,8 @@ class BoundarySampler:
                     where = [complex(0.5 * (z[j] + z[j + 1])) for j in bad[seglen <= min_len]]
                     status[i] = EdgeStatus(False, where)
                     continue
-                zs = self.samples(e)[0]
-                tt = zs.real if e.key[0] == "h" else zs.imag
-                requests.append((e, 0.5 * (tt[bad] + tt[bad + 1])))
+                tt = z.real if e.key[0] == "h" else z.imag
+                requests.append((e, _split_points(tt, z, f, d, bad)))
             if not requests:
                 break
             n_new = sum(r[1].size for r in requests)
