@@ -74,6 +74,8 @@ def as_case(case: CaseLike) -> Case:
 
 def _positive_k(k: Any) -> float:
     try:
+        if isinstance(k, bool):
+            raise TypeError("a bool is not a wavenumber")
         value = float(k)
     except (TypeError, ValueError):
         raise ValueError(f"k: got {k!r}, expected one finite number > 0 (normalized)"
@@ -378,6 +380,10 @@ def sweep(case: CaseLike, workers: int | None = None, scheduler: Any = None) -> 
     from kinroots.io.netcdf import sweep_dataset
     from kinroots.study.sweep import check_ranges, run_points
 
+    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int)
+                                or workers < 1):
+        raise ValueError(f"workers: got {workers!r}, expected an integer >= 1 (or None: one "
+                         "per core)")
     c = as_case(case)
     src = str(c.source) if c.source else "case"
     if c.sweep is None:
@@ -429,7 +435,14 @@ class DispersionFunction:
         return str(self._d.scaling)
 
     def _omega_si(self, omega: Any) -> np.ndarray:
-        return np.asarray(omega, dtype=complex) * self.case.units.omega_unit
+        try:
+            om = np.asarray(omega, dtype=complex)
+        except (TypeError, ValueError):
+            raise ValueError(f"omega: got {omega!r}, expected complex numbers (normalized "
+                             f"frequency, units of {self.case.units.frequency_label_ascii})"
+                             ) from None
+        with np.errstate(over="ignore", invalid="ignore"):
+            return om * self.case.units.omega_unit  # beyond double: inf, so D is NaN
 
     def __call__(self, omega: Any) -> np.ndarray:
         """D at normalized ω (any shape, complex allowed)."""

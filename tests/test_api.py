@@ -366,3 +366,19 @@ def test_launch_refuses_bad_frequencies(freqs):
     case = kinroots.load_case(REPO / "cases" / "lab_launched_ion_acoustic.toml")
     with pytest.raises(ValueError, match="frequencies_hz: got .*expected"):
         kinroots.launch(case, frequencies_hz=freqs)
+
+
+def test_api_inputs_named_in_errors():
+    case = kinroots.load_case(REPO / "cases" / "hydrogen_discharge.toml")
+    with pytest.raises(ValueError, match="k: got True"):
+        kinroots.roots(case, True)
+    with pytest.raises(ValueError, match="workers: got -3"):
+        kinroots.sweep(REPO / "cases" / "sweep_proton_anisotropy.toml", workers=-3)
+    f = kinroots.dispersion(case, 0.3)
+    with pytest.raises(ValueError, match="omega: got 'x', expected complex"):
+        f("x")
+    # no value beyond double precision or at ω = ∞: NaN in both parts (a NaN real part
+    # with imaginary part 0 would read as a number on the real axis)
+    d = f(np.array([1e300, np.inf, 1.1]))
+    assert np.isnan(d[:2].real).all() and np.isnan(d[:2].imag).all()
+    assert np.isfinite(d[2])

@@ -75,6 +75,9 @@ _N_CIRCLE = 32
 _K_FRACTION = 1e-3
 
 
+#: NaN in both parts: where D has no value (a real part of NaN alone reads as γ = 0).
+_NAN = complex(math.nan, math.nan)
+
 def _canonical_model(model: str) -> str:
     try:
         return MODELS[model.strip().lower()]
@@ -244,8 +247,8 @@ def _combine_scaled(
 def _nan_where(bad: np.ndarray, d: np.ndarray, dd: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """D and dD with NaN where ``bad`` (non-finite or invalid inputs)."""
     if np.any(bad):
-        d = np.where(bad, np.nan + 0j, d)
-        dd = np.where(bad, np.nan + 0j, dd)
+        d = np.where(bad, _NAN, d)
+        dd = np.where(bad, _NAN, dd)
     return d, dd
 
 
@@ -740,8 +743,8 @@ class Dispersion:
                 blk = flat[i : i + self.block]
                 a, b, c = self._scaled_block(blk)
                 bad = ~np.isfinite(blk)
-                fd[i : i + self.block] = np.where(bad, np.nan + 0j, a)
-                fdd[i : i + self.block] = np.where(bad, np.nan + 0j, b)
+                fd[i : i + self.block] = np.where(bad, _NAN, a)
+                fdd[i : i + self.block] = np.where(bad, _NAN, b)
                 fp[i : i + self.block] = np.where(bad, 0, c)
         return d, dd, p
 
@@ -1373,8 +1376,8 @@ def _in_k_unmagnetized_scaled(
     """:func:`dispersion_in_k_scaled` at unmagnetized points where the plain D overflows."""
     cos, sin = _cos_sin_deg(angle_deg)
     em = model == "electromagnetic"
-    d = np.full(k.shape, np.nan + 0j)
-    dd = np.full(k.shape, np.nan + 0j)
+    d = np.full(k.shape, _NAN)
+    dd = np.full(k.shape, _NAN)
     p = np.zeros(k.shape, dtype=np.int64)
     want = landau_bits_unmagnetized(plasma, np.full(k.shape, omega), k * cos, k * sin)
     with np.errstate(all="ignore"):
@@ -1403,8 +1406,8 @@ def _in_k_cauchy_scaled(
     """:func:`dispersion_in_k_scaled` at magnetized points where the plain D overflows:
     each k and its Cauchy circle (:func:`~kinroots.physics.models.krook_dispersion.
     scaled_cauchy_derivative`) through :meth:`Dispersion.scaled`, one k at a time."""
-    d = np.full(k.shape, np.nan + 0j)
-    dd = np.full(k.shape, np.nan + 0j)
+    d = np.full(k.shape, _NAN)
+    dd = np.full(k.shape, _NAN)
     p = np.zeros(k.shape, dtype=np.int64)
     om = np.array([complex(omega)])
     cos, _ = _cos_sin_deg(angle_deg)
