@@ -25,6 +25,7 @@ from scipy.special import wofz
 from kinroots.physics.plasma import EV, Species
 from kinroots.physics.zfunc import (
     _exp_term_scalar,
+    _f_table_scalar,
     plasma_z_and_prime,
     shift_exponent,
     z_and_f_scalar,
@@ -291,6 +292,10 @@ def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
         if r < _ZETA_FADDEEVA:
             zf = (1j * _SQRT_PI) * complex(wofz(zeta))
             m1 = -(1.0 + zeta * zf)
+        elif zeta.imag >= 0.0:  # F from the Taylor table, as z_and_f_scalar takes it here
+            f = _f_table_scalar(zeta)
+            zf = (f - 1.0) / zeta
+            m1 = -f
         else:
             zf, f = z_and_f_scalar(zeta)
             m1 = -f
@@ -460,10 +465,11 @@ def merged_series(kappas: tuple[float, ...], coefficients: tuple[complex, ...]
     tuple or None
         Indexed as :data:`_SCALAR_ROWS` (int(|ζ_0|), the last entry for |ζ_0| ≥
         _COUNT_TABLE_END), with the term count n_t of :data:`_SCALAR_COUNTS` there: the
-        Horner data (B_{n_t−1}, (n_t−1)B_{n_t−1}, ((B_n, n·B_n) for n = n_t − 2 … 1)) of
+        Horner data (B_{n_t−1}, 2(n_t−1)B_{n_t−1}, ((B_n, 2n·B_n) for n = n_t − 2 … 1))
+        of
 
-            Σ_s c_s M_1(ζ_s) = P(X) = Σ_{n≥1} B_n X^n,
-            Σ_s (c_s/κ_s) dM_1/dζ(ζ_s) = −(2/W) Σ_{n≥1} n B_n X^n,
+            Σ_s c_s M_1(ζ_s) = Σ_{n≥1} B_n X^n,
+            Σ_s (c_s/κ_s) dM_1/dζ(ζ_s) = −(1/W) Σ_{n≥1} 2n B_n X^n,
 
         X = (κ_0/W)², B_n = a_n Σ_s c_s (κ_s/κ_0)^{2n}, without the Landau terms (added
         per species by the caller); None if a coefficient is not finite.
@@ -474,8 +480,8 @@ def merged_series(kappas: tuple[float, ...], coefficients: tuple[complex, ...]
     dM_1/dζ = −(2/ζ) Σ_{n≥1} n a_n ζ^{−2n} (a_n = (2n − 1)!!/2^n, Fried & Conte 1961):
     ζ_s^{−2} = (κ_s/κ_0)² X and ζ_s κ_s = W. The count where |ζ_0| = |W|/κ_0 ≥ 7 (the
     warmest species) serves every species, since the n-th term of each, relative to
-    its first, a_n ζ_s^{2−2n}, is at most that of species 0; the first terms c_s/ζ_s² =
-    −2ω_ps²/W² share one phase, so the sum does not cancel.
+    its first, (a_n/a_1)|ζ_s|^{2−2n}, is at most that of species 0; the first terms
+    a_1 c_s/ζ_s² = −ω_ps²/W² share one phase, so the sum does not cancel.
     """
     top = max(_SCALAR_COUNTS)
     b = [0j] * top
@@ -483,13 +489,13 @@ def merged_series(kappas: tuple[float, ...], coefficients: tuple[complex, ...]
         ratio = (kappa / kappas[0]) ** 2
         power = 1.0
         for n in range(1, top):
-            power *= ratio  # underflows to 0 for a much colder species: its term is below
-            b[n] += c * (_A_LIST[n] * power)  # 1e-300 of its first
+            power *= ratio  # (κ_s/κ_0)^{2n}: 0 (underflow) only where that term is
+            b[n] += c * (_A_LIST[n] * power)  # far below the species' first one
     if not all(cmath.isfinite(v) for v in b):
         return None
     rows: dict[int, MergedRow] = {}
     for count in set(_SCALAR_COUNTS):
         last = count - 1
-        rows[count] = (b[last], last * b[last],
-                       tuple((b[n], n * b[n]) for n in range(last - 1, 0, -1)))
+        rows[count] = (b[last], 2 * last * b[last],
+                       tuple((b[n], 2 * n * b[n]) for n in range(last - 1, 0, -1)))
     return tuple(rows[count] for count in _SCALAR_COUNTS)

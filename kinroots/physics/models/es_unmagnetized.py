@@ -261,7 +261,7 @@ class SpeciesSum:
                         acc = acc * x + b
                         dacc = dacc * x + nb
                     v += x * acc
-                    d -= (2.0 * x / big) * dacc
+                    d -= x / big * dacc
                     if big.imag <= 0.0:  # Landau terms, as in first_moment_scalar
                         v, d = _landau_terms(big, members[j:], v, d)
                     break
