@@ -4,7 +4,7 @@ against tracing alone (one survey at the first k, nothing checked after it), in 
 Case: three species (electrons, bi-Maxwellian protons, alphas), electromagnetic,
 magnetized, 45° to B, 1,000 k points (our own invented parameters, solar-wind-like).
 
-Printed: wall time of both (min over ``REPEAT`` runs) and their ratio, dispersion
+Printed: wall time of both (min over ``REPEAT`` runs, interleaved) and their ratio, dispersion
 evaluations per k of both (deterministic), how they split (surveys, boundary counts,
 tracing), the points verified by a count, and the roots lost: traced points of the
 tracing-alone run that are missing from the default run's table (must be 0).  The same
@@ -25,7 +25,7 @@ from kinroots.io.case import parse_case
 from kinroots.roots import boundary
 from kinroots.study.solve import solve
 
-REPEAT = 2
+REPEAT = 3
 
 
 def case(points: int = 1000):
@@ -45,16 +45,19 @@ def case(points: int = 1000):
     }, "<bench-resurvey>")
 
 
-def timed(c, count):
-    """Best wall time and best CPU time of this process over ``REPEAT`` runs (CPU time
-    moves less than wall time when other work shares the cores), and the solution."""
-    best, cpu, sol = float("inf"), float("inf"), None
-    for _ in range(REPEAT):
+def run(c, count, setting=None):
+    """Wall and CPU time of one solve (CPU time moves less than wall time when other work
+    shares the cores), with ``setting`` = (name, value) of ``boundary`` during it."""
+    was = getattr(boundary, setting[0]) if setting else None
+    if setting:
+        setattr(boundary, *setting)
+    try:
         t0, c0 = time.perf_counter(), time.process_time()
         sol = solve(c, count=count)
-        best = min(best, time.perf_counter() - t0)
-        cpu = min(cpu, time.process_time() - c0)
-    return (best, cpu), sol
+        return (time.perf_counter() - t0, time.process_time() - c0), sol
+    finally:
+        if setting:
+            setattr(boundary, setting[0], was)
 
 
 def table(sol):
@@ -72,17 +75,18 @@ def lost(off, on, tol):
 def main() -> int:
     points = int(sys.argv[1]) if len(sys.argv) > 1 else 1000
     c = case(points)
-    t_off, off = timed(c, False)
-    variants = {}
-    for name, setting in (("counts without the smooth factor", ("SMOOTH_DEGREE", 0)),
-                          ("loops thinned, not respaced", ("RESPACE", False))):
-        was = getattr(boundary, setting[0])
-        setattr(boundary, setting[0], setting[1])
-        try:
-            variants[name] = timed(c, True)
-        finally:
-            setattr(boundary, setting[0], was)
-    t_on, on = timed(c, True)
+    runs = {"off": (False, None), "on": (True, None),
+            "counts without the smooth factor": (True, ("SMOOTH_DEGREE", 0)),
+            "loops thinned, not respaced": (True, ("RESPACE", False))}
+    best: dict[str, tuple[float, float]] = {}
+    sols = {}
+    for _ in range(REPEAT):  # the runs interleaved: load changes hit all of them alike
+        for name, (count, setting) in runs.items():
+            t, sols[name] = run(c, count, setting)
+            old = best.get(name, (float("inf"), float("inf")))
+            best[name] = (min(old[0], t[0]), min(old[1], t[1]))
+    t_off, off, t_on, on = best["off"], sols["off"], best["on"], sols["on"]
+    variants = {name: (best[name], sols[name]) for name in list(runs)[2:]}
     n = len(c.k_values)
     surveys = sum(s.evaluations for _, s in on.surveys)
     print(f"{c.title}: {n} k points, {len(on.branches)} branches, "
