@@ -80,13 +80,20 @@ def _csv(path: Path) -> list[dict[str, str]]:
         return list(csv.DictReader(fh))
 
 
-def _md_table(md: str, title: str) -> list[list[str]]:
-    """Body cells of the Markdown table under the heading ``## title``."""
+def _md_table(md: str, title: str, names: bool = False) -> list[list[str]]:
+    """Body cells of the Markdown table under the heading ``## title``; without the
+    wave-name column (second column, header "wave" or "name") unless ``names``."""
     part = md.split(f"## {title}", 1)[1]
     lines = [ln for ln in part.splitlines() if ln.startswith("|")]
+
+    def cells(ln: str) -> list[str]:
+        return [c.strip().replace("\\|", "|") for c in re.split(r"(?<!\\)\|", ln)[1:-1]]
+
+    drop = not names and len(cells(lines[0])) > 1 and cells(lines[0])[1] in ("wave", "name")
     body = []
     for ln in lines[2:]:
-        body.append([c.strip().replace("\\|", "|") for c in re.split(r"(?<!\\)\|", ln)[1:-1]])
+        row = cells(ln)
+        body.append(row[:1] + row[2:] if drop else row)
         if not part.split(ln, 1)[1].startswith("\n|"):
             break
     return body
@@ -125,8 +132,16 @@ def test_solve_report_matches_csv(outputs: dict[str, Path], points: int) -> None
         eps = relative_uncertainty(rtol, float(src["residual"]))
         d_i = digits_for(eps, abs(complex(wr, wi)), wi)
         assert cells[3] == format_significant(wi, d_i)
+    # the wave's name and the relative residual (|D| over D's largest term), from the CSV
+    named = _md_table(md, "solve: roots", names=True)
+    header = md.split("## solve: roots", 1)[1].split("|\n", 1)[0]
+    assert "| wave |" in header and "relative residual" in header
+    for cells in named:
+        src = csv_rows[(cells[0], float(cells[2]))]
+        assert cells[1] == src["wave_name"]
+        assert _agrees(cells[8], float(src["relative_residual"]))
     tex = (folder / "report_solve.tex").read_text()
-    _check_tabular(tex, len(rows), 9)
+    _check_tabular(tex, len(rows), 10)
 
 
 def _check_tabular(tex: str, n_rows: int, n_cols: int) -> None:

@@ -120,22 +120,43 @@ def _component(value: float, digits: int, unresolved: bool) -> str:
     return UNRESOLVED if unresolved else format_significant(value, digits)
 
 
-def _residual(row: dict[str, Any]) -> str:
-    r = row.get("residual")
+def _residual_column(rows: list[dict[str, Any]]) -> tuple[Column, str]:
+    """The residual column of a table and the row key it shows: ``relative_residual``
+    (|D| over the largest term of D, judged against rounding; README "Output") where the
+    table has it, else the bare |D| of older tables, whose size depends on the model's
+    scaling of D."""
+    if any("relative_residual" in r for r in rows):
+        return Column("relative residual"), "relative_residual"
+    return Column("residual |D|"), "residual"
+
+
+def _residual(row: dict[str, Any], key: str) -> str:
+    r = row.get(key)
     return format_significant(float(r), 2) if r is not None and finite(r) else "—"
+
+
+def _wave(row: dict[str, Any]) -> str:
+    """The row's wave name (``wave_name``: the branch's physical wave, one name over the
+    pieces of a wave that left and re-entered the window), or "—"."""
+    return str(row.get("wave_name") or "—")
 
 
 def _root_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table:
     case = res.case
     wl = case.units.frequency_label if case else "ω_unit"
     kl = case.units.length_label if case else "L"
+    res_col, res_key = _residual_column(rows)
+    named = any("wave_name" in r for r in rows)
     cols = [Column("branch", numeric=False), Column(f"k·{kl}"), Column(f"ω_r/{wl}"),
             Column(f"γ/{wl}"), Column("k", "1/m"), Column("f = ω_r/2π", "Hz"),
-            Column("γ", "1/s"), Column("residual |D|"), Column("flag", numeric=False)]
+            Column("γ", "1/s"), res_col, Column("flag", numeric=False)]
+    if named:
+        cols.insert(1, Column("wave", numeric=False))
     cells = []
     for r in rows:
-        head = [str(r.get("branch", "")), user_number(r.get("k"))]
-        tail = [_residual(r), _flag(r)]
+        head = [str(r.get("branch", ""))] + ([_wave(r)] if named else []) + [
+            user_number(r.get("k"))]
+        tail = [_residual(r, res_key), _flag(r)]
         if not r.get("converged") or not finite(r.get("omega_real")):
             cells.append(head + [FAILED] * 2 + [user_number(r.get("k_per_m"))]
                          + [FAILED] * 2 + tail)
@@ -164,14 +185,18 @@ def _root_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table:
 def _launch_table(res: Result, rows: list[dict[str, Any]], rtol: float) -> Table:
     case = res.case
     kl = case.units.length_label if case else "L"
+    res_col, res_key = _residual_column(rows)
+    named = any("wave_name" in r for r in rows)
     cols = [Column("wave", numeric=False), Column("f", "Hz"), Column(f"Re k·{kl}"),
             Column(f"Im k·{kl}"), Column("wavelength", "m"),
-            Column("damping length 1/Im k", "m"), Column("residual |D|"),
-            Column("flag", numeric=False)]
+            Column("damping length 1/Im k", "m"), res_col, Column("flag", numeric=False)]
+    if named:
+        cols.insert(1, Column("name", numeric=False))
     cells = []
     for r in rows:
-        head = [str(r.get("branch", "")), user_number(r.get("freq_hz"))]
-        tail = [_residual(r), _flag(r)]
+        head = [str(r.get("branch", ""))] + ([_wave(r)] if named else []) + [
+            user_number(r.get("freq_hz"))]
+        tail = [_residual(r, res_key), _flag(r)]
         if not r.get("converged") or not finite(r.get("k_real")):
             cells.append(head + [FAILED] * 4 + tail)
             continue
