@@ -151,7 +151,7 @@ def test_sum_rule_check_in_equilibrium():
 
 def test_probe_below_the_cutoff_is_refused():
     # ω² = ω_pe² + k²c² (Chen, Introduction to Plasma Physics and Controlled Fusion, 3rd
-    # ed. 2016, sec. 4.16): a probe at 0.9 ω_pe does not propagate; ω_pe from
+    # ed. 2016, ch. 4, chapter from memory): a probe at 0.9 ω_pe does not propagate; ω_pe from
     # scipy.constants, independently of kinroots' own plasma frequency
     from scipy import constants as sc
 

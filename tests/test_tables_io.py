@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 import os
 import stat
 
@@ -220,3 +221,39 @@ def test_the_left_hand_wave_of_the_space_case_is_one_wave():
     wave = {r["branch"]: (r["wave"], r["wave_name"]) for r in rows}
     assert wave[0] == wave[2] == (0, "left-hand")
     assert wave[1] == (1, "right-hand")
+
+
+def test_electrostatic_waves_named_langmuir_and_ion_acoustic():
+    # Rule in rows._electrostatic_name (README, Output). Rows built from the textbook
+    # dispersion relations (Chen, Introduction to Plasma Physics and Controlled Fusion,
+    # 3rd ed. 2016, ch. 4, chapter from memory): Bohm–Gross ω² = ω_pe² + 3k²v_th² (v_th² = T/m) and
+    # the ion acoustic ω = k c_s / (1 + k²λ_De²)^½, c_s = (T_e/m_i)^½; plasma parameters
+    # from scipy.constants, not from kinroots.
+    from pathlib import Path
+
+    from scipy import constants as sc
+
+    from kinroots import load_case
+    from kinroots.study.rows import wave_name
+
+    root = Path(__file__).resolve().parent.parent
+    case = load_case(root / "cases" / "hydrogen_discharge.toml")  # 1e16 m^-3, 2 / 0.2 eV
+    n, te = 1e16, 2.0 * sc.e
+    wpe = math.sqrt(n * sc.e**2 / (sc.epsilon_0 * sc.m_e))
+    lde = math.sqrt(sc.epsilon_0 * te / (n * sc.e**2))
+    cs = math.sqrt(te / sc.m_p)
+
+    def rows(w_of_k):
+        out = []
+        for kl in (0.1, 0.2, 0.3):
+            k = kl / lde
+            out.append(dict(_row(0, kl, complex(w_of_k(k) / case.units.omega_unit, -1e-3)),
+                            k_per_m=k))
+        return out
+
+    assert wave_name(case, rows(lambda k: math.sqrt(wpe**2 + 3 * k**2 * te / sc.m_e))) \
+        == "Langmuir"
+    assert wave_name(case, rows(lambda k: k * cs / math.sqrt(1 + (k * lde) ** 2))) \
+        == "ion acoustic"
+    # between the two (an electron acoustic wave would be here): no name claimed
+    assert wave_name(case, rows(lambda k: 0.2 * wpe)) == "electrostatic"

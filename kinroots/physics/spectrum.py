@@ -166,7 +166,8 @@ def probe_problems(plasma: Plasma, laser_wavelength: Any, scattering_angle_deg: 
     cutoff ω_pe, and the vacuum form needs ω_i ≫ ω_pe; the check asks ω_i > 2 ω_max
     (ω_max > ω_pe), so that every scattered frequency ω_i + ω stays above ω_max > ω_pe
     (cutoff of an unmagnetized plasma, ω² = ω_pe² + k²c²: Chen, *Introduction to Plasma
-    Physics and Controlled Fusion*, 3rd ed. 2016, sec. 4.16).
+    Physics and Controlled Fusion*, 3rd ed. 2016, ch. 4;
+    chapter from memory).
 
     Parameters
     ----------

@@ -168,10 +168,11 @@ def _median(values: list[Any]) -> float | None:
 def wave_name(case: Case, rows: list[dict[str, Any]]) -> str:
     """A name for a wave from its mode identity (median over its converged rows).
 
-    The rule (written down for the README): electrostatic models, "electrostatic";
-    electromagnetic, "left-hand" or "right-hand" where the handedness is below −0.5 or
-    above 0.5 (sense of rotation of the transverse field about B, or about z when
-    B = 0), else "compressive" where |δB_z|/|δB| > 0.5, else "quasi-electrostatic"
+    The rule (written down for the README): electrostatic models, "Langmuir" or "ion
+    acoustic" in unmagnetized plasmas where :func:`_electrostatic_name` recognizes them,
+    else "electrostatic"; electromagnetic, "left-hand" or "right-hand" where the handedness
+    is below −0.5 or above 0.5 (sense of rotation of the transverse field about B, or about
+    z when B = 0), else "compressive" where |δB_z|/|δB| > 0.5, else "quasi-electrostatic"
     where the electrostatic fraction exceeds 0.9, else "transverse, linear" where it is
     below 0.1 (δE across k, not rotating: |handedness| < 0.5 or undefined), else
     "unidentified".  When Re ω is rounding noise on every row (``below_resolution``) the
@@ -187,9 +188,43 @@ def wave_name(case: Case, rows: list[dict[str, Any]]) -> str:
     return name
 
 
+def _electrostatic_name(case: Case, good: list[dict[str, Any]]) -> str:
+    """"Langmuir", "ion acoustic" or "electrostatic" for a wave of an electrostatic model.
+
+    Unmagnetized plasmas only (B = 0), from the median ω_r and phase speed v_φ = ω_r/k of
+    the wave's rows: "Langmuir" where ω_r ≥ 0.5 ω_pe (ω_pe² summed over the electron
+    species; the Bohm–Gross wave ω² = ω_pe² + 3k²v_e² lies above ω_pe), "ion acoustic"
+    where ω_r ≤ 1.05 ω_pi (ω_pi² summed over the ions; the ion acoustic wave
+    ω = k c_s / (1 + k²λ_De²)^½ stays below ω_pi) and v_φ exceeds twice the largest ion
+    thermal speed (it is not an ion thermal mode), else "electrostatic".  Chen,
+    *Introduction to Plasma Physics and Controlled Fusion*, 3rd ed. 2016, ch. 4 (the two
+    waves and their frequency ranges; chapter from memory).
+    """
+    plasma = getattr(case, "plasma", None)
+    units = getattr(case, "units", None)
+    if plasma is None or units is None or plasma.magnetized:
+        return "electrostatic"
+    w_r = _median([r.get("omega_real") for r in good])
+    k = _median([r.get("k_per_m") for r in good])
+    if w_r is None or k is None or k <= 0:
+        return "electrostatic"
+    w_r = abs(w_r) * units.omega_unit
+    electrons = [s for s in plasma.species if s.is_electron]
+    ions = [s for s in plasma.species if not s.is_electron]
+    wpe = math.sqrt(sum(s.plasma_frequency**2 for s in electrons))
+    if electrons and w_r >= 0.5 * wpe:
+        return "Langmuir"
+    if ions:
+        wpi = math.sqrt(sum(s.plasma_frequency**2 for s in ions))
+        v_ti = max(max(s.thermal_speed_par, s.thermal_speed_perp) for s in ions)
+        if w_r <= 1.05 * wpi and w_r / k > 2.0 * v_ti:
+            return "ion acoustic"
+    return "electrostatic"
+
+
 def _identity_name(case: Case, good: list[dict[str, Any]]) -> str:
     if case.model != "electromagnetic":
-        return "electrostatic"
+        return _electrostatic_name(case, good)
     hand = _median([r.get("handedness") for r in good])
     comp = _median([r.get("magnetic_compressibility") for r in good])
     esf = _median([r.get("electrostatic_fraction") for r in good])
