@@ -242,3 +242,50 @@ def test_boundary_segments_turning_evenly_are_cut_into_passing_pieces(monkeypatc
     # above π/4, and once more: 96 segments
     monkeypatch.setattr(contour, "_EVEN_SPLIT", False)
     assert sampled() == 6 * 16 + 1
+
+
+def _steep(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    # e^{40z}(z − a)(z − b): two close zeros under a steep zero-free factor
+    a, b = 0.30 - 0.20j, 0.33 - 0.17j
+    e = np.exp(40 * z)
+    return e * (z - a) * (z - b), e * (40 * (z - a) * (z - b) + (z - a) + (z - b))
+
+
+def test_smooth_log_derivative_is_the_zero_free_part() -> None:
+    # f'/f = 40 + 1/(z − a) + 1/(z − b): the zero-free part is the constant 40 (closed
+    # form), whatever the point inside the rectangle (zeros inside it or not)
+    from kinroots.roots import contour
+    from kinroots.roots.result import CountedFunction
+
+    box = (0.0, 0.6, -0.4, 0.1)
+    sampler = contour.BoundarySampler(CountedFunction(_steep), max_evaluations=10_000)
+    assert all(s.resolved for s in sampler.resolve(contour.rectangle_edges(box), n_init=8,
+                                                   min_len=1e-9))
+    at = np.array([0.3 - 0.15j, 0.1 - 0.3j, 0.5 + 0.0j, 0.31 - 0.19j])
+    got = contour.smooth_log_derivative(*sampler.loop(box), at)
+    # second-order trapezoid on samples spaced by the π/4 phase rule: ~0.5 %, enough
+    # for starting points (Newton's stopping test does not use it)
+    assert np.all(np.abs(got - 40) < 1e-2 * 40), got
+
+
+def test_newton_starts_with_the_background_taken_out_need_fewer_steps() -> None:
+    from kinroots.roots import contour
+    from kinroots.roots.newton import newton_starts
+    from kinroots.roots.result import CountedFunction
+
+    box = (0.0, 0.6, -0.4, 0.1)
+    sampler = contour.BoundarySampler(CountedFunction(_steep), max_evaluations=10_000)
+    sampler.resolve(contour.rectangle_edges(box), n_init=8, min_len=1e-9)
+    loop = sampler.loop(box)
+    starts = np.array([0.28 - 0.23j, 0.36 - 0.15j])  # crude, as Hankel estimates are
+    runs = {}
+    for name, bg in (("plain", None),
+                     ("aberth", lambda at: contour.smooth_log_derivative(*loop, at))):
+        g = CountedFunction(_steep)
+        z, step, last = newton_starts(g, starts, rtol=1e-12, atol=0.0, region=box,
+                                      background=bg)
+        runs[name] = g.evaluations
+        if name == "aberth":  # both zeros, each once (closed form)
+            assert _match(last, np.array([0.30 - 0.20j, 0.33 - 0.17j])).max() < 1e-12
+            assert np.all(step < 1e-13)
+    assert runs["aberth"] < runs["plain"], runs

@@ -144,11 +144,13 @@ def test_ion_acoustic_family_count_and_roots_against_mpmath(ion_acoustic) -> Non
 def test_evaluation_budget_stops_with_one_clear_note(ion_acoustic) -> None:
     f = function_at(ion_acoustic, K_HAT)
     box = (*ion_acoustic.search_real, *ion_acoustic.search_imag)
-    # a budget below what the survey needs (1,467 evaluations in all)
-    res = find_roots(f, box, rtol=1e-12, max_evaluations=1000, evaluations_per_zero=0)
+    # a budget below what the survey needs (976 evaluations in all; 1,467 earlier, when
+    # this budget was 1,000): some zeros isolated, not all
+    res = find_roots(f, box, rtol=1e-12, max_evaluations=800, evaluations_per_zero=0)
     assert res.count is not None and res.count >= 20
     assert not res.complete
     found = sum(r.multiplicity for r in res.roots if r.converged)
+    assert found > 0
     left = [r for r in res.roots if not r.converged]
     assert left and all("budget exhausted" in r.reason for r in left)
     assert found + sum(r.multiplicity for r in left) == res.count  # every zero accounted

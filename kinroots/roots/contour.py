@@ -37,6 +37,7 @@ __all__ = [
     "hankel_zeros",
     "noisy_segments",
     "segment_ok",
+    "smooth_log_derivative",
 ]
 
 #: Largest phase change of f accepted between neighbouring samples (radians).
@@ -171,6 +172,40 @@ def contour_moments(
         )
         s[p] = (zeta[0] ** p * big_l[n] - integral) / (2j * math.pi)
     return s
+
+
+def smooth_log_derivative(z: np.ndarray, fv: np.ndarray, dv: np.ndarray, at: np.ndarray
+                          ) -> np.ndarray:
+    """f'/f less the poles of f's zeros inside a closed sample loop, at points inside it.
+
+    Write f = h·Π(z − ζ_j) over the zeros ζ_j inside the loop, h free of zeros there.
+    For a point z₀ inside, (1/2πi)∮ f'/f(w)/(w − z₀) dw = h'/h(z₀): Cauchy's formula for
+    the analytic h'/h, while each term 1/(w − ζ_j) contributes
+    (1/2πi)∮ dw/((w − ζ_j)(w − z₀)) = 0 (residues 1/(ζ_j − z₀) and 1/(z₀ − ζ_j); derived
+    here).  So the zero-free part of f'/f is known inside a cell from its boundary
+    samples alone, without the zeros.  Trapezoidal rule on the loop's segments (second
+    order: about 0.5 % on samples spaced by the π/4 phase rule, where ``at`` is farther
+    from the loop than their spacing; enough for Newton's starting points).
+
+    Parameters
+    ----------
+    z, fv, dv : ndarray
+        Closed counter-clockwise loop (first point not repeated), f and f' there.
+    at : ndarray
+        Points inside the loop.
+
+    Returns
+    -------
+    ndarray
+        h'/h at ``at``.
+    """
+    at = np.atleast_1d(np.asarray(at, dtype=complex))
+    with np.errstate(all="ignore"):
+        g = dv / fv
+        w1, g1 = np.roll(z, -1), np.roll(g, -1)
+        f0 = g[None, :] / (z[None, :] - at[:, None])
+        f1 = g1[None, :] / (w1[None, :] - at[:, None])
+        return np.sum(0.5 * (w1 - z)[None, :] * (f0 + f1), axis=1) / (2j * math.pi)
 
 
 def hankel_zeros(moments: np.ndarray, n: int, *, rank_tol: float = 1e-8) -> np.ndarray:

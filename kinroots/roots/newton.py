@@ -10,7 +10,7 @@ damped by halving while it would increase ``|f|^{1/m}``.
 from __future__ import annotations
 
 import math
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -257,6 +257,7 @@ def newton_starts(
     atol: float,
     region: Box | None = None,
     maxiter: int = 12,
+    background: Callable[[np.ndarray], np.ndarray] | None = None,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Improve many starting points at once by plain Newton, one f call per iteration.
 
@@ -266,6 +267,15 @@ def newton_starts(
     that last step), when f or f' is not finite, when the step would leave ``region``
     or when its corrections have failed twice in a row to shrink below 0.9 of the one
     before (no zero near: it keeps its last value).
+
+    With ``background`` (f'/f less the poles of the zeros the starts aim at, e.g.
+    :func:`kinroots.roots.contour.smooth_log_derivative` of their cell) the starts move
+    together by the Aberth–Ehrlich correction 1/(f'/f − background(z_k) −
+    Σ_{j≠k} 1/(z_k − z_j)) (O. Aberth, Math. Comp. 27, 339 (1973); L. W. Ehrlich,
+    Comm. ACM 10, 107 (1967); from memory): each start sees f as the polynomial of the
+    zeros, deflated by the others, instead of crawling while a steep zero-free factor
+    (a Landau exponential) dominates f'/f.  It vanishes only where f does, so the
+    zeros reached are f's; the stopping test is still on |f/f'|.
 
     Returns
     -------
@@ -287,6 +297,7 @@ def newton_starts(
     if region is not None:
         active &= np.array([_inside(complex(v), region) for v in z], dtype=bool)
     slow = np.zeros(z.shape, dtype=int)
+    pool = active.copy()  # the starts inside the region: the zeros' current estimates
     for _ in range(maxiter):
         if not np.any(active):
             break
@@ -297,12 +308,19 @@ def newton_starts(
             corr = fv / dv
         good = np.isfinite(corr)
         new_step = np.where(good, np.abs(corr), np.inf)
+        move = corr
+        if background is not None:
+            with np.errstate(all="ignore"):
+                diff = z[idx][:, None] - z[pool][None, :]
+                others = np.where(diff != 0, 1.0 / diff, 0.0).sum(axis=1)
+                aberth = 1.0 / (dv / fv - background(z[idx]) - others)
+            move = np.where(np.isfinite(aberth), aberth, corr)
         # not contracting (a step above 0.9 of the one before) twice in a row: no zero
         # near (at a zero of multiplicity m plain Newton contracts by (m − 1)/m)
         slow[idx] = np.where(new_step > 0.9 * step[idx], slow[idx] + 1, 0)
         step[idx] = new_step
         good &= slow[idx] < 2
-        z_new = z[idx] - np.where(good, corr, 0)
+        z_new = z[idx] - np.where(good, move, 0)
         if region is not None:
             x0, x1, y0, y1 = region
             good &= (z_new.real >= x0) & (z_new.real <= x1) & (z_new.imag >= y0) & (

@@ -52,6 +52,7 @@ from kinroots.roots.contour import (
     contour_moments,
     hankel_zeros,
     rectangle_edges,
+    smooth_log_derivative,
 )
 from kinroots.roots.newton import newton_starts, polish, relative_size
 from kinroots.roots.result import (
@@ -187,7 +188,7 @@ class _Survey:
         self.max_evaluations = max_evaluations
         self.evaluations_per_zero = evaluations_per_zero
         self.max_roots = max_roots
-        self.cluster_size = cluster_size
+        self.cluster_size = min(cluster_size, 4) if _BASELINE else cluster_size
         self.exclusion_radius = exclusion_radius
         self.notes: list[str] = []
         self.cells = 0
@@ -478,9 +479,11 @@ class _Survey:
             starts, step = np.asarray(estimates, complex), np.zeros(len(estimates))
             last = np.full(len(estimates), complex("nan"))
         else:
+            # the starts move together, with the cell's zero-free part of f'/f taken out
+            loop = self.sampler.loop(box)
             starts, step, last = newton_starts(
                 self.func, np.asarray(estimates, complex), rtol=self.rtol, atol=self.atol,
-                region=region)
+                region=region, background=lambda at: smooth_log_derivative(*loop, at))
         # a start still wandering after the array Newton steps (its last |f/f'| beyond
         # a thousandth of the cell) is not polished: the damped Newton of polish would
         # spend up to 40 steps on it; the deflated moments, or the cell's halves, give
@@ -880,7 +883,7 @@ def find_roots(
     atol: float = 0.0,
     max_depth: int = 50,
     max_evaluations: int = 50_000,
-    cluster_size: int = 4,
+    cluster_size: int = 5,
     exclusion_radius: float = 1e-8,
     features: Sequence[tuple[complex, float]] = (),
     evaluations_per_zero: int = 500,
