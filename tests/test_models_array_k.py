@@ -307,3 +307,18 @@ def test_flattened_pairs_with_repeated_wavevectors_share_rows_correctly(name, mo
     for i in range(kp.size):
         one = call(name, omega[i], species, complex(kp[i]), complex(kq[i]), B, omega_c)
         assert_close(res.value[i], one.value, RTOL, f"{name} element {i}")
+
+
+def test_distinct_rows_group_equal_wavevectors_exactly():
+    """The rows grouped by bit pattern: each row is its distinct row exactly, the distinct
+    rows differ from one another, and their number is numpy's ``unique(axis=0)`` count
+    (the definition of the grouping it replaces), on pairs with many repeats, complex
+    entries and rows equal in one column only."""
+    rng = np.random.default_rng(11)
+    kpar = rng.choice([0.3, 0.3 + 1e-16, 0.45 - 0.02j, 1.2], 500).astype(complex)
+    kperp = rng.choice([0.3, 0.7, 0.7 + 0.1j], 500).astype(complex)
+    rows = np.stack((kpar, kperp), axis=1)
+    distinct, inverse = _harmonics._distinct_rows(rows)
+    assert np.array_equal(distinct[inverse], rows)
+    assert len({tuple(r) for r in distinct.tolist()}) == len(distinct)
+    assert len(distinct) == len(np.unique(rows, axis=0))

@@ -918,6 +918,21 @@ class ArraySetup:
         )
 
 
+def _distinct_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The distinct rows of a 2-D complex array (equal bit for bit) and, for each row, the
+    index of its distinct row: ``np.unique(rows, axis=0, return_inverse=True)`` up to the
+    order of the distinct rows, by a sort on the rows' 64-bit words (``np.unique`` with
+    ``axis`` sorts a structured view, about 10× slower on thousands of rows)."""
+    bits = np.ascontiguousarray(rows).view(np.int64)
+    order = np.lexsort(bits.T[::-1])
+    ranked = bits[order]
+    new = np.ones(len(rows), dtype=bool)
+    np.any(ranked[1:] != ranked[:-1], axis=1, out=new[1:])
+    inverse = np.empty(len(rows), dtype=np.intp)
+    inverse[order] = np.cumsum(new) - 1
+    return rows[order[new]], inverse
+
+
 def prepare_species_array(
     omega: np.ndarray, species: Species, *, k_par: np.ndarray, k_perp: np.ndarray, B: float,
     tol: float, model: str, tail: tuple[int, ...],
@@ -944,7 +959,7 @@ def prepare_species_array(
     both = np.stack((kpar.ravel(), kp), axis=1)
     rows_k = np.arange(kp.size).reshape(kpar.shape)
     if kp.size > 1 and np.all(np.isfinite(both)):
-        distinct, inverse = np.unique(both, axis=0, return_inverse=True)
+        distinct, inverse = _distinct_rows(both)
         if len(distinct) < kp.size:
             kp, rows_k = distinct[:, 1], inverse.reshape(kpar.shape)
     with np.errstate(all="ignore"):
