@@ -265,6 +265,25 @@ def test_foreign_folder_exit_2_nothing_written(tmp_path: Path) -> None:
     assert res.exit_code == 2 and "cannot be read as JSON" in res.stderr
 
 
+def test_edited_table_exit_2_naming_line_and_column(outputs: dict[str, Path],
+                                                    tmp_path: Path) -> None:
+    # a hand-edited cell reached the plot as an internal error (float('abc'))
+    folder = tmp_path / "solve"
+    folder.mkdir()
+    for name in ("branches.csv", "summary.json"):
+        (folder / name).write_bytes((outputs["solve"] / name).read_bytes())
+    rows = _csv(folder / "branches.csv")
+    for edit, words in (({"k": "abc"}, "line 3, column k: got 'abc'"),
+                        ({"omega_real": ""}, "line 3: converged is true but")):
+        with open(folder / "branches.csv", "w", newline="") as fh:
+            w = csv.DictWriter(fh, fieldnames=list(rows[0]))
+            w.writeheader()
+            w.writerows([rows[0], dict(rows[1], **edit)] + rows[2:])
+        res = runner.invoke(app, ["report", str(folder)])
+        assert res.exit_code == 2 and words in res.stderr, res.output
+        assert "Traceback" not in res.output and not (folder / "report.md").exists()
+
+
 def test_digits_rule() -> None:
     """The rule of kinroots.report.numbers on hand-checked cases."""
     assert relative_uncertainty(1e-10, 3e-13) == 1e-10

@@ -34,6 +34,11 @@ RESULT_COLUMNS: tuple[str, ...] = (
     "below_resolution",
 )
 
+#: Columns of every kinroots table that hold text; every other column holds numbers,
+#: true/false, or nothing (a failed point).
+TEXT_COLUMNS: frozenset[str] = frozenset(
+    {"status", "reason", "warnings", "wave_name", "below_resolution"})
+
 #: Columns of ``branches.csv`` and ``roots.csv``, in order.  The first ten are the
 #: contract of docs/design.md; then how each root was obtained; then the mode identity
 #: (kinroots.physics.modes), followed by one ``density_abs_<s>``, ``density_phase_deg_<s>`` pair
@@ -179,7 +184,7 @@ def column_units(columns: Sequence[str], *, frequency: str, length: str,
             unit = "1/m"
         elif c.endswith("_m"):
             unit = "m"
-        elif c in ("status", "reason", "warnings"):
+        elif c in TEXT_COLUMNS:
             unit = "text"
         else:
             unit = "1"

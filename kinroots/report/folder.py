@@ -15,6 +15,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from kinroots.io.tables import TEXT_COLUMNS
+
 __all__ = ["KINDS", "Output", "ReportError", "Result", "read_folder"]
 
 
@@ -101,8 +103,24 @@ def _read_table(path: Path) -> tuple[list[str], list[dict[str, Any]]]:
             if len(cells) != len(header):
                 raise ReportError(f"{path}: line {n}: {len(cells)} cells; expected "
                                   f"{len(header)} as in the header")
-            rows.append({h: typed(c) for h, c in zip(header, cells, strict=True)})
+            row = {h: typed(c) for h, c in zip(header, cells, strict=True)}
+            for h, value in row.items():
+                if isinstance(value, str) and h not in TEXT_COLUMNS:
+                    raise ReportError(f"{path}: line {n}, column {h}: got {value!r}; "
+                                      "expected a number, true/false or an empty cell (the "
+                                      "table was edited?)")
+            if row.get("converged") is True and any(
+                    h in row and not finite(row[h]) for h in _VALUES_OF_CONVERGED):
+                raise ReportError(f"{path}: line {n}: converged is true but "
+                                  f"{' / '.join(h for h in _VALUES_OF_CONVERGED if h in row)} "
+                                  "is not a finite number; expected the value of the root")
+            rows.append(row)
     return header, rows
+
+
+#: Columns that a converged row always fills (the root itself).
+_VALUES_OF_CONVERGED: tuple[str, ...] = ("k", "omega_real", "omega_imag", "freq_hz",
+                                         "k_real", "k_imag")
 
 
 def _case_of(meta: Mapping[str, Any], name: str) -> tuple[Any, str]:
