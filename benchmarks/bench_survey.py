@@ -9,10 +9,14 @@ one circle per cluster root, one-point Newton, the nine-point noise check; and
 it is now.  Printed: evaluations
 (deterministic), wall time, and whether every root of the baseline is found again
 ("lost" counts those that are not; it must be 0) with the same count.
+
+``--breakdown``: for the wide windows only, the evaluations of the survey as it is now
+by step (outer boundary, cut lines, Newton, noise checks, circles).
 """
 
 from __future__ import annotations
 
+import collections
 import importlib
 import pathlib
 import sys
@@ -28,6 +32,7 @@ survey_module = importlib.import_module("kinroots.roots.survey")  # kinroots.roo
 contour_module = importlib.import_module("kinroots.roots.contour")
 from kinroots.io.case import load_case  # noqa: E402
 from kinroots.roots import find_roots  # noqa: E402
+from kinroots.roots.result import CountedFunction  # noqa: E402
 from kinroots.study.problem import survey  # noqa: E402
 
 #: Wide windows (normalized) on example cases, at one k each: many damped roots.
@@ -65,7 +70,49 @@ def _run(job, baseline: bool):
         contour_module._EVEN_SPLIT = True
 
 
+#: Where ``--breakdown`` files each evaluation: the survey step it happens in (innermost).
+_STEPS = (("_outer", "outer boundary"), ("_split", "cut lines"), ("_on_circle", "circles"),
+          ("_ex_contribution", "excluded points"), ("_polish", "Newton"),
+          ("_verified", "multiplicity circles"))
+
+
+def breakdown() -> None:
+    """Evaluations of the wide windows by survey step (the step's methods wrapped)."""
+    steps = ["other"]
+    counts: collections.Counter[str] = collections.Counter()
+    counted = CountedFunction.__call__
+
+    def call(self, z):
+        before = self.evaluations
+        out = counted(self, z)
+        counts[steps[-1]] += self.evaluations - before
+        return out
+
+    def within(fn, label):
+        def wrapped(*args, **kwargs):
+            steps.append(label)
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                steps.pop()
+        return wrapped
+
+    CountedFunction.__call__ = call
+    for attr, label in _STEPS:
+        setattr(survey_module._Survey, attr, within(getattr(survey_module._Survey, attr), label))
+    for attr, label in (("newton_starts", "Newton"), ("hermite_noise_error", "noise checks")):
+        setattr(survey_module, attr, within(getattr(survey_module, attr), label))
+    for name, box, k in WIDE:
+        counts.clear()
+        res = survey(load_case(ROOT / "cases" / f"{name}.toml"), k, box=box)
+        parts = ", ".join(f"{label} {n}" for label, n in counts.most_common() if n)
+        print(f"{name[:30]:30s} {res.count!s:>4s} zeros {res.evaluations:6d}: {parts}")
+
+
 def main() -> None:
+    if "--breakdown" in sys.argv[1:]:
+        breakdown()
+        return
     print(f"{'survey':36s} {'roots':>5s} {'evals before':>12s} {'after':>6s} {'ratio':>6s} "
           f"{'time ratio':>10s} {'lost':>4s}")
     tot_b = tot_a = lost_all = 0
