@@ -21,8 +21,11 @@ Method
    point or cannot be resolved, a few off-centre positions are tried.
 4. One zero: the first contour moment gives the starting point; Newton polishes it.
    A cluster: Delves–Lyness moments and the Hankel eigenvalue problem of Kravanja & Van
-   Barel give the starting points, improved together by plain Newton on arrays (one f
-   call per iteration); damped Newton polishes each.  The zeros found are deflated
+   Barel give the starting points, improved together on arrays (one f call per
+   iteration) by Aberth–Ehrlich steps with the zero-free part of f'/f, the Cauchy
+   integral of f'/f on the cell's boundary, taken out
+   (:func:`~kinroots.roots.contour.smooth_log_derivative`); a start settled to 1e-4
+   tolerances is the root, any other is polished by damped Newton.  The zeros found are deflated
    from the moments and the Hankel problem of the rest gives further starting points.
    n distinct zeros in a cell that winds n times are simple; otherwise a small circle
    around each root gives its multiplicity.  A cell whose count is not accounted for
@@ -452,8 +455,8 @@ class _Survey:
                 z0 = center
         r = None
         if not _BASELINE:
-            # plain Newton first, as for clusters: a start it brings to a tenth of the
-            # tolerance is a root as it stands (damped Newton from the estimate stops
+            # plain Newton first, as for clusters: a start it settles (1e-4 tolerances)
+            # is a root as it stands (damped Newton from the estimate stops
             # as soon as its correction is within the tolerance)
             (z1,), (st,), (ze,) = newton_starts(self.func, np.array([z0]), rtol=self.rtol,
                                                 atol=self.atol, region=self._region(box))
