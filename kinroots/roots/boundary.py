@@ -348,7 +348,8 @@ class BoundaryCounter:
                     e = start[j] + np.flatnonzero(failing[owner == j])[0]
                     where = wheres[i] = complex(0.5 * (z[e] + z[nxt[e]]))
                     notes[i] = (f"boundary unresolved near {where:.6g} (a zero on or next "
-                                "to an edge)")
+                                "to an edge, e.g. a marginal wave on an edge at Im = 0; "
+                                "moving that edge a little lets it be counted)")
                 else:
                     continue
                 split[owner == j] = False
