@@ -359,3 +359,26 @@ def test_counts_carried_on_the_tracers_call_see_what_their_own_call_would():
             fin = np.isfinite(w)
             assert np.array_equal(fin, np.isfinite(g))
             assert np.all(np.abs(g[fin] - w[fin]) <= 1e-12 * np.max(np.abs(w[fin])))
+
+
+def test_marginal_wave_on_the_windows_top_edge_is_counted():
+    """The beam case with its window's top edge at Im ω = 0: past the instability
+    (k λ_De ≳ 0.07) the beam wave is marginal, its γ at rounding level, so it sits on
+    that edge and no count on the window's own edges resolves there.  The survey moves
+    the edge off it; its count and the rows are compared inside the moved box, so every
+    k is verified and the wave is in the table (it was left out, the k unverified)."""
+    import tomllib
+
+    raw = tomllib.loads((Path(__file__).resolve().parent.parent / "cases"
+                         / "electron_beam_plasma.toml").read_text())
+    raw["search"]["imag"] = [-0.005, 0.0]
+    raw["scan"]["k"]["points"] = 5
+    case = parse_case(raw, "<beam, top edge on the real axis>")
+    sol = solve(case)
+    assert all(c.verified and c.count == c.rows for c in sol.point_checks), sol.point_checks
+    for k in (0.095, 0.12):
+        got = [b.points[k].value for b in sol.branches
+               if k in b.points and b.points[k].converged]
+        assert len(got) == 1 and abs(got[0].imag) <= 1e-9 * abs(got[0])
+        s = survey(case, k)  # the survey at that k alone, with its edge moved
+        assert s.count == 1 and abs(s.values[0] - got[0]) <= 1e-9 * abs(got[0])

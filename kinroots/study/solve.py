@@ -299,12 +299,19 @@ def follow_branches(
     results: list[TracedBranch] = []
     surveys: list[tuple[float, SurveyResult]] = []
     counts: dict[float, tuple[int | None, str]] = {}
+    # the box a survey counted in, where it moved an edge off a zero or pole on it: the
+    # rows at that point are compared with its count inside that box
+    counted_in: dict[float, tuple[float, float, float, float]] = {}
 
     def do_survey(i: int) -> SurveyResult:
         nonlocal evaluations
         s = survey_at(params[i])
         evaluations += s.evaluations
         surveys.append((params[i], s))
+        if s.count is not None and tuple(s.box) != tuple(box):
+            counted_in[params[i]] = s.box
+        else:
+            counted_in.pop(params[i], None)
         if not s.complete:  # one note per reason, with every parameter value it applies to
             reason = "; ".join(dict.fromkeys(s.notes)) or "no detail"
             incomplete.setdefault(reason, []).append(
@@ -312,8 +319,10 @@ def follow_branches(
         return s
 
     def rows_at(p: float) -> int:
+        where = counted_in.get(p, box)
         return sum(b.points[p].multiplicity for b in results
-                   if p in b.points and b.points[p].converged and _inside(b.points[p].value, box))
+                   if p in b.points and b.points[p].converged
+                   and _inside(b.points[p].value, where))
 
     def meets(tb: TracedBranch, p: float, z: complex) -> TracedBranch | None:
         """Another branch with a root within merge distance of z at p."""
@@ -449,9 +458,12 @@ def follow_branches(
             for m in range(i, j + 1):
                 n, why = counts[params[m]]
                 rows = rows_at(params[m])
-                if n is None and "not finite" in why:
-                    # |D| on the boundary spans more than double precision holds even
-                    # scaled by one constant: the survey counts in sub-boxes instead
+                if n is None:
+                    # no count on the window's edges: a zero or pole on or next to an
+                    # edge (the survey moves that edge off it, and its count and the
+                    # rows are then compared inside the moved box), or |D| on the
+                    # boundary beyond double precision even scaled by one constant (the
+                    # survey counts in sub-boxes): the survey counts here instead
                     s = reconcile(m, j, last_ok)
                     counts[params[m]] = (s.count, why if s.count is None else "")
                     n, rows = s.count, rows_at(params[m])
