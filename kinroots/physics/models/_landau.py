@@ -311,17 +311,25 @@ def first_moment_scalar(zeta: complex) -> tuple[complex, complex]:
     m1 = u * acc
     dm1 = -(u / zeta) * dacc
     if zeta.imag <= 0.0:
-        zz = zeta * zeta
-        if zz.real > _EXP_UNDERFLOW:  # exp(−ζ²) is below the smallest double: no term
-            return m1, dm1
-        # σ i√π exp(−ζ²), σ = 1 on the real axis, 2 below, with the exponent split
-        # exactly (relative error of a few ulp however large Im ζ² is)
-        e = _exp_term_scalar(zeta)
-        if zeta.imag == 0.0:
-            e *= 0.5
-        m1 -= zeta * e
-        dm1 += (2.0 * zz - 1.0) * e
+        t, dt = landau_term_scalar(zeta)
+        m1 += t
+        dm1 += dt
     return m1, dm1
+
+
+def landau_term_scalar(zeta: complex) -> tuple[complex, complex]:
+    """The Landau terms of M_1 and dM_1/dζ at one point with Im ζ ≤ 0 in the series
+    region: −ζe and (2ζ² − 1)e, e = σ i√π exp(−ζ²) (σ = 1 on the real axis, 2 below;
+    times the current :func:`~kinroots.physics.zfunc.landau_shift`), the exponent split
+    exactly (relative error of a few ulp however large Im ζ² is); 0 where exp(−ζ²) is
+    below the smallest double."""
+    zz = zeta * zeta
+    if zz.real > _EXP_UNDERFLOW:
+        return 0j, 0j
+    e = _exp_term_scalar(zeta)
+    if zeta.imag == 0.0:
+        e *= 0.5
+    return -zeta * e, (2.0 * zz - 1.0) * e
 
 
 def first_moment(zeta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -19,19 +19,18 @@ import numpy as np
 
 from kinroots.physics.models._landau import (  # re-exported: the moments' old home
     _COUNT_TABLE_END,
-    _EXP_UNDERFLOW,
     _SCALAR_POINTS,
     _ZETA_SERIES,
     MergedRow,
     first_moment,
     first_moment_scalar,
     landau_moments,
+    landau_term_scalar,
     merged_series,
     thermal_speeds_squared,
 )
 from kinroots.physics.models.base import Susceptibility
 from kinroots.physics.plasma import Species
-from kinroots.physics.zfunc import _exp_term_scalar
 
 __all__ = ["SpeciesSum", "first_moment", "landau_moments", "susceptibility"]
 
@@ -308,20 +307,11 @@ def _shift_groups(constants: tuple[tuple[complex, complex, complex, complex], ..
 
 def _landau_terms(big: complex, members: tuple[_Member, ...], v: complex, d: complex
                   ) -> tuple[complex, complex]:
-    """``v`` and ``d`` plus the Landau terms of the series species ``members`` at
-    ω − k∥V = ``big`` (Im ≤ 0): c_s·(−ζ_s e_s) and (c_s/κ_s)(2ζ_s² − 1)e_s with
-    e_s = σ i√π exp(−ζ_s²) (σ = 1 on the real axis, 2 below; times the current
-    :func:`~kinroots.physics.zfunc.landau_shift`), as :func:`first_moment_scalar` adds
-    them; none where exp underflows to zero."""
-    half = big.imag == 0.0
+    """``v`` and ``d`` plus the Landau terms (:func:`landau_term_scalar`) of the series
+    species ``members`` at ω − k∥V = ``big`` (Im ≤ 0), weighted as
+    :meth:`SpeciesSum._point` weights M_1 and dM_1/dζ."""
     for _, kappa, coef, dcoef, _ in members:
-        zeta = big / kappa
-        zz = zeta * zeta
-        if zz.real > _EXP_UNDERFLOW:
-            continue
-        e = _exp_term_scalar(zeta)
-        if half:
-            e *= 0.5
-        v -= coef * (zeta * e)
-        d += dcoef * ((2.0 * zz - 1.0) * e)
+        t, dt = landau_term_scalar(big / kappa)
+        v += coef * t
+        d += dcoef * dt
     return v, d
