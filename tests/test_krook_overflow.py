@@ -8,6 +8,7 @@ from pathlib import Path
 import mpmath as mp
 import numpy as np
 import pytest
+from _mp_reference import plasma_z as _z
 
 from kinroots.io.case import load_case, parse_case
 from kinroots.physics.models import krook, krook_dispersion
@@ -15,11 +16,6 @@ from kinroots.physics.plasma import EV, M_PROTON, Species
 from kinroots.study.problem import function_at, survey
 
 DATA = Path(__file__).parent / "data"
-
-
-def _z(zeta: mp.mpc) -> mp.mpc:
-    """Z(ζ) = i√π exp(−ζ²) erfc(−iζ) (Fried & Conte 1961; NIST DLMF 7.2.3)."""
-    return 1j * mp.sqrt(mp.pi) * mp.exp(-zeta * zeta) * mp.erfc(-1j * zeta)
 
 
 def _with_nu(case, **nus: float):

@@ -9,6 +9,8 @@ from pathlib import Path
 import mpmath as mp
 import numpy as np
 import pytest
+from _mp_reference import plasma_z as _z
+from _mp_reference import weibel_lambdas
 
 from kinroots.io.case import load_case
 from kinroots.physics.plasma import C_LIGHT, EV
@@ -26,32 +28,11 @@ WEIBEL = WEIBEL_FILE.read_text(encoding="utf-8")  # the text (tests/test_cli_che
 mp.mp.dps = 40
 
 
-def _z(zeta: mp.mpc) -> mp.mpc:
-    """Z(ζ) = i√π exp(−ζ²) erfc(−iζ) (Fried & Conte 1961; NIST DLMF 7.2.3)."""
-    return 1j * mp.sqrt(mp.pi) * mp.exp(-zeta * zeta) * mp.erfc(-1j * zeta)
-
-
 def _lambdas(case, k_hat: float, w: mp.mpc) -> tuple[mp.mpc, mp.mpc]:
-    """Λ_yy (= Λ_xx) and Λ_zz at normalized ω = w, k ∥ z, B = 0, bi-Maxwellians.
-
-    Transverse: Λ_yy = 1 − k²c²/ω² + Σ_s (ω_ps²/ω²)[−1 + (T⊥/T∥)(1 + ζ_s Z(ζ_s))];
-    longitudinal: Λ_zz = 1 + Σ_s (2ω_ps²/(k²w∥s²))(1 + ζ_s Z(ζ_s)), ζ_s = ω/(k w∥s),
-    w∥s² = 2T∥s/m_s (E. S. Weibel, Phys. Rev. Lett. 2, 83 (1959); R. C. Davidson, in
-    Handbook of Plasma Physics vol. 1 (1983), ch. 3.3; from memory).
-    """
-    w_pe = case.units.omega_unit
+    """Λ_yy (= Λ_xx) and Λ_zz (:func:`_mp_reference.weibel_lambdas`) at normalized
+    k = k_hat and ω = w."""
     k = mp.mpf(k_hat) / case.units.length_unit
-    om = mp.mpc(w) * w_pe
-    lyy = 1 - (k * C_LIGHT / om) ** 2
-    lzz = mp.mpf(1)
-    for s in case.plasma.species:
-        wpar = mp.sqrt(2 * mp.mpf(s.temperature_par) * EV / s.mass)
-        zeta = om / (k * wpar)
-        g = 1 + zeta * _z(zeta)
-        wp2 = mp.mpf(s.plasma_frequency) ** 2
-        lyy += wp2 / om**2 * (-1 + mp.mpf(s.temperature_perp) / s.temperature_par * g)
-        lzz += 2 * wp2 / (k * wpar) ** 2 * g
-    return lyy, lzz
+    return weibel_lambdas(case.plasma, k, mp.mpc(w) * case.units.omega_unit)
 
 
 @pytest.fixture(scope="module")

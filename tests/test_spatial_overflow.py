@@ -9,11 +9,13 @@ from pathlib import Path
 import mpmath as mp
 import numpy as np
 import pytest
+from _mp_reference import plasma_z as _z
+from _mp_reference import weibel_lambdas
 
 from kinroots.io.case import load_case, parse_case
 from kinroots.physics.dispersion import dispersion_in_k, dispersion_in_k_scaled
 from kinroots.physics.models import krook_dispersion
-from kinroots.physics.plasma import C_LIGHT, EV
+from kinroots.physics.plasma import EV
 from kinroots.study.launch import launch
 from kinroots.study.probe import probe_launch
 from kinroots.study.problem import spatial_roots
@@ -26,11 +28,6 @@ ARGON = "cases/argon_ion_acoustic.toml"
 #: narrow box (double precision throughout) ends.
 WIDE = (0.02, 0.0202, 0.0, 0.05)
 NARROW = (0.02, 0.0202, 0.0, 0.022)
-
-
-def _z(zeta: mp.mpc) -> mp.mpc:
-    """Z(ζ) = i√π exp(−ζ²) erfc(−iζ) (Fried & Conte 1961; NIST DLMF 7.2.3)."""
-    return 1j * mp.sqrt(mp.pi) * mp.exp(-zeta * zeta) * mp.erfc(-1j * zeta)
 
 
 def _log_d_es(case, om: float, k: mp.mpc) -> mp.mpc:
@@ -87,16 +84,7 @@ def test_em_log_d_against_mpmath() -> None:
                                      model="electromagnetic", omega_ref=w_ref)
     with mp.workdps(30):
         for j, kj in enumerate(k):
-            kk = mp.mpc(kj)
-            lyy = 1 - (kk * C_LIGHT / om) ** 2
-            lzz = mp.mpf(1)
-            for s in case.plasma.species:
-                w = mp.sqrt(2 * mp.mpf(s.temperature_par) * EV / s.mass)
-                zeta = om / (kk * w)
-                g = 1 + zeta * _z(zeta)
-                wp2 = mp.mpf(s.plasma_frequency) ** 2
-                lyy += wp2 / om**2 * (-1 + mp.mpf(s.temperature_perp) / s.temperature_par * g)
-                lzz += 2 * wp2 / (kk * w) ** 2 * g
+            lyy, lzz = weibel_lambdas(case.plasma, mp.mpc(kj), om)
             ref = mp.log((mp.mpf(om) / w_ref) ** 4 * lyy**2 * lzz)
             got = np.log(d[j]) + p[j] * math.log(2.0)
             assert abs(got - ref) <= 1e-12 * abs(ref), (kj * L, got, ref)

@@ -10,6 +10,7 @@ import mpmath as mp
 import numpy as np
 import pytest
 import scipy.constants as sc
+from _mp_reference import plasma_z as _z
 from test_overflow_survey import _stix_d  # sibling test module (rootdir import)
 
 from kinroots.io.case import load_case
@@ -54,13 +55,6 @@ K_HAT = 1.0
 TE_OVER_TI = 100.0
 
 mp.mp.dps = 30
-
-
-def _z(zeta: mp.mpc) -> mp.mpc:
-    """Plasma dispersion function Z(ζ) = i√π exp(−ζ²) erfc(−iζ), valid in the whole plane
-    (B. D. Fried and S. D. Conte, *The Plasma Dispersion Function*, 1961; NIST DLMF
-    7.2.3 for erfc)."""
-    return 1j * mp.sqrt(mp.pi) * mp.exp(-zeta * zeta) * mp.erfc(-1j * zeta)
 
 
 def _d_and_prime(w: mp.mpc) -> tuple[mp.mpc, mp.mpc]:
